@@ -1,0 +1,57 @@
+/**
+ * Analysis settings shared by the CLI, the extension and the tests. Defaults are the documented ones;
+ * the extension maps its `residuum.*` configuration onto this object and the CLI its options.
+ */
+
+/** Settings of one analysis. */
+export interface AnalysisSettings {
+  /** Two-sided confidence of the NIS/NEES bounds (0.95). */
+  confidence: number;
+  /** Single-update outlier gate as a chi-square probability (0.999). */
+  gate: number;
+  /** Sliding window for time-averaged NIS/NEES, seconds (5). */
+  window_s: number;
+  /** Alternatively a window in updates; when set it wins over `window_s`. */
+  windowUpdates?: number;
+  /** Family-wise false-finding probability per channel or error block for `inconsistent` (0.01). */
+  familyAlpha: number;
+  /** Lags of the whiteness test (20). */
+  whitenessLags: number;
+  /** IMU preset name when the log's mapping gives no specification ('consumer'). */
+  imuPreset: string;
+  /** Mapping file used, if any. */
+  map?: string;
+  /** Offset added to the reference's time stamps, seconds (0). */
+  timeOffset_s: number;
+  /** Estimate the reference time offset by cross-correlation of speeds. */
+  estimateTimeOffset: boolean;
+  /** Maximum `worst` entries (100, the contract's cap). */
+  maxWorst: number;
+  /** Threshold of the `high-dop` finding (PDOP, 6). */
+  maxDop: number;
+  /** Treat the whole raw IMU log as static for Allan deviation. */
+  imuStatic: boolean;
+  /** Memory budget for the numeric columns, bytes; beyond it the analysis is decimated and `partial` set. */
+  memoryBudgetBytes: number;
+}
+
+/** The documented defaults. */
+export const DEFAULT_SETTINGS: AnalysisSettings = {
+  confidence: 0.95,
+  gate: 0.999,
+  window_s: 5,
+  familyAlpha: 0.01,
+  whitenessLags: 20,
+  imuPreset: 'consumer',
+  timeOffset_s: 0,
+  estimateTimeOffset: false,
+  maxWorst: 100,
+  maxDop: 6,
+  imuStatic: false,
+  memoryBudgetBytes: 4 * 1024 * 1024 * 1024,
+};
+
+/** Merge partial settings over the defaults. */
+export function resolveSettings(partial: Partial<AnalysisSettings> = {}): AnalysisSettings {
+  return { ...DEFAULT_SETTINGS, ...partial };
+}

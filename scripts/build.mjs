@@ -1,0 +1,31 @@
+// Builds every artifact with esbuild from one list (type checking is `npm run check-types`, separately).
+// Usage: node scripts/build.mjs [--production] [--watch]
+import * as esbuild from 'esbuild';
+import { existsSync, mkdirSync, copyFileSync, chmodSync } from 'node:fs';
+
+const production = process.argv.includes('--production');
+const watch = process.argv.includes('--watch');
+
+const common = { bundle: true, sourcemap: !production, minify: production, logLevel: 'warning', legalComments: 'none' };
+
+/** Every artifact: entry, output, platform. */
+const artifacts = [
+  { entryPoints: ['extension/host/extension.ts'], outfile: 'dist/extension.js', platform: 'node', format: 'cjs', target: 'node20', external: ['vscode'] },
+  { entryPoints: ['extension/host/analysisWorker.ts'], outfile: 'dist/analysisWorker.js', platform: 'node', format: 'cjs', target: 'node20', external: ['vscode'] },
+  { entryPoints: ['extension/cli/main.ts'], outfile: 'dist/cli.js', platform: 'node', format: 'cjs', target: 'node20', banner: { js: '#!/usr/bin/env node' } },
+  { entryPoints: ['webview/main.ts'], outfile: 'dist/webview.js', platform: 'browser', format: 'iife', target: 'es2022' },
+].filter((a) => existsSync(a.entryPoints[0]));
+
+mkdirSync('dist', { recursive: true });
+if (existsSync('node_modules/uplot/dist/uPlot.min.css')) copyFileSync('node_modules/uplot/dist/uPlot.min.css', 'dist/uPlot.min.css');
+if (existsSync('webview/style.css')) copyFileSync('webview/style.css', 'dist/webview.css');
+
+if (watch) {
+  for (const a of artifacts) {
+    const ctx = await esbuild.context({ ...common, ...a });
+    await ctx.watch();
+  }
+} else {
+  await Promise.all(artifacts.map((a) => esbuild.build({ ...common, ...a })));
+  if (existsSync('dist/cli.js')) chmodSync('dist/cli.js', 0o755);
+}
