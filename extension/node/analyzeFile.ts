@@ -1,0 +1,110 @@
+/**
+ * Node adapter of the analysis: reads a log (and the files of its run) from disk, hashes it while it streams,
+ * and hands the bytes to the pure core. Shared by the command-line tool and the extension host's worker.
+ */
+import { createHash } from 'node:crypto';
+import { existsSync, readFileSync, statSync } from 'node:fs';
+import * as path from 'node:path';
+import type { NavLog } from '../core/model';
+import type { Series } from '../core/series';
+import type { Report } from '../core/report';
+import { resolveSettings, type AnalysisSettings } from '../core/settings';
+import { analyzeLog, type StageTimes } from '../core/analyze';
+import { readRun, type ByteSource } from '../core/read/index';
+import { fileByteSource, openRelative } from './fileSource';
+
+/** Options of one analysis of a file on disk. */
+export interface AnalyzeFileOptions {
+  /** Mapping file; default: `<log>.map.json` beside the log when it exists. */
+  map?: string;
+  /** Anchors file (CSV or JSON). */
+  anchors?: string;
+  /** Separate reference trajectory file. */
+  reference?: string;
+  settings?: Partial<AnalysisSettings>;
+  signal?: AbortSignal;
+  /** Fraction of the main file read so far, 0..1. */
+  onProgress?: (fraction: number) => void;
+  /** Filled with per-stage elapsed milliseconds (read, analyse stages). */
+  times?: StageTimes;
+  /** Notes to carry in the report (from the notes sidecar). */
+  notes?: unknown[];
+}
+
+/** The report, the panel's series and the log they came from. */
+export interface FileAnalysis {
+  report: Report;
+  series: Series[];
+  log: NavLog;
+}
+
+/** An input problem that stops the analysis (missing or unreadable file, malformed mapping): one plain line. */
+export class InputError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'InputError';
+  }
+}
+
+/** Check that `file` is a readable regular file; throws InputError with one plain line otherwise. */
+export function assertReadableFile(file: string, what: string): void {
+  let st;
+  try {
+    st = statSync(file);
+  } catch (e) {
+    const code = (e as NodeJS.ErrnoException).code;
+    throw new InputError(code === 'ENOENT' ? `${what} not found: ${file}` : `${what} cannot be read: ${file} (${code ?? String(e)})`);
+  }
+  if (st.isDirectory()) throw new InputError(`${what} is a folder, not a file: ${file}`);
+  if (!st.isFile()) throw new InputError(`${what} is not a regular file (a pipe or device?): ${file}`);
+}
+
+/** Analyse one log file with the files of its run. Throws InputError for unreadable inputs; bad data becomes findings. */
+export async function analyzeFile(logPath: string, options: AnalyzeFileOptions = {}): Promise<FileAnalysis> {
+  assertReadableFile(logPath, 'log');
+  const settings = resolveSettings(options.settings);
+  const mapPath = options.map ?? (existsSync(`${logPath}.map.json`) ? `${logPath}.map.json` : undefined);
+  let map: { text: string; name: string } | undefined;
+  if (mapPath) {
+    assertReadableFile(mapPath, 'mapping file');
+    map = { text: readFileSync(mapPath, 'utf8'), name: mapPath };
+    settings.map = mapPath;
+  }
+  for (const [file, what] of [[options.anchors, 'anchors file'], [options.reference, 'reference file']] as const) {
+    if (file) assertReadableFile(file, what);
+  }
+
+  const size = statSync(logPath).size;
+  const hash = createHash('sha256');
+  const raw = fileByteSource(logPath);
+  let bytesRead = 0;
+  const main: ByteSource = {
+    name: logPath,
+    size,
+    async *chunks(signal?: AbortSignal) {
+      for await (const chunk of raw.chunks(signal)) {
+        hash.update(chunk);
+        bytesRead += chunk.byteLength;
+        options.onProgress?.(size > 0 ? bytesRead / size : 1);
+        yield chunk;
+      }
+    },
+  };
+
+  const t0 = performance.now();
+  const log = await readRun(main, {
+    map,
+    anchors: options.anchors ? fileByteSource(options.anchors) : undefined,
+    reference: options.reference ? fileByteSource(options.reference) : undefined,
+    open: (p: string, relativeTo: string) => openRelative(p, relativeTo),
+    signal: options.signal,
+  });
+  if (options.times) options.times.read = performance.now() - t0;
+  const { report, series } = analyzeLog(log, settings, { sha256: hash.digest('hex'), notes: options.notes }, options.times);
+  return { report, series, log };
+}
+
+/** Absolute, normalised form of a user-given path (for messages and the report). */
+export function displayPath(p: string): string {
+  return path.relative(process.cwd(), path.resolve(p)) || p;
+}
