@@ -1,0 +1,314 @@
+/**
+ * Typed messages between the extension host and the analysis panel's webview.
+ *
+ * Conventions (stated once, here):
+ * - Message `type`s are string literals named `${scope}/${verb}` (readable in devtools, no runtime enum needed).
+ * - The webview speaks first (`ready`); the host answers with one `init`, and sends `init` again after a re-read.
+ * - A request carries a numeric `id`; its response carries the same `id` (`series/request` -> `series/response`).
+ * - Columns travel as exact-size `ArrayBuffer`s of little-endian float64 (`Float64Array` on both sides), never as
+ *   `number[]` or row objects. `x` is seconds in the log's own time base (for `logLog` series: tau in seconds; for
+ *   `xy` series: east/x in metres).
+ * - Everything the webview sends is untrusted input: the host accepts it only through {@link parseWebviewMessage},
+ *   which checks every field at run time. A file is named by its index in `InitMessage.files`, never by a path.
+ *
+ * This file imports types only, so both the host and the webview bundle can use it without pulling code in,
+ * except for the small guard functions at the bottom, which are pure.
+ */
+import type { Report } from './core/report';
+
+/** One series the host holds, described without its data. */
+export interface SeriesInfo {
+  key: string;
+  group: string;
+  label: string;
+  unit: string;
+  /** Log-log axes (Allan deviation). */
+  logLog: boolean;
+  /** The series carries a band (`lo`/`hi`: bounds or a +-3 sigma envelope). */
+  band: boolean;
+  /** `x` is not time but a planar coordinate (trajectory from above, anchor positions). */
+  xy: boolean;
+  /** Number of points the host holds. */
+  points: number;
+  /** Smallest and largest finite x (NaN when the series is empty). */
+  x0: number;
+  x1: number;
+}
+
+/** A histogram of a NIS series against the chi-square density of its dof (counts per bin). */
+export interface HistogramInfo {
+  /** Series key the values came from (`nis/<ch>`). */
+  key: string;
+  dof: number;
+  /** Bin edges, ascending, `counts.length + 1` of them. */
+  edges: number[];
+  counts: number[];
+  /** Expected counts per bin under chi-square(dof) with the same number of finite values. */
+  expected: number[];
+  /** Finite values beyond the last edge. */
+  overflow: number;
+  /** Finite values counted in all. */
+  total: number;
+}
+
+/** What the panel shows and where: kept by the webview with `setState` and handed back on restore. */
+export interface ViewState {
+  /** Selected view (tab) id. */
+  view?: string;
+  /** Visible time window [t0, t1] in seconds, when zoomed. */
+  window?: [number, number];
+  /** Time of the linked cursor, seconds. */
+  cursor_s?: number;
+  /** Index into `report.worst` of the selected entry. */
+  worstIndex?: number;
+}
+
+/** The webview's persisted state: the log it shows and its view state (what the serializer gets back). */
+export interface PersistedState {
+  /** URI of the log (string form). */
+  uri: string;
+  view: ViewState;
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Webview -> host
+
+/** The webview has loaded and listens; the host answers with `init`. */
+export interface ReadyMessage {
+  type: 'ready';
+  /** View state restored by the webview, if any. */
+  view?: ViewState;
+}
+
+/** Ask for a min/max envelope of one series over a window, one bucket per pixel column. */
+export interface SeriesRequestMessage {
+  type: 'series/request';
+  id: number;
+  key: string;
+  /** Window start and end (x units); absent = the whole series. */
+  t0?: number;
+  t1?: number;
+  /** Width of the plot in CSS pixels: the number of buckets. */
+  widthPx: number;
+}
+
+/** Reveal a line of one of the run's files in a text editor beside the panel, selected. */
+export interface RevealLineMessage {
+  type: 'reveal/line';
+  /** 1-based line. */
+  line: number;
+  /** Index into `InitMessage.files` (default 0, the main log). */
+  file?: number;
+  /** Time of the epoch concerned, seconds (for the cursor of other views). */
+  t?: number;
+  /** Index into `report.worst` when the choice came from the worst list. */
+  worstIndex?: number;
+}
+
+/** The linked time cursor moved (by hover or selection). */
+export interface CursorDidChangeMessage {
+  type: 'cursor/didChange';
+  t: number;
+  worstIndex?: number;
+}
+
+/** A line for the host's output channel (webview errors, render notes). */
+export interface LogWriteMessage {
+  type: 'log/write';
+  level: 'info' | 'warning' | 'error';
+  message: string;
+}
+
+/** Every message the webview may send. */
+export type WebviewToHostMessage =
+  | ReadyMessage
+  | SeriesRequestMessage
+  | RevealLineMessage
+  | CursorDidChangeMessage
+  | LogWriteMessage;
+
+// ---------------------------------------------------------------------------------------------------------------
+// Host -> webview
+
+/** Everything the panel needs to draw (sent after `ready` and again after each re-read). */
+export interface InitMessage {
+  type: 'init';
+  /** Increases with each re-read of the log. */
+  revision: number;
+  /** Display name of the log (file name only). */
+  logName: string;
+  /** Display names of the run's files; `RevealLineMessage.file` indexes this. */
+  files: string[];
+  report: Report;
+  series: SeriesInfo[];
+  histograms: HistogramInfo[];
+  /** View state to restore (from the serializer or the previous revision). */
+  view?: ViewState;
+  /** One line shown above the views (e.g. "The log was truncated and re-read."). */
+  notice?: string;
+}
+
+/** The envelope answering one `series/request` (columns as float64 ArrayBuffers of equal length). */
+export interface SeriesResponseMessage {
+  type: 'series/response';
+  id: number;
+  key: string;
+  x: ArrayBuffer;
+  y: ArrayBuffer;
+  lo?: ArrayBuffer;
+  hi?: ArrayBuffer;
+  /** 1-based source line per point (NaN where unknown). */
+  line?: ArrayBuffer;
+  /** Points of the series inside the window before bucketing. */
+  inWindow: number;
+  /** Why no data came back (unknown key ...). */
+  error?: string;
+}
+
+/** Move the linked cursor (from the next/previous worst epoch commands). */
+export interface CursorSetMessage {
+  type: 'cursor/set';
+  t: number;
+  worstIndex?: number;
+}
+
+/** Loading progress or a failure to show instead of an endless spinner. */
+export interface StatusMessage {
+  type: 'status';
+  state: 'loading' | 'error';
+  /** 0..1 while loading, when known. */
+  progress?: number;
+  message?: string;
+}
+
+/** Every message the host may send. */
+export type HostToWebviewMessage = InitMessage | SeriesResponseMessage | CursorSetMessage | StatusMessage;
+
+// ---------------------------------------------------------------------------------------------------------------
+// Guards
+
+/** Exhaustiveness check for `switch (msg.type)`: a compile error when a case is missing, a throw if reached. */
+export function assertNever(value: never): never {
+  throw new Error(`unexpected message: ${JSON.stringify(value)}`);
+}
+
+/** Largest line number accepted from the webview (beyond any real log). */
+const MAX_LINE = 2 ** 40;
+/** Largest plot width accepted, pixels. */
+const MAX_WIDTH_PX = 16384;
+/** Longest log text accepted from the webview, characters. */
+const MAX_LOG_CHARS = 4000;
+
+function isRecord(value: unknown): value is Record<string, unknown> {
+  return typeof value === 'object' && value !== null && !Array.isArray(value);
+}
+
+function isFiniteNumber(value: unknown): value is number {
+  return typeof value === 'number' && Number.isFinite(value);
+}
+
+function isIndex(value: unknown, max = Number.MAX_SAFE_INTEGER): value is number {
+  return typeof value === 'number' && Number.isInteger(value) && value >= 0 && value <= max;
+}
+
+/** An ArrayBuffer, or a typed-array view when a transport recreated one as such. */
+function isBufferLike(value: unknown): boolean {
+  return value instanceof ArrayBuffer || ArrayBuffer.isView(value);
+}
+
+function optional<T>(value: unknown, check: (v: unknown) => v is T): boolean {
+  return value === undefined || check(value);
+}
+
+/** Validate a view state from the webview or a serializer; returns a clean copy or undefined. */
+export function parseViewState(value: unknown): ViewState | undefined {
+  if (!isRecord(value)) return undefined;
+  const out: ViewState = {};
+  if (typeof value.view === 'string' && value.view.length <= 64) out.view = value.view;
+  const w = value.window;
+  if (Array.isArray(w) && w.length === 2 && isFiniteNumber(w[0]) && isFiniteNumber(w[1]) && w[0] < w[1]) out.window = [w[0], w[1]];
+  if (isFiniteNumber(value.cursor_s)) out.cursor_s = value.cursor_s;
+  if (isIndex(value.worstIndex)) out.worstIndex = value.worstIndex;
+  return out;
+}
+
+/** Validate a persisted panel state (from `deserializeWebviewPanel`); undefined when unusable. */
+export function parsePersistedState(value: unknown): PersistedState | undefined {
+  if (!isRecord(value) || typeof value.uri !== 'string' || value.uri.length === 0 || value.uri.length > 8192) return undefined;
+  return { uri: value.uri, view: parseViewState(value.view) ?? {} };
+}
+
+/**
+ * Check a message from the webview field by field. Returns the typed message (a clean copy holding only known
+ * fields), or a reason string when it is unknown or malformed (the caller logs it and ignores the message).
+ */
+export function parseWebviewMessage(value: unknown): WebviewToHostMessage | string {
+  if (!isRecord(value)) return 'not an object';
+  const type = value.type;
+  switch (type) {
+    case 'ready': {
+      const view = value.view === undefined ? undefined : parseViewState(value.view);
+      return view ? { type, view } : { type };
+    }
+    case 'series/request': {
+      const { id, key, t0, t1, widthPx } = value;
+      if (!isIndex(id)) return 'series/request: id is not a non-negative integer';
+      if (typeof key !== 'string' || key.length === 0 || key.length > 512) return 'series/request: key is not a string';
+      if (!optional(t0, isFiniteNumber) || !optional(t1, isFiniteNumber)) return 'series/request: t0/t1 not finite';
+      if (t0 !== undefined && t1 !== undefined && !(t0 <= t1)) return 'series/request: t0 > t1';
+      if (!isIndex(widthPx, MAX_WIDTH_PX) || widthPx < 1) return 'series/request: widthPx out of range';
+      const out: SeriesRequestMessage = { type, id, key, widthPx };
+      if (t0 !== undefined) out.t0 = t0;
+      if (t1 !== undefined) out.t1 = t1;
+      return out;
+    }
+    case 'reveal/line': {
+      const { line, file, t, worstIndex } = value;
+      if (!isIndex(line, MAX_LINE) || line < 1) return 'reveal/line: line is not a positive integer';
+      if (!optional(file, isIndex) || !optional(t, isFiniteNumber) || !optional(worstIndex, isIndex)) return 'reveal/line: bad file, t or worstIndex';
+      const out: RevealLineMessage = { type, line };
+      if (file !== undefined) out.file = file;
+      if (t !== undefined) out.t = t;
+      if (worstIndex !== undefined) out.worstIndex = worstIndex;
+      return out;
+    }
+    case 'cursor/didChange': {
+      const { t, worstIndex } = value;
+      if (!isFiniteNumber(t)) return 'cursor/didChange: t not finite';
+      if (!optional(worstIndex, isIndex)) return 'cursor/didChange: bad worstIndex';
+      return worstIndex === undefined ? { type, t } : { type, t, worstIndex };
+    }
+    case 'log/write': {
+      const { level, message } = value;
+      if (level !== 'info' && level !== 'warning' && level !== 'error') return 'log/write: bad level';
+      if (typeof message !== 'string') return 'log/write: message is not a string';
+      return { type, level, message: message.slice(0, MAX_LOG_CHARS) };
+    }
+    default:
+      return `unknown message type ${JSON.stringify(typeof type === 'string' ? type.slice(0, 64) : typeof type)}`;
+  }
+}
+
+/**
+ * Check a message from the host in the webview (cheap structural check: the host is trusted, but a stale or
+ * foreign message must not break the panel). Returns undefined for anything unrecognised.
+ */
+export function parseHostMessage(value: unknown): HostToWebviewMessage | undefined {
+  if (!isRecord(value)) return undefined;
+  switch (value.type) {
+    case 'init':
+      return isRecord(value.report) && Array.isArray(value.series) && Array.isArray(value.files) && Array.isArray(value.histograms)
+        ? (value as unknown as InitMessage)
+        : undefined;
+    case 'series/response':
+      return isIndex(value.id) && typeof value.key === 'string' && isBufferLike(value.x) && isBufferLike(value.y)
+        ? (value as unknown as SeriesResponseMessage)
+        : undefined;
+    case 'cursor/set':
+      return isFiniteNumber(value.t) ? (value as unknown as CursorSetMessage) : undefined;
+    case 'status':
+      return value.state === 'loading' || value.state === 'error' ? (value as unknown as StatusMessage) : undefined;
+    default:
+      return undefined;
+  }
+}
