@@ -185,7 +185,7 @@ describe('SO(3) identities over identity, tiny (1e-8), random and near-pi fixtur
   it.each(fixtures)('%s: log(exp(phi)) = phi, exp(log R) = R, R R^T = I, J_l J_l^-1 = I', (_name, phi) => {
     const R = so3Exp(new Float64Array(9), phi);
     expect(rotationDefect(R)).toBeLessThan(1e-14);
-    const back = so3Log(new Float64Array(3), R);
+    const back = so3Log(new Float64Array(3), R) as Float64Array;
     const t = Math.hypot(phi[0], phi[1], phi[2]);
     if (Math.abs(t - Math.PI) < 1e-9) {
       // at exactly pi, phi and -phi are the same rotation
