@@ -64,6 +64,11 @@ export interface Stream {
   file: string;
   /** Number of records (the arrays may be longer: use only [0, length)). */
   length: number;
+  /**
+   * When the records come from several files of the run (joined by time): per record, the index into
+   * `NavLog.files` of its file (`file` is then the first of them). Absent when all come from `file`.
+   */
+  fileIndex?: Uint16Array;
 }
 
 /**
@@ -161,7 +166,26 @@ export interface NavLog {
   conventions: { attitudeErrorSide: AttitudeErrorSide; errorGroup?: 'SO3xR3' | 'SE3' | 'SE23' };
   /** IMU specification from the mapping file (SI units), if given. */
   imuSpec?: ImuSpec;
+  /** IMU specification exactly as the mapping file gives it (datasheet numbers with units), for conversion to SI. */
+  imuSpecRaw?: ImuSpecRaw;
   diagnostics: Diagnostic[];
+}
+
+/** A datasheet number with its unit as written in a mapping file (e.g. `{ value: 0.007, unit: "deg/s/sqrt(Hz)" }`). */
+export interface ImuSpecValue {
+  value: number;
+  unit: string;
+}
+
+/** IMU specification as the mapping file writes it (not yet SI); field meanings as in {@link ImuSpec}. */
+export interface ImuSpecRaw {
+  preset?: string;
+  gyroNoiseDensity?: ImuSpecValue;
+  gyroBiasInstability?: ImuSpecValue;
+  gyroRateRandomWalk?: ImuSpecValue;
+  accNoiseDensity?: ImuSpecValue;
+  accBiasInstability?: ImuSpecValue;
+  accRateRandomWalk?: ImuSpecValue;
 }
 
 /** IMU noise specification in SI units (conversion from datasheet units lives in core/imu/units.ts). */
