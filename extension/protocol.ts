@@ -135,6 +135,8 @@ export interface InitMessage {
   type: 'init';
   /** Increases with each re-read of the log. */
   revision: number;
+  /** URI of the log (string form), kept by the webview in `setState` so a restored panel finds its log. */
+  uri: string;
   /** Display name of the log (file name only). */
   logName: string;
   /** Display names of the run's files; `RevealLineMessage.file` indexes this. */
@@ -176,6 +178,8 @@ export interface CursorSetMessage {
 export interface StatusMessage {
   type: 'status';
   state: 'loading' | 'error';
+  /** URI of the log (string form), so the webview can persist it before the first `init`. */
+  uri: string;
   /** 0..1 while loading, when known. */
   progress?: number;
   message?: string;
@@ -216,8 +220,12 @@ function isBufferLike(value: unknown): boolean {
   return value instanceof ArrayBuffer || ArrayBuffer.isView(value);
 }
 
-function optional<T>(value: unknown, check: (v: unknown) => v is T): boolean {
-  return value === undefined || check(value);
+function optFinite(value: unknown): value is number | undefined {
+  return value === undefined || isFiniteNumber(value);
+}
+
+function optIndex(value: unknown): value is number | undefined {
+  return value === undefined || isIndex(value);
 }
 
 /** Validate a view state from the webview or a serializer; returns a clean copy or undefined. */
@@ -254,7 +262,7 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
       const { id, key, t0, t1, widthPx } = value;
       if (!isIndex(id)) return 'series/request: id is not a non-negative integer';
       if (typeof key !== 'string' || key.length === 0 || key.length > 512) return 'series/request: key is not a string';
-      if (!optional(t0, isFiniteNumber) || !optional(t1, isFiniteNumber)) return 'series/request: t0/t1 not finite';
+      if (!optFinite(t0) || !optFinite(t1)) return 'series/request: t0/t1 not finite';
       if (t0 !== undefined && t1 !== undefined && !(t0 <= t1)) return 'series/request: t0 > t1';
       if (!isIndex(widthPx, MAX_WIDTH_PX) || widthPx < 1) return 'series/request: widthPx out of range';
       const out: SeriesRequestMessage = { type, id, key, widthPx };
@@ -265,7 +273,7 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
     case 'reveal/line': {
       const { line, file, t, worstIndex } = value;
       if (!isIndex(line, MAX_LINE) || line < 1) return 'reveal/line: line is not a positive integer';
-      if (!optional(file, isIndex) || !optional(t, isFiniteNumber) || !optional(worstIndex, isIndex)) return 'reveal/line: bad file, t or worstIndex';
+      if (!optIndex(file) || !optFinite(t) || !optIndex(worstIndex)) return 'reveal/line: bad file, t or worstIndex';
       const out: RevealLineMessage = { type, line };
       if (file !== undefined) out.file = file;
       if (t !== undefined) out.t = t;
@@ -275,7 +283,7 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
     case 'cursor/didChange': {
       const { t, worstIndex } = value;
       if (!isFiniteNumber(t)) return 'cursor/didChange: t not finite';
-      if (!optional(worstIndex, isIndex)) return 'cursor/didChange: bad worstIndex';
+      if (!optIndex(worstIndex)) return 'cursor/didChange: bad worstIndex';
       return worstIndex === undefined ? { type, t } : { type, t, worstIndex };
     }
     case 'log/write': {

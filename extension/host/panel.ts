@@ -1,0 +1,407 @@
+/**
+ * One analysis panel for one log: its webview, the analysis run in a worker, the series kept for window queries,
+ * the watcher that re-reads a growing log, and the jumps to log lines. The manager (panels.ts) creates, finds and
+ * revives panels; this class owns everything about one.
+ *
+ * Jumps always use `vscode.open` with a `selection`: logs over 50 MB cannot become TextDocuments in the extension
+ * host, so `openTextDocument` is never used for them.
+ */
+import * as path from 'node:path';
+import * as vscode from 'vscode';
+import type { Diagnostic as ReaderDiagnostic } from '../core/model';
+import type { Report, WorstEntry } from '../core/report';
+import {
+  assertNever,
+  parseWebviewMessage,
+  type HostToWebviewMessage,
+  type HistogramInfo,
+  type InitMessage,
+  type RevealLineMessage,
+  type ViewState,
+} from '../protocol';
+import { readConfiguration, type EditorConfiguration } from './configuration';
+import { nisHistogram } from './histogram';
+import { panelHtml, webviewOptions } from './html';
+import { stepIndex } from './ranking';
+import { AnalysisError, runAnalysis, type AnalysisResult } from './runAnalysis';
+import { SeriesStore } from './seriesStore';
+
+/** The panel's webview type (also the serializer's). */
+export const PANEL_VIEW_TYPE = 'residuum.analysis';
+
+/** Debounce of file-change events before a re-read, milliseconds. */
+const RELOAD_DEBOUNCE_MS = 250;
+
+/** What a panel needs from its manager (direct calls, no events). */
+export interface PanelHost {
+  readonly extensionUri: vscode.Uri;
+  readonly output: vscode.LogOutputChannel;
+  /** A run finished (or was re-read): refresh Problems and the status bar. */
+  didUpdate(panel: AnalysisPanel): void;
+  /** The panel became the active one. */
+  didFocus(panel: AnalysisPanel): void;
+  /** The panel closed. */
+  didDispose(panel: AnalysisPanel): void;
+}
+
+/** Escape glob metacharacters of a file name for a RelativePattern. */
+export function globEscape(name: string): string {
+  return name.replace(/[[\]{}*?!]/g, (c) => `[${c}]`);
+}
+
+/** One log's analysis panel. */
+export class AnalysisPanel {
+  private readonly disposables: vscode.Disposable[] = [];
+  private store: SeriesStore | undefined;
+  private result: AnalysisResult | undefined;
+  private histograms: HistogramInfo[] = [];
+  private revision = 0;
+  private ready = false;
+  private loading: AbortController | undefined;
+  private reloadPending = false;
+  private error: string | undefined;
+  private notice: string | undefined;
+  private lastSize: number | undefined;
+  private reloadTimer: ReturnType<typeof setTimeout> | undefined;
+  private disposed = false;
+  private config: EditorConfiguration;
+  private settleLoaded: () => void = () => undefined;
+  /** Settles when the first analysis finished, failed or was cancelled. */
+  readonly loaded: Promise<void> = new Promise((resolve) => (this.settleLoaded = resolve));
+
+  /** Open a new panel for `uri` beside the active editor, without taking focus. */
+  static create(host: PanelHost, uri: vscode.Uri): AnalysisPanel {
+    const panel = vscode.window.createWebviewPanel(
+      PANEL_VIEW_TYPE,
+      AnalysisPanel.title(uri),
+      { viewColumn: vscode.ViewColumn.Beside, preserveFocus: true },
+      webviewOptions(host.extensionUri),
+    );
+    return new AnalysisPanel(host, panel, uri, {});
+  }
+
+  /** Panel title for a log. */
+  static title(uri: vscode.Uri): string {
+    return `Residuum: ${path.posix.basename(uri.path)}`;
+  }
+
+  /** Adopt an existing webview panel (restored by the serializer, or a custom editor's) for `uri`. */
+  constructor(
+    private readonly host: PanelHost,
+    readonly panel: vscode.WebviewPanel,
+    readonly uri: vscode.Uri,
+    private view: ViewState,
+  ) {
+    this.config = this.readConfig();
+    panel.iconPath = vscode.Uri.joinPath(host.extensionUri, 'media', 'residuum.svg');
+    panel.webview.options = webviewOptions(host.extensionUri);
+    panel.webview.html = panelHtml(panel.webview, host.extensionUri);
+    this.disposables.push(
+      panel.onDidDispose(() => this.dispose()),
+      panel.webview.onDidReceiveMessage((m: unknown) => this.onMessage(m)),
+      panel.onDidChangeViewState((e) => {
+        if (e.webviewPanel.active) host.didFocus(this);
+      }),
+    );
+    this.watch();
+    void this.load('open');
+  }
+
+  /** The latest report, once an analysis finished. */
+  get report(): Report | undefined {
+    return this.result?.report;
+  }
+
+  /** Reader diagnostics of the latest run. */
+  get readerDiagnostics(): readonly ReaderDiagnostic[] {
+    return this.result?.diagnostics ?? [];
+  }
+
+  /** The settings this panel's log was analysed with. */
+  get configuration(): EditorConfiguration {
+    return this.config;
+  }
+
+  /** Worst entries and findings count for in-host tests (undefined until the first analysis finished). */
+  state(): { worst: WorstEntry[]; findings: number } | undefined {
+    const r = this.result?.report;
+    return r ? { worst: r.worst, findings: r.findings.length } : undefined;
+  }
+
+  /** Show the panel (in its column) without taking focus. */
+  reveal(): void {
+    this.panel.reveal(undefined, true);
+  }
+
+  /** Read the settings again and re-run the analysis (settings changed). */
+  reconfigure(): void {
+    this.config = this.readConfig();
+    void this.load('settings');
+  }
+
+  /** Move to the next (1) or previous (-1) worst epoch: cursor in every chart, the log line revealed. */
+  async stepWorst(direction: 1 | -1): Promise<void> {
+    const worst = this.result?.report.worst ?? [];
+    const index = stepIndex(this.view.worstIndex, worst.length, direction);
+    if (index === undefined) {
+      void vscode.window.showInformationMessage('Residuum: this log has no worst epochs to go to.');
+      return;
+    }
+    const entry = worst[index];
+    this.view = { ...this.view, worstIndex: index, cursor_s: entry.t };
+    this.post({ type: 'cursor/set', t: entry.t, worstIndex: index });
+    await this.revealLine({ type: 'reveal/line', line: entry.line, t: entry.t, worstIndex: index });
+  }
+
+  /** The URI of file `name` of the run (undefined or the main log's own name: the log). */
+  resolveFile(name: string | undefined): vscode.Uri {
+    if (name === undefined || name === '' || this.uri.scheme !== 'file') return this.uri;
+    const logPath = this.uri.fsPath;
+    const abs = path.resolve(path.dirname(logPath), name);
+    return abs === logPath ? this.uri : vscode.Uri.file(abs);
+  }
+
+  /** Close the panel and release everything. */
+  dispose(): void {
+    if (this.disposed) return;
+    this.disposed = true;
+    this.loading?.abort();
+    if (this.reloadTimer) clearTimeout(this.reloadTimer);
+    this.host.didDispose(this);
+    this.panel.dispose();
+    for (const d of this.disposables.splice(0)) d.dispose();
+  }
+
+  private readConfig(): EditorConfiguration {
+    const cfg = vscode.workspace.getConfiguration('residuum', this.uri);
+    return readConfiguration((key) => cfg.get(key));
+  }
+
+  private post(message: HostToWebviewMessage): void {
+    if (!this.ready || this.disposed) return;
+    void this.panel.webview.postMessage(message);
+  }
+
+  private mapPath(): string | undefined {
+    const m = this.config.mapPath;
+    if (m === undefined) return undefined;
+    if (path.isAbsolute(m)) return m;
+    const folder = vscode.workspace.getWorkspaceFolder(this.uri);
+    const base = folder && folder.uri.scheme === 'file' ? folder.uri.fsPath : path.dirname(this.uri.fsPath);
+    return path.resolve(base, m);
+  }
+
+  private async load(reason: 'open' | 'change' | 'settings'): Promise<void> {
+    if (this.loading) {
+      this.reloadPending = true;
+      return;
+    }
+    if (this.uri.scheme !== 'file') {
+      this.fail(`Residuum reads logs from the local disk; ${this.uri.scheme}: files are not supported yet.`);
+      this.settleLoaded();
+      return;
+    }
+    const controller = new AbortController();
+    this.loading = controller;
+    this.post({ type: 'status', state: 'loading', uri: this.uri.toString() });
+    const name = path.basename(this.uri.fsPath);
+    const workerFile = vscode.Uri.joinPath(this.host.extensionUri, 'dist', 'analysisWorker.js').fsPath;
+    const request = { path: this.uri.fsPath, map: this.mapPath(), settings: this.config.analysis };
+    const started = Date.now();
+    try {
+      const result = await vscode.window.withProgress(
+        reason === 'open'
+          ? { location: vscode.ProgressLocation.Notification, title: `Residuum: analysing ${name}`, cancellable: true }
+          : { location: vscode.ProgressLocation.Window, title: `$(sync~spin) Residuum: re-reading ${name}` },
+        (progress, token) => {
+          token.onCancellationRequested(() => controller.abort());
+          let reported = 0;
+          return runAnalysis(workerFile, request, (fraction) => {
+            const percent = Math.round(fraction * 100);
+            if (percent > reported) {
+              progress.report({ increment: percent - reported, message: `${percent}% read` });
+              reported = percent;
+              this.post({ type: 'status', state: 'loading', progress: fraction, uri: this.uri.toString() });
+            }
+          }, controller.signal);
+        },
+      );
+      if (this.disposed) return;
+      this.accept(result);
+      this.host.output.info(`analysed ${this.uri.fsPath} in ${Date.now() - started} ms (${result.report.time.epochs} epochs, ${result.series.length} series)`);
+    } catch (e) {
+      if (this.disposed) return;
+      if (e instanceof DOMException && e.name === 'AbortError') {
+        this.host.output.info(`analysis of ${this.uri.fsPath} cancelled`);
+        if (!this.result) this.fail('The analysis was cancelled. Choose "Try again" to read the log again.');
+      } else {
+        const message = e instanceof AnalysisError || e instanceof Error ? e.message : String(e);
+        this.host.output.error(`analysis of ${this.uri.fsPath} failed: ${message}`);
+        if (!this.result) this.fail(message);
+        else this.sendInit(`The log could not be read again (${message}); the panel shows the previous reading.`);
+        void vscode.window.showErrorMessage(`Residuum: ${message}`);
+      }
+    } finally {
+      this.settleLoaded();
+      if (this.loading === controller) this.loading = undefined;
+      if (this.reloadPending && !this.disposed) {
+        this.reloadPending = false;
+        void this.load('change');
+      }
+    }
+  }
+
+  private accept(result: AnalysisResult): void {
+    this.result = result;
+    this.error = undefined;
+    this.store = new SeriesStore(result.series, this.config.maxPathPoints);
+    this.histograms = [];
+    for (const info of this.store.infos()) {
+      if (!info.key.startsWith('nis/')) continue;
+      const channel = result.report.channels.find((c) => `nis/${c.name}` === info.key);
+      const series = this.store.get(info.key);
+      if (channel && series && channel.dof >= 1) this.histograms.push(nisHistogram(info.key, series.y, channel.dof, 30, 0.995, info.points));
+    }
+    this.revision++;
+    if (this.view.worstIndex !== undefined && this.view.worstIndex >= result.report.worst.length) this.view = { ...this.view, worstIndex: undefined };
+    this.sendInit(this.notice);
+    this.notice = undefined;
+    this.host.didUpdate(this);
+  }
+
+  private sendInit(notice: string | undefined): void {
+    if (!this.result || !this.store) return;
+    const r = this.result;
+    const message: InitMessage = {
+      type: 'init',
+      revision: this.revision,
+      uri: this.uri.toString(),
+      logName: path.posix.basename(this.uri.path),
+      files: (r.files.length ? r.files : [this.uri.fsPath]).map((f) => path.basename(f)),
+      report: r.report,
+      series: this.store.infos(),
+      histograms: this.histograms,
+      view: this.view,
+    };
+    if (notice) message.notice = notice;
+    this.post(message);
+  }
+
+  private fail(message: string): void {
+    this.error = message;
+    this.post({ type: 'status', state: 'error', message, uri: this.uri.toString() });
+  }
+
+  private onMessage(raw: unknown): void {
+    const msg = parseWebviewMessage(raw);
+    if (typeof msg === 'string') {
+      this.host.output.warn(`ignored a message from the panel of ${this.uri.fsPath}: ${msg}`);
+      return;
+    }
+    switch (msg.type) {
+      case 'ready':
+        this.ready = true;
+        if (msg.view) this.view = { ...this.view, ...msg.view };
+        if (this.result) this.sendInit(undefined);
+        else if (this.error !== undefined && !this.loading) void this.load('open');
+        else this.post({ type: 'status', state: 'loading', uri: this.uri.toString() });
+        break;
+      case 'series/request':
+        if (this.store) this.post(this.store.answer(msg));
+        break;
+      case 'reveal/line':
+        void this.revealLine(msg);
+        break;
+      case 'cursor/didChange':
+        this.view = { ...this.view, cursor_s: msg.t };
+        if (msg.worstIndex !== undefined) this.view.worstIndex = msg.worstIndex;
+        break;
+      case 'log/write':
+        this.host.output[msg.level === 'info' ? 'info' : msg.level === 'warning' ? 'warn' : 'error'](`panel: ${msg.message}`);
+        break;
+      default:
+        assertNever(msg);
+    }
+  }
+
+  /** Reveal a 1-based line of one of the run's files beside the panel, selected. */
+  private async revealLine(msg: RevealLineMessage): Promise<void> {
+    const files = this.result?.files ?? [];
+    const index = msg.file ?? 0;
+    if (index > 0 && index >= files.length) {
+      this.host.output.warn(`ignored reveal/line: no file #${index}`);
+      return;
+    }
+    if (msg.worstIndex !== undefined) this.view = { ...this.view, worstIndex: msg.worstIndex };
+    if (msg.t !== undefined) this.view = { ...this.view, cursor_s: msg.t };
+    const target = index === 0 ? this.uri : this.resolveFile(files[index]);
+    const line = msg.line - 1;
+    await vscode.commands.executeCommand('vscode.open', target, {
+      // The whole line, with the cursor (selection.active) on it: the end column is clamped to the line's length.
+      selection: new vscode.Range(line, 0, line, Number.MAX_SAFE_INTEGER),
+      viewColumn: this.columnFor(target),
+      preserveFocus: false,
+      preview: true,
+    } satisfies vscode.TextDocumentShowOptions);
+  }
+
+  /**
+   * The column of an open tab of `target` outside the panel's group; else the column right of the panel (so the
+   * estimator code's column is never taken); else the column beside the active one.
+   */
+  private columnFor(target: vscode.Uri): vscode.ViewColumn {
+    const key = target.toString();
+    for (const group of vscode.window.tabGroups.all) {
+      if (group.viewColumn === this.panel.viewColumn) continue;
+      if (group.tabs.some((t) => t.input instanceof vscode.TabInputText && t.input.uri.toString() === key)) return group.viewColumn;
+    }
+    const own = this.panel.viewColumn;
+    return own !== undefined ? ((own + 1) as vscode.ViewColumn) : vscode.ViewColumn.Beside;
+  }
+
+  /** Watch the log and its default mapping file; re-read on change (debounced), say so on truncation or deletion. */
+  private watch(): void {
+    if (this.uri.scheme !== 'file') return;
+    const dir = vscode.Uri.file(path.dirname(this.uri.fsPath));
+    const base = globEscape(path.basename(this.uri.fsPath));
+    const watcher = vscode.workspace.createFileSystemWatcher(new vscode.RelativePattern(dir, `{${base},${base}.map.json}`));
+    this.disposables.push(
+      watcher,
+      watcher.onDidChange(() => this.scheduleReload(false)),
+      watcher.onDidCreate(() => this.scheduleReload(true)),
+      watcher.onDidDelete((u) => {
+        if (u.toString() !== this.uri.toString()) return this.scheduleReload(false);
+        this.host.output.warn(`${this.uri.fsPath} was deleted`);
+        this.sendInit('The log was deleted; the panel shows its last reading.');
+      }),
+    );
+    void this.statSize().then((s) => (this.lastSize = s));
+  }
+
+  private scheduleReload(created: boolean): void {
+    if (this.reloadTimer) clearTimeout(this.reloadTimer);
+    this.reloadTimer = setTimeout(() => {
+      this.reloadTimer = undefined;
+      void this.checkAndReload(created);
+    }, RELOAD_DEBOUNCE_MS);
+  }
+
+  private async checkAndReload(created: boolean): Promise<void> {
+    const size = await this.statSize();
+    if (size === undefined) return;
+    if (created) this.notice = 'The log was replaced; it was read again from the start.';
+    else if (this.lastSize !== undefined && size < this.lastSize) this.notice = 'The log became shorter (truncated or replaced); it was read again from the start.';
+    if (this.notice) this.host.output.info(`${this.uri.fsPath}: ${this.notice}`);
+    this.lastSize = size;
+    // The reader has no incremental API yet, so a grown log is read again whole (in the worker, off this thread).
+    await this.load('change');
+  }
+
+  private async statSize(): Promise<number | undefined> {
+    try {
+      return (await vscode.workspace.fs.stat(this.uri)).size;
+    } catch {
+      return undefined;
+    }
+  }
+}

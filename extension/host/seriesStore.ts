@@ -1,0 +1,100 @@
+/**
+ * The host's copy of a run's series and the answers to the webview's window queries. Pure (no `vscode`), so the
+ * panel's data path is unit-tested without an editor.
+ *
+ * Time series (ascending x) are answered with a min/max envelope of the requested window (core/envelope.ts); series
+ * whose x is not time (a trajectory seen from above, anchor positions) are thinned by a stride to `maxXyPoints`.
+ */
+import { envelope, isAscending, stride, type Envelope } from '../core/envelope';
+import type { Series } from '../core/series';
+import type { SeriesInfo, SeriesRequestMessage, SeriesResponseMessage } from '../protocol';
+
+/** Keys and groups drawn as planar (x, y) paths rather than over time. */
+function isPlanar(series: Series): boolean {
+  return series.group === 'trajectory' || series.key.startsWith('trajectory/') || series.key === 'uwb/anchors' || !isAscending(series.x, Math.min(series.x.length, series.y.length));
+}
+
+function finiteRange(x: Float64Array, n: number): [number, number] {
+  let lo = Infinity;
+  let hi = -Infinity;
+  for (let i = 0; i < n; i++) {
+    const v = x[i];
+    if (v < lo) lo = v;
+    if (v > hi) hi = v;
+  }
+  return lo === Infinity ? [NaN, NaN] : [lo, hi];
+}
+
+/** Exact-size ArrayBuffer holding a column's values (a view over part of a larger buffer is copied). */
+export function toArrayBuffer(a: Float64Array): ArrayBuffer {
+  if (a.byteOffset === 0 && a.byteLength === a.buffer.byteLength && a.buffer instanceof ArrayBuffer) return a.buffer;
+  return a.slice().buffer as ArrayBuffer;
+}
+
+/** Holds the series of one analysis and answers window queries. */
+export class SeriesStore {
+  private readonly byKey = new Map<string, { series: Series; info: SeriesInfo }>();
+
+  /** Keep `series` (later duplicates of a key are dropped). `maxXyPoints` caps planar paths. */
+  constructor(series: readonly Series[], private readonly maxXyPoints = 20000) {
+    for (const s of series) {
+      if (this.byKey.has(s.key)) continue;
+      const n = Math.min(s.x.length, s.y.length);
+      const [x0, x1] = finiteRange(s.x, n);
+      this.byKey.set(s.key, {
+        series: s,
+        info: {
+          key: s.key,
+          group: s.group,
+          label: s.label,
+          unit: s.unit,
+          logLog: s.logLog === true,
+          band: s.lo !== undefined || s.hi !== undefined,
+          xy: isPlanar(s),
+          points: n,
+          x0,
+          x1,
+        },
+      });
+    }
+  }
+
+  /** Descriptions of every series, in the order given. */
+  infos(): SeriesInfo[] {
+    return [...this.byKey.values()].map((e) => e.info);
+  }
+
+  /** The series under `key`, if held. */
+  get(key: string): Series | undefined {
+    return this.byKey.get(key)?.series;
+  }
+
+  /** The envelope answering `request` (an `error` and empty columns for an unknown key). */
+  answer(request: SeriesRequestMessage): SeriesResponseMessage {
+    const entry = this.byKey.get(request.key);
+    if (!entry) {
+      const empty = new ArrayBuffer(0);
+      return { type: 'series/response', id: request.id, key: request.key, x: empty, y: empty, inWindow: 0, error: `no series "${request.key}"` };
+    }
+    const { series, info } = entry;
+    let env: Envelope;
+    if (info.xy) env = stride(series, this.maxXyPoints, info.points);
+    else {
+      const t0 = request.t0 ?? info.x0;
+      const t1 = request.t1 ?? info.x1;
+      env = Number.isFinite(t0) && Number.isFinite(t1) ? envelope(series, t0, t1, request.widthPx, info.points) : stride(series, 0, 0);
+    }
+    const response: SeriesResponseMessage = {
+      type: 'series/response',
+      id: request.id,
+      key: request.key,
+      x: toArrayBuffer(env.x),
+      y: toArrayBuffer(env.y),
+      inWindow: env.inWindow,
+    };
+    if (env.lo) response.lo = toArrayBuffer(env.lo);
+    if (env.hi) response.hi = toArrayBuffer(env.hi);
+    if (env.line) response.line = toArrayBuffer(env.line);
+    return response;
+  }
+}
