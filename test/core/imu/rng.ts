@@ -1,0 +1,31 @@
+/**
+ * Seeded pseudo-random numbers for the IMU tests, so every failure can be replayed.
+ * mulberry32 (a well-known 32-bit generator; common practice for seeded test data) and Box-Muller normals.
+ */
+
+/** A uniform generator on [0, 1) from a 32-bit seed. */
+export function uniformRng(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+/** A standard normal generator from a 32-bit seed (Box-Muller). */
+export function normalRng(seed: number): () => number {
+  const u = uniformRng(seed);
+  let spare: number | undefined;
+  return () => {
+    if (spare !== undefined) { const s = spare; spare = undefined; return s; }
+    let u1 = u();
+    while (u1 <= 0) u1 = u();
+    const r = Math.sqrt(-2 * Math.log(u1));
+    const th = 2 * Math.PI * u();
+    spare = r * Math.sin(th);
+    return r * Math.cos(th);
+  };
+}
