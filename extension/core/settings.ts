@@ -31,6 +31,19 @@ export interface AnalysisSettings {
   maxDop: number;
   /** Treat the whole raw IMU log as static for Allan deviation. */
   imuStatic: boolean;
+  /**
+   * Errors against a reference: constant lever arm, body frame, metres, from the reference's measured point to the
+   * estimator's point (p_ref_at_estimate = p_ref + R_ref l; R_ref from the reference attitude, else the estimate's).
+   */
+  leverArm_m?: [number, number, number];
+  /** Errors: constant navigation-frame offset added to every reference position, metres (a frame offset). */
+  referenceOffset_m?: [number, number, number];
+  /** Errors: only estimate epochs with t in [t0, t1] (log time base, seconds) are compared with the reference. */
+  window?: [number, number];
+  /** Errors: fit a scale in the Umeyama alignment behind the absolute trajectory error (default rigid). */
+  alignScale?: boolean;
+  /** Errors: distance window of the relative error, metres (default: 1, 2 or 5 x 10^k at most a tenth of the path). */
+  rpeDistance_m?: number;
   /** Memory budget for the numeric columns, bytes; beyond it the analysis is decimated and `partial` set. */
   memoryBudgetBytes: number;
 }
