@@ -7,7 +7,7 @@
  * the value is marked `common practice`: an order-of-magnitude figure of the trade, not a citation.
  * Sources are those collected in reference-checks.md sec. 7.2 (tags [READ] there).
  */
-import type { ImuSpec } from '../model';
+import type { ImuSpec, ImuSpecRaw, ImuSpecValue } from '../model';
 import { parseFigure, type QuantityKind } from './units';
 
 /** The six figures of an IMU specification (SI field names of `ImuSpec`). */
@@ -111,10 +111,11 @@ export function presetSpec(name: string): ImuSpec | undefined {
 }
 
 /**
- * A user-written specification: each field a number (already SI) or a datasheet string such as `"10 deg/h"` or
- * `"0.005 deg/s/sqrt(Hz)"`. `preset` names a preset that fills the fields not given.
+ * A user-written specification: each field a number (already SI), a datasheet string such as `"10 deg/h"` or
+ * `"0.005 deg/s/sqrt(Hz)"`, or `{ value, unit }` as the mapping file writes it. `preset` names a preset that fills
+ * the fields not given.
  */
-export type ImuSpecInput = Partial<Record<ImuSpecField, number | string>> & { preset?: string };
+export type ImuSpecInput = Partial<Record<ImuSpecField, number | string | ImuSpecValue>> & { preset?: string };
 
 /**
  * Convert a user-written specification to SI. Fields that cannot be read are left out and described in `problems`
@@ -126,7 +127,8 @@ export function specFromInput(input: ImuSpecInput, origin: string): { spec: ImuS
   for (const field of Object.keys(SPEC_FIELDS) as ImuSpecField[]) {
     const raw = input[field];
     if (raw === undefined) continue;
-    const parsed = parseFigure(raw, SPEC_FIELDS[field]);
+    const text = typeof raw === 'object' && raw !== null ? `${raw.value} ${raw.unit ?? ''}` : raw;
+    const parsed = typeof text === 'number' || typeof text === 'string' ? parseFigure(text, SPEC_FIELDS[field]) : { error: 'expected a number, "<number> <unit>" or { value, unit }' };
     if ('value' in parsed) spec[field] = parsed.value;
     else problems.push(`${field}: ${parsed.error}`);
   }
@@ -148,15 +150,17 @@ export interface ResolvedSpec {
 }
 
 /**
- * Resolve the specification: fields from the settings override win, then the mapping file's, then the preset named
- * in the settings (or in the override's `preset`), then the consumer preset.
- * @param mapping the mapping file's specification (SI), if any
+ * Resolve the specification. For each field the first available wins: the settings override, the mapping file's
+ * (datasheet form `imuSpecRaw`, else SI `imuSpec`), then the preset: the one named in the settings override, else in
+ * the mapping file, else the settings' `imuPreset`, else consumer.
+ * @param mapping the mapping file's specification in SI, if any
  * @param override the settings' specification, if any
  * @param presetName the settings' preset name
+ * @param mappingRaw the mapping file's specification as written (datasheet units), if any
  */
-export function resolveSpec(mapping: ImuSpec | undefined, override: ImuSpecInput | undefined, presetName: string): ResolvedSpec {
+export function resolveSpec(mapping: ImuSpec | undefined, override: ImuSpecInput | undefined, presetName: string, mappingRaw?: ImuSpecRaw): ResolvedSpec {
   const problems: string[] = [];
-  const wanted = (override?.preset ?? presetName ?? DEFAULT_PRESET).trim().toLowerCase();
+  const wanted = (override?.preset ?? mappingRaw?.preset ?? presetName ?? DEFAULT_PRESET).trim().toLowerCase();
   let preset = presetSpec(wanted);
   let presetOrigin = `preset:${wanted}`;
   if (!preset) {
@@ -166,16 +170,20 @@ export function resolveSpec(mapping: ImuSpec | undefined, override: ImuSpecInput
   }
   const fromSettings = override ? specFromInput(override, 'settings') : undefined;
   if (fromSettings) problems.push(...fromSettings.problems.map((p) => `settings imuSpec ${p}`));
+  const fromMappingRaw = mappingRaw ? specFromInput(mappingRaw as ImuSpecInput, 'mapping') : undefined;
+  if (fromMappingRaw) problems.push(...fromMappingRaw.problems.map((p) => `mapping file imuSpec ${p}`));
   const out = { origin: '' } as ResolvedSpec['spec'];
   const fieldOrigin = {} as Record<ImuSpecField, string>;
   const origins = new Set<string>();
   for (const field of Object.keys(SPEC_FIELDS) as ImuSpecField[]) {
     const s = fromSettings?.spec[field];
+    const r = fromMappingRaw?.spec[field];
     const m = mapping?.[field];
     let value: number;
     let origin: string;
     if (s !== undefined && Number.isFinite(s)) { value = s; origin = 'settings'; }
-    else if (m !== undefined && Number.isFinite(m) && m >= 0) { value = m; origin = mapping?.origin && mapping.origin !== '' ? mapping.origin : 'mapping'; }
+    else if (r !== undefined && Number.isFinite(r)) { value = r; origin = 'mapping'; }
+    else if (m !== undefined && Number.isFinite(m) && m >= 0) { value = m; origin = 'mapping'; }
     else { value = preset[field] as number; origin = presetOrigin; }
     out[field] = value;
     fieldOrigin[field] = origin;
