@@ -44,6 +44,15 @@ export interface AnalysisSettings {
   alignScale?: boolean;
   /** Errors: distance window of the relative error, metres (default: 1, 2 or 5 x 10^k at most a tenth of the path). */
   rpeDistance_m?: number;
+  /**
+   * IMU specification override (wins over the mapping file and the preset, field by field): each field a number in SI
+   * or a datasheet string such as "10 deg/h", "0.005 deg/s/sqrt(Hz)", "400 ug/sqrt(Hz)"; `preset` names the preset
+   * that fills the rest. Fields: gyroNoiseDensity, gyroBiasInstability, gyroRateRandomWalk, accNoiseDensity,
+   * accBiasInstability, accRateRandomWalk (core/imu/presets.ts, units in core/imu/units.ts).
+   */
+  imuSpec?: Partial<Record<'gyroNoiseDensity' | 'gyroBiasInstability' | 'gyroRateRandomWalk' | 'accNoiseDensity' | 'accBiasInstability' | 'accRateRandomWalk', number | string | { value: number; unit: string }>> & { preset?: string };
+  /** Probability of a false `bias-step` finding per bias axis of a clean log (0.01 when absent). */
+  biasStepAlpha?: number;
   /** Memory budget for the numeric columns, bytes; beyond it the analysis is decimated and `partial` set. */
   memoryBudgetBytes: number;
 }
