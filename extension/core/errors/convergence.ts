@@ -1,0 +1,78 @@
+/**
+ * Convergence of an error norm within one segment (from a start, or from an estimator reset).
+ *
+ * Definitions (documented in docs/errors.md):
+ * - level(t): trailing root-mean-square of the error norm over `smooth_s` seconds (window_s / 5 by default);
+ * - steady state L: root-mean-square of the error norm over the last half of the segment;
+ * - settling time: the first time after which level(t) stays at or below SETTLE_FACTOR * L until the segment's
+ *   end, measured from the segment start (0 when the level never exceeds it);
+ * - rate: lambda (1/s) of level(t) ≈ A exp(-lambda t), by least squares on ln level(t) over the transient
+ *   [segment start, settling time]; absent with fewer than 3 transient epochs or a non-decaying fit.
+ */
+
+/** The k in "stays within k times its steady-state level". */
+export const SETTLE_FACTOR = 2;
+
+/** Convergence figures of one error block in one segment. */
+export interface Convergence {
+  /** Steady-state RMS of the error norm (units of the error). */
+  steadyState?: number;
+  /** Seconds from the segment start until the error stays within SETTLE_FACTOR x steady state. */
+  settleTime?: number;
+  /** Log time at which it settled. */
+  tSettled?: number;
+  /** Exponential decay rate of the error norm over the transient, 1/s. */
+  rate?: number;
+  /** 1 / rate, seconds. */
+  timeConstant?: number;
+  /** Initial level of the fitted exponential (units of the error). */
+  initialLevel?: number;
+}
+
+/** Convergence of `norm` (per epoch, NaN where absent) over epochs [i0, i1) with times t_s. */
+export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i1: number, smooth_s: number): Convergence {
+  const idx: number[] = [];
+  for (let k = i0; k < i1; k++) if (Number.isFinite(norm[k]) && Number.isFinite(t_s[k])) idx.push(k);
+  if (idx.length < 4) return {};
+  const tStart = t_s[i0];
+  const tEnd = t_s[idx[idx.length - 1]];
+  const half = tStart + (tEnd - tStart) / 2;
+  let ss = 0, sc = 0;
+  for (const k of idx) if (t_s[k] >= half) { ss += norm[k] * norm[k]; sc++; }
+  if (sc === 0) return {};
+  const steady = Math.sqrt(ss / sc);
+  // trailing RMS over smooth_s (two pointers)
+  const level = new Float64Array(idx.length);
+  let j = 0, acc = 0;
+  for (let m = 0; m < idx.length; m++) {
+    const k = idx[m];
+    acc += norm[k] * norm[k];
+    while (t_s[idx[j]] < t_s[k] - smooth_s) { acc -= norm[idx[j]] * norm[idx[j]]; j++; }
+    level[m] = Math.sqrt(Math.max(0, acc) / (m - j + 1));
+  }
+  const limit = SETTLE_FACTOR * steady;
+  let lastAbove = -1;
+  for (let m = 0; m < idx.length; m++) if (level[m] > limit) lastAbove = m;
+  const out: Convergence = { steadyState: steady };
+  if (lastAbove < 0) { out.settleTime = 0; out.tSettled = tStart; return out; }
+  if (lastAbove === idx.length - 1) return out; // never settled
+  const settledAt = t_s[idx[lastAbove + 1]];
+  out.settleTime = settledAt - tStart;
+  out.tSettled = settledAt;
+  // log-linear least squares over the transient
+  let n = 0, st = 0, sy = 0, stt = 0, sty = 0;
+  for (let m = 0; m <= lastAbove + 1; m++) {
+    if (!(level[m] > 0)) continue;
+    const x = t_s[idx[m]] - tStart, y = Math.log(level[m]);
+    n++; st += x; sy += y; stt += x * x; sty += x * y;
+  }
+  if (n >= 3) {
+    const den = n * stt - st * st;
+    if (den > 0) {
+      const slope = (n * sty - st * sy) / den;
+      const icpt = (sy - slope * st) / n;
+      if (slope < 0) { out.rate = -slope; out.timeConstant = -1 / slope; out.initialLevel = Math.exp(icpt); }
+    }
+  }
+  return out;
+}

@@ -1,0 +1,503 @@
+/**
+ * Estimation errors against a reference: the `errors` block of the report, its `inconsistent` findings and the
+ * panel's error, NEES and trajectory series. Definitions and conventions: docs/errors.md; per-epoch alignment and
+ * error vectors: track.ts; NEES and its windowed test: nees.ts; convergence: convergence.ts; Umeyama alignment
+ * behind the absolute trajectory error: umeyama.ts; relative error: relative.ts; Monte Carlo: montecarlo.ts.
+ */
+import type { NavLog } from '../model';
+import type { Finding } from '../report';
+import type { AnalysisSettings } from '../settings';
+import type { Series, StageOutput } from '../series';
+import { chi2Interval } from '../stats/chi2';
+import { so3Angle } from '../geometry/so3';
+import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
+import { convergence, SETTLE_FACTOR, type Convergence } from './convergence';
+import { neesAutocorrelation, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
+import {
+  defaultDistanceWindow, median, pathLength, relativeErrorOverDistance, relativeErrorOverTime, type RelativeErrorStats,
+} from './relative';
+import { buildErrorTrack, type BlockName, type BlockTrack, type ErrorTrack } from './track';
+import { applyAlignmentTo, umeyama } from './umeyama';
+
+export { analyzeMonteCarlo, type MonteCarloBlock } from './montecarlo';
+export { buildErrorTrack, type ErrorTrack } from './track';
+
+/** Expected share of a Gaussian error inside +-3 sigma. */
+export const EXPECTED_WITHIN_3_SIGMA = 0.9973;
+
+const RAD2DEG = 180 / Math.PI;
+
+/** NEES figures of one block. */
+export interface NeesFigures {
+  dof: number;
+  mean?: number;
+  /** Share of epochs whose NEES lies inside the per-epoch two-sided `confidence` interval of chi2(dof). */
+  inside95?: number;
+  bounds95: [number, number];
+  /** Epochs with a NEES value. */
+  count: number;
+  /** The windowed test (nees.ts). */
+  windows?: {
+    count: number;
+    /** Share of windows whose average lies inside its `confidence` interval (about 0.95 for a consistent run). */
+    inside95?: number;
+    flagged: number;
+    /** Family-corrected two-sided level of each window. */
+    alphaPerWindow: number;
+    /** 1 + 2 sum rho_k of the longest segment: epochs per independent value for long windows. */
+    correlationFactor?: number;
+  };
+}
+
+/** Absolute trajectory error after an Umeyama alignment of the estimate onto the reference. */
+export interface AteFigures {
+  rmse: number;
+  median: number;
+  max: number;
+  dims: number;
+  /** 1 unless `alignScale`. */
+  scale: number;
+  /** Rotation angle of the alignment, degrees. */
+  rotationDeg: number;
+  translation: number[];
+}
+
+/** Relative error over a time and a distance window. */
+export interface RpeFigures {
+  time?: RelativeErrorStats & { window_s: number };
+  distance?: RelativeErrorStats & { window_m: number; rmsePercent?: number };
+}
+
+/** Position errors. */
+export interface PositionErrors {
+  epochs: number;
+  dims: number;
+  rmse?: number;
+  /** Horizontal RMSE (first two navigation axes). */
+  rmse2d?: number;
+  /** Largest error norm. */
+  max?: number;
+  rmsePerAxis?: number[];
+  meanPerAxis?: number[];
+  nees?: NeesFigures;
+  ate?: AteFigures;
+  rpe?: RpeFigures;
+}
+
+/** Velocity errors. */
+export interface VelocityErrors {
+  epochs: number;
+  rmse?: number;
+  rmse2d?: number;
+  max?: number;
+  rmsePerAxis?: number[];
+  meanPerAxis?: number[];
+  nees?: NeesFigures;
+}
+
+/** Orientation errors (angles of the error rotation). */
+export interface OrientationErrors {
+  epochs: number;
+  rmseDeg?: number;
+  maxDeg?: number;
+  meanDeg?: number;
+  /** RMS of each rotation-vector component, degrees. */
+  rmsePerAxisDeg?: number[];
+  nees?: NeesFigures;
+}
+
+/** Figures of one segment (between resets). */
+export interface SegmentErrors {
+  t: number;
+  tEnd: number;
+  epochs: number;
+  position?: { rmse?: number; nees?: { mean?: number; inside95?: number }; convergence: Convergence };
+  velocity?: { rmse?: number; nees?: { mean?: number; inside95?: number }; convergence: Convergence };
+  orientation?: { rmseDeg?: number; nees?: { mean?: number; inside95?: number }; convergence: Convergence };
+}
+
+/** The report's `errors` block. */
+export interface ErrorsBlock {
+  /** Epochs in the time window without a reference value (outside its span or in its gaps). */
+  excluded: number;
+  excludedOutsideSpan: number;
+  excludedInGap: number;
+  /** Epochs compared (in the window, with a reference value). */
+  epochs: number;
+  /** Epochs left out by `settings.window`. */
+  outsideWindow: number;
+  reference: 'state' | 'reference';
+  frame: 'ENU' | 'NED';
+  /** Offset added to reference stamps, seconds (given or estimated). */
+  timeOffset_s: number;
+  timeOffsetEstimated: boolean;
+  /** Geodetic origin of the local frame when the reference was geodetic (degrees, metres). */
+  origin?: { lat: number; lon: number; h: number };
+  /** Error conventions used. */
+  definition: { attitude: 'nav' | 'body'; group: 'SO3xR3' | 'SE3' | 'SE23' };
+  position?: PositionErrors;
+  velocity?: VelocityErrors;
+  orientation?: OrientationErrors;
+  /** NEES of all blocks together, when the full P covers them. */
+  joint?: NeesFigures & { states: string[] };
+  segments: SegmentErrors[];
+  /** Convergence per block in the first segment (convergence.ts; factor k = SETTLE_FACTOR). */
+  convergence: { factor: number; position?: Convergence; velocity?: Convergence; orientation?: Convergence };
+  /** Share of epochs whose error lies inside +-3 sigma, per axis (expected 0.9973). */
+  within3Sigma: { expected: number; position?: (number | null)[]; velocity?: (number | null)[]; orientation?: (number | null)[] };
+  notes: string[];
+  [extra: string]: unknown;
+}
+
+/** RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean and max norm. */
+function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2):
+  { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; norms: number[] } {
+  const d = err.length;
+  let s = 0, s2 = 0, mx = 0, cnt = 0;
+  const sa = new Array<number>(d).fill(0), ma = new Array<number>(d).fill(0);
+  const norms: number[] = [];
+  for (let k = i0; k < i1; k++) {
+    let q = 0, qh = 0, ok = true;
+    for (let c = 0; c < d; c++) {
+      const e = err[c][k];
+      if (!Number.isFinite(e)) { ok = false; break; }
+      q += e * e; if (c < horiz) qh += e * e;
+    }
+    if (!ok) continue;
+    for (let c = 0; c < d; c++) { sa[c] += err[c][k] * err[c][k]; ma[c] += err[c][k]; }
+    s += q; s2 += qh; cnt++;
+    const nrm = Math.sqrt(q);
+    norms.push(nrm);
+    if (nrm > mx) mx = nrm;
+  }
+  if (cnt === 0) return { count: 0, norms };
+  return {
+    count: cnt, rmse: Math.sqrt(s / cnt), rmse2d: Math.sqrt(s2 / cnt), max: mx,
+    rmsePerAxis: sa.map((v) => Math.sqrt(v / cnt)), meanPerAxis: ma.map((v) => v / cnt), norms,
+  };
+}
+
+/** Error norm per epoch (NaN where a component is missing). */
+function normColumn(err: Float64Array[], length: number): Float64Array {
+  const out = new Float64Array(length).fill(NaN);
+  for (let k = 0; k < length; k++) {
+    let q = 0;
+    for (const c of err) q += c[k] * c[k];
+    out[k] = Math.sqrt(q);
+  }
+  return out;
+}
+
+/** Segment boundaries (epoch indices) inside [w0, w1) from the reset times. */
+function segmentBounds(t_s: Float64Array, w0: number, w1: number, resets: number[]): number[] {
+  const b = [w0];
+  const rs = [...resets].filter(Number.isFinite).sort((a, c) => a - c);
+  let k = w0;
+  for (const r of rs) {
+    while (k < w1 && t_s[k] < r) k++;
+    if (k > b[b.length - 1] && k < w1) b.push(k);
+  }
+  b.push(w1);
+  return b;
+}
+
+function within3Sigma(b: BlockTrack, i0: number, i1: number): (number | null)[] | undefined {
+  if (!b.sigma) return undefined;
+  return b.neesErr.map((e, c) => {
+    const s = (b.sigma as Float64Array[])[c];
+    if (!s) return null;
+    let inside = 0, cnt = 0;
+    for (let k = i0; k < i1; k++) {
+      if (!Number.isFinite(e[k]) || !(s[k] > 0)) continue;
+      cnt++;
+      if (Math.abs(e[k]) <= 3 * s[k]) inside++;
+    }
+    return cnt > 0 ? inside / cnt : null;
+  });
+}
+
+const AXES = ['x', 'y', 'z'];
+
+/** Windowed NEES test of one block across all segments; fills findings and returns the windows. */
+function windowedTest(
+  track: ErrorTrack, b: BlockTrack, segs: number[], settings: AnalysisSettings, findings: Finding[],
+): { windows: NeesWindow[]; alpha: number; correlationFactor?: number } {
+  const nees = b.nees as Float64Array;
+  const dof = b.neesErr.length;
+  const z = b.neesErr.map((e, c) => {
+    const s = (b.sigma as Float64Array[])[c];
+    const out = new Float64Array(track.length).fill(NaN);
+    if (!s) return out;
+    for (let k = 0; k < track.length; k++) out[k] = e[k] / s[k];
+    return out;
+  });
+  const perSeg: { bounds: number[]; rho: Float64Array }[] = [];
+  let total = 0;
+  let longest = -1, longestLen = 0, correlationFactor: number | undefined;
+  for (let s = 0; s + 1 < segs.length; s++) {
+    const i0 = segs[s], i1 = segs[s + 1];
+    const bounds = windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
+    const rho = neesAutocorrelation(z, i0, i1);
+    perSeg.push({ bounds, rho });
+    total += bounds.length - 1;
+    if (i1 - i0 > longestLen) { longestLen = i1 - i0; longest = s; }
+  }
+  if (longest >= 0) {
+    let sum = 0;
+    for (const r of perSeg[longest].rho) sum += r;
+    correlationFactor = 1 + 2 * sum;
+  }
+  const alpha = settings.familyAlpha / Math.max(1, total);
+  const windows: NeesWindow[] = [];
+  for (const seg of perSeg) {
+    const ws = neesWindows(track.t_s, nees, dof, seg.bounds, seg.rho, settings.confidence, alpha);
+    // merge consecutive flagged windows of the same side into one finding
+    let run: NeesWindow[] = [];
+    const flush = (): void => {
+      if (run.length === 0) return;
+      const first = run[0], last = run[run.length - 1];
+      let s = 0, c = 0, pMin = 1;
+      for (const w of run) { s += w.mean * w.count; c += w.count; pMin = Math.min(pMin, w.p); }
+      const mean = s / c;
+      const bound = first.side === 'overconfident' ? Math.max(...run.map((w) => w.bounds[1])) : Math.min(...run.map((w) => w.bounds[0]));
+      findings.push({
+        kind: 'inconsistent', t: first.t, tEnd: last.tEnd, channel: b.name, side: first.side,
+        score: mean, p: pMin, severity: 'warning',
+        message: `${b.name} NEES averages ${mean.toPrecision(4)} over ${first.t.toFixed(2)}-${last.tEnd.toFixed(2)} s, ` +
+          `${first.side === 'overconfident' ? 'above' : 'below'} what ${dof} dof allows (95% bound ${bound.toPrecision(4)}, ` +
+          `family-corrected p ${(pMin * 1).toExponential(2)} < ${alpha.toExponential(2)}): the covariance is ` +
+          `${first.side === 'overconfident' ? 'too small (overconfident)' : 'too large (pessimistic)'}`,
+      });
+      run = [];
+    };
+    for (const w of ws) {
+      if (w.flagged && (run.length === 0 || run[run.length - 1].side === w.side)) run.push(w);
+      else { flush(); if (w.flagged) run.push(w); }
+    }
+    flush();
+    windows.push(...ws);
+  }
+  return { windows, alpha, correlationFactor };
+}
+
+function neesFigures(track: ErrorTrack, b: BlockTrack, segs: number[], settings: AnalysisSettings, findings: Finding[], series: Series[]): NeesFigures | undefined {
+  if (!b.nees) return undefined;
+  const dof = b.neesErr.length;
+  const sum = neesSummary(b.nees, dof, settings.confidence, track.w0, track.w1);
+  if (sum.count === 0) return undefined;
+  const { windows, alpha, correlationFactor } = windowedTest(track, b, segs, settings, findings);
+  const inside = windows.filter((w) => w.mean >= w.bounds[0] && w.mean <= w.bounds[1]).length;
+  const [lo, hi] = chi2Interval(settings.confidence, dof);
+  const x = track.t_s.slice(track.w0, track.w1);
+  series.push({
+    key: `nees/${b.name}`, group: 'errors', label: `${b.name} NEES (${dof} dof) with the per-epoch ${Math.round(settings.confidence * 100)}% band`,
+    unit: '1', x, y: b.nees.slice(track.w0, track.w1), line: track.line.slice(track.w0, track.w1),
+    lo: new Float64Array(x.length).fill(lo), hi: new Float64Array(x.length).fill(hi),
+  });
+  if (windows.length > 0) {
+    series.push({
+      key: `nees/${b.name}/window`, group: 'errors', label: `${b.name} NEES window averages with their ${Math.round(settings.confidence * 100)}% bounds (effective sample size)`,
+      unit: '1', x: Float64Array.from(windows, (w) => (w.t + w.tEnd) / 2), y: Float64Array.from(windows, (w) => w.mean),
+      lo: Float64Array.from(windows, (w) => w.bounds[0]), hi: Float64Array.from(windows, (w) => w.bounds[1]),
+    });
+  }
+  return {
+    dof, mean: sum.mean, inside95: sum.inside95, bounds95: sum.bounds95, count: sum.count,
+    windows: {
+      count: windows.length, inside95: windows.length > 0 ? inside / windows.length : undefined,
+      flagged: windows.filter((w) => w.flagged).length, alphaPerWindow: alpha, correlationFactor,
+    },
+  };
+}
+
+function errorSeries(track: ErrorTrack, b: BlockTrack, series: Series[]): void {
+  const { w0, w1 } = track;
+  const scale = b.name === 'orientation' ? RAD2DEG : 1;
+  const unit = b.name === 'position' ? 'm' : b.name === 'velocity' ? 'm/s' : 'deg';
+  const x = track.t_s.slice(w0, w1);
+  const line = track.line.slice(w0, w1);
+  b.err.forEach((e, c) => {
+    const y = Float64Array.from(e.subarray(w0, w1), (v) => v * scale);
+    const s: Series = { key: `error/${b.name}/${AXES[c]}`, group: 'errors', label: `${b.name} error ${AXES[c]} (true minus estimate) with +-3 sigma`, unit, x, y, line };
+    const sig = b.sigma?.[c];
+    if (sig) {
+      s.lo = Float64Array.from(sig.subarray(w0, w1), (v) => -3 * v * scale);
+      s.hi = Float64Array.from(sig.subarray(w0, w1), (v) => 3 * v * scale);
+    }
+    series.push(s);
+  });
+}
+
+function ateFigures(track: ErrorTrack, settings: AnalysisSettings): AteFigures | undefined {
+  const d = track.estP.length;
+  const use: number[] = [];
+  for (let k = track.w0; k < track.w1; k++) {
+    let ok = true;
+    for (let c = 0; c < d; c++) if (!Number.isFinite(track.estP[c][k]) || !Number.isFinite(track.refP[c][k])) ok = false;
+    if (ok) use.push(k);
+  }
+  if (use.length < d + 1) return undefined;
+  const xs = new Float64Array(use.length * d), ys = new Float64Array(use.length * d);
+  use.forEach((k, i) => { for (let c = 0; c < d; c++) { xs[i * d + c] = track.estP[c][k]; ys[i * d + c] = track.refP[c][k]; } });
+  const a = umeyama(xs, ys, use.length, d, !!settings.alignScale);
+  if (!a) return undefined;
+  const res = new Float64Array(d);
+  const norms: number[] = [];
+  let s = 0;
+  for (let i = 0; i < use.length; i++) {
+    applyAlignmentTo(res, a, xs, i * d);
+    let q = 0;
+    for (let c = 0; c < d; c++) { const e = ys[i * d + c] - res[c]; q += e * e; }
+    s += q; norms.push(Math.sqrt(q));
+  }
+  const max = norms.reduce((m, v) => (v > m ? v : m), 0);
+  let rot: number;
+  if (d === 3) rot = so3Angle(a.R);
+  else rot = Math.abs(Math.atan2(a.R[2], a.R[0]));
+  return {
+    rmse: Math.sqrt(s / use.length), median: median(norms), max, dims: d, scale: a.scale,
+    rotationDeg: rot * RAD2DEG, translation: Array.from(a.t),
+  };
+}
+
+function rpeFigures(track: ErrorTrack, settings: AnalysisSettings): RpeFigures | undefined {
+  const use: number[] = [];
+  for (let k = track.w0; k < track.w1; k++) {
+    if (track.estP.every((c) => Number.isFinite(c[k])) && track.refP.every((c) => Number.isFinite(c[k]))) use.push(k);
+  }
+  if (use.length < 3) return undefined;
+  const inp = { t_s: track.t_s, use, est: track.estP, ref: track.refP, estR: track.estR, refR: track.refR };
+  const out: RpeFigures = {};
+  const dt = medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0);
+  const time = relativeErrorOverTime(inp, settings.window_s, dt);
+  if (time.count > 0) out.time = { ...time, window_s: settings.window_s };
+  const L = pathLength(track.refP, use);
+  const D = settings.rpeDistance_m ?? defaultDistanceWindow(L);
+  if (D > 0) {
+    const dist = relativeErrorOverDistance(inp, D);
+    if (dist.count > 0) out.distance = { ...dist, window_m: D, ...(dist.rmse !== undefined ? { rmsePercent: (100 * dist.rmse) / D } : {}) };
+  }
+  return out;
+}
+
+function trajectorySeries(track: ErrorTrack, series: Series[]): void {
+  if (track.estP.length < 2) return;
+  // x = east, y = north: ENU (x, y) = (east, north); NED (x, y) = (north, east)
+  const [ie, in_] = track.frame === 'NED' ? [1, 0] : [0, 1];
+  const { w0, w1 } = track;
+  const label = 'from above, x = east (m), y = north (m); points in time order, so x is NOT ascending';
+  series.push({
+    key: 'trajectory/estimate', group: 'trajectory', label: `estimate ${label}`, unit: 'm',
+    x: track.estP[ie].slice(w0, w1), y: track.estP[in_].slice(w0, w1), line: track.line.slice(w0, w1),
+  });
+  if (track.refOwn) {
+    const r = track.refOwn;
+    let r0 = 0, r1 = r.t_s.length;
+    const t0 = track.t_s[w0], t1 = track.t_s[Math.max(w0, w1 - 1)];
+    while (r0 < r1 && r.t_s[r0] < t0) r0++;
+    while (r1 > r0 && r.t_s[r1 - 1] > t1) r1--;
+    series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: r.p[ie].slice(r0, r1), y: r.p[in_].slice(r0, r1), line: r.line.slice(r0, r1) });
+  } else {
+    series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: track.refP[ie].slice(w0, w1), y: track.refP[in_].slice(w0, w1), line: track.line.slice(w0, w1) });
+  }
+}
+
+/**
+ * Compare the estimate with its reference (`gt_` columns of the state, or `log.reference` at its own rate) and
+ * summarise position, velocity and orientation errors, NEES with its windowed consistency test (findings
+ * `inconsistent` for channels `position`, `velocity`, `orientation`), convergence per segment, the absolute
+ * trajectory error after Umeyama alignment and the relative error. Returns no block when the log has no reference.
+ * Never throws for bad data: a failure becomes a `note` finding.
+ */
+export function analyzeErrors(log: NavLog, settings: AnalysisSettings): StageOutput<ErrorsBlock> {
+  try {
+    return analyzeErrorsUnsafe(log, settings);
+  } catch (e) {
+    const message = e instanceof Error ? e.message : String(e);
+    return { findings: [{ kind: 'note', severity: 'warning', message: `errors against the reference could not be computed: ${message}` }], series: [] };
+  }
+}
+
+function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutput<ErrorsBlock> {
+  const track = buildErrorTrack(log, settings);
+  if (!track) return { findings: [], series: [] };
+  const findings: Finding[] = [];
+  const series: Series[] = [];
+  const { w0, w1, t_s, status } = track;
+  let outside = 0, gap = 0, compared = 0;
+  for (let k = w0; k < w1; k++) {
+    if (status[k] === ALIGN_OUTSIDE_SPAN) outside++;
+    else if (status[k] === ALIGN_IN_GAP) gap++;
+    else compared++;
+  }
+  const segs = segmentBounds(t_s, w0, w1, log.resets);
+  const smooth_s = settings.window_s / 5;
+
+  const block: ErrorsBlock = {
+    excluded: outside + gap, excludedOutsideSpan: outside, excludedInGap: gap, epochs: compared,
+    outsideWindow: track.length - (w1 - w0), reference: track.source, frame: track.frame,
+    timeOffset_s: track.timeOffset_s, timeOffsetEstimated: track.timeOffsetEstimated,
+    ...(track.origin ? { origin: { lat: track.origin.lat_deg, lon: track.origin.lon_deg, h: track.origin.h_m } } : {}),
+    definition: { attitude: log.conventions.attitudeErrorSide, group: log.conventions.errorGroup ?? 'SO3xR3' },
+    segments: [], convergence: { factor: SETTLE_FACTOR }, within3Sigma: { expected: EXPECTED_WITHIN_3_SIGMA },
+    notes: [...track.notes],
+  };
+  if (track.frameAssumed && track.estP.length >= 2) block.notes.push('frame not given: the trajectory plot assumes ENU (x east, y north)');
+
+  const norms = new Map<BlockName, Float64Array>();
+  for (const b of track.blocks) {
+    const f = errorFigures(b.err, w0, w1);
+    norms.set(b.name, normColumn(b.err, track.length));
+    const nees = neesFigures(track, b, segs, settings, findings, series);
+    errorSeries(track, b, series);
+    const w3 = within3Sigma(b, w0, w1);
+    if (w3) block.within3Sigma[b.name] = w3;
+    if (b.name === 'position') {
+      block.position = {
+        epochs: f.count, dims: b.err.length, rmse: f.rmse, rmse2d: f.rmse2d, max: f.max, rmsePerAxis: f.rmsePerAxis,
+        meanPerAxis: f.meanPerAxis, nees, ate: ateFigures(track, settings), rpe: rpeFigures(track, settings),
+      };
+    } else if (b.name === 'velocity') {
+      block.velocity = { epochs: f.count, rmse: f.rmse, rmse2d: f.rmse2d, max: f.max, rmsePerAxis: f.rmsePerAxis, meanPerAxis: f.meanPerAxis, nees };
+    } else {
+      const ang = f.norms;
+      const meanDeg = ang.length ? (ang.reduce((s, v) => s + v, 0) / ang.length) * RAD2DEG : undefined;
+      block.orientation = {
+        epochs: f.count, rmseDeg: f.rmse !== undefined ? f.rmse * RAD2DEG : undefined,
+        maxDeg: f.max !== undefined ? f.max * RAD2DEG : undefined, meanDeg,
+        rmsePerAxisDeg: f.rmsePerAxis?.map((v) => v * RAD2DEG), nees,
+      };
+    }
+  }
+  if (track.joint) {
+    const s = neesSummary(track.joint.nees, track.joint.dof, settings.confidence, w0, w1);
+    if (s.count > 0) block.joint = { ...s, states: track.joint.states };
+  }
+
+  // segments and convergence
+  for (let s = 0; s + 1 < segs.length; s++) {
+    const i0 = segs[s], i1 = segs[s + 1];
+    if (i1 <= i0) continue;
+    const seg: SegmentErrors = { t: t_s[i0], tEnd: t_s[i1 - 1], epochs: i1 - i0 };
+    for (const b of track.blocks) {
+      const f = errorFigures(b.err, i0, i1);
+      const conv = convergence(t_s, norms.get(b.name) as Float64Array, i0, i1, smooth_s);
+      const ns = b.nees ? neesSummary(b.nees, b.neesErr.length, settings.confidence, i0, i1) : undefined;
+      const nees = ns && ns.count > 0 ? { mean: ns.mean, inside95: ns.inside95 } : undefined;
+      if (b.name === 'orientation') {
+        const degConv: Convergence = { ...conv };
+        if (conv.steadyState !== undefined) degConv.steadyState = conv.steadyState * RAD2DEG;
+        if (conv.initialLevel !== undefined) degConv.initialLevel = conv.initialLevel * RAD2DEG;
+        seg.orientation = { rmseDeg: f.rmse !== undefined ? f.rmse * RAD2DEG : undefined, nees, convergence: degConv };
+        if (s === 0) block.convergence.orientation = degConv;
+      } else {
+        seg[b.name] = { rmse: f.rmse, nees, convergence: conv };
+        if (s === 0) block.convergence[b.name] = conv;
+      }
+    }
+    block.segments.push(seg);
+  }
+
+  trajectorySeries(track, series);
+  return { block, findings, series };
+}

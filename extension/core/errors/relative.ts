@@ -1,0 +1,122 @@
+/**
+ * Relative (drift) error over time and distance windows.
+ *
+ * For an epoch pair (i, j) the relative error is |Δ_est - Δ_ref| with Δ = p_j - p_i; when both trajectories carry
+ * attitude each displacement is first expressed in its own body frame at i (Δ = R_i^T (p_j - p_i)), which is the
+ * translation norm of (ref_i^-1 ref_j)^-1 (est_i^-1 est_j) on SE(3). Pairs: for a time window Δt, j is the first
+ * epoch at or after t_i + Δt (kept when within max(Δt/10, median step) of it); for a distance window D, j is the
+ * first epoch where the reference path length from i reaches D. Figures: RMSE, median and max over the pairs.
+ */
+
+/** Statistics of one relative-error window. */
+export interface RelativeErrorStats {
+  /** Pairs used. */
+  count: number;
+  rmse?: number;
+  median?: number;
+  max?: number;
+}
+
+/** Median of a list (sorted in place); NaN when empty. */
+export function median(values: number[]): number {
+  if (values.length === 0) return NaN;
+  values.sort((a, b) => a - b);
+  const m = values.length >> 1;
+  return values.length % 2 ? values[m] : (values[m - 1] + values[m]) / 2;
+}
+
+function stats(errs: number[]): RelativeErrorStats {
+  if (errs.length === 0) return { count: 0 };
+  let s = 0, mx = 0;
+  for (const e of errs) { s += e * e; if (e > mx) mx = e; }
+  return { count: errs.length, rmse: Math.sqrt(s / errs.length), max: mx, median: median(errs) };
+}
+
+/** Inputs shared by both windows: epochs `use` (ascending) with positions and optional attitudes (row-major 3x3). */
+export interface RelativeInput {
+  t_s: Float64Array;
+  /** Epoch indices to use, ascending in time. */
+  use: number[];
+  /** Estimate and reference positions, component columns (2 or 3). */
+  est: Float64Array[];
+  ref: Float64Array[];
+  /** Optional attitude matrices per epoch (9 values per epoch, row-major), both or neither. */
+  estR?: Float64Array;
+  refR?: Float64Array;
+}
+
+function pairError(inp: RelativeInput, i: number, j: number): number {
+  const d = inp.est.length;
+  const de = [0, 0, 0], dr = [0, 0, 0];
+  for (let c = 0; c < d; c++) { de[c] = inp.est[c][j] - inp.est[c][i]; dr[c] = inp.ref[c][j] - inp.ref[c][i]; }
+  if (inp.estR && inp.refR && d === 3) {
+    const a = inp.estR, b = inp.refR, oa = 9 * i, ob = 9 * i;
+    const le = [0, 0, 0], lr = [0, 0, 0];
+    for (let r = 0; r < 3; r++) {
+      le[r] = a[oa + r] * de[0] + a[oa + 3 + r] * de[1] + a[oa + 6 + r] * de[2];
+      lr[r] = b[ob + r] * dr[0] + b[ob + 3 + r] * dr[1] + b[ob + 6 + r] * dr[2];
+    }
+    if (le.every(Number.isFinite) && lr.every(Number.isFinite)) return Math.hypot(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
+  }
+  return Math.hypot(de[0] - dr[0], de[1] - dr[1], de[2] - dr[2]);
+}
+
+/** Relative error over time windows of `window_s` seconds. */
+export function relativeErrorOverTime(inp: RelativeInput, window_s: number, medianStep_s: number): RelativeErrorStats {
+  const { t_s, use } = inp;
+  const tol = Math.max(window_s / 10, Number.isFinite(medianStep_s) ? medianStep_s : 0);
+  const errs: number[] = [];
+  let q = 0;
+  for (let p = 0; p < use.length; p++) {
+    const target = t_s[use[p]] + window_s;
+    if (q < p) q = p;
+    while (q < use.length && t_s[use[q]] < target) q++;
+    if (q >= use.length) break;
+    if (t_s[use[q]] - target > tol) continue;
+    const e = pairError(inp, use[p], use[q]);
+    if (Number.isFinite(e)) errs.push(e);
+  }
+  return stats(errs);
+}
+
+/** Relative error over reference path lengths of `distance_m` metres. */
+export function relativeErrorOverDistance(inp: RelativeInput, distance_m: number): RelativeErrorStats {
+  const { use, ref } = inp;
+  const s = new Float64Array(use.length);
+  for (let p = 1; p < use.length; p++) {
+    let d2 = 0;
+    for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
+    s[p] = s[p - 1] + Math.sqrt(d2);
+  }
+  const errs: number[] = [];
+  let q = 0;
+  for (let p = 0; p < use.length; p++) {
+    const target = s[p] + distance_m;
+    if (q < p) q = p;
+    while (q < use.length && s[q] < target) q++;
+    if (q >= use.length) break;
+    const e = pairError(inp, use[p], use[q]);
+    if (Number.isFinite(e)) errs.push(e);
+  }
+  return stats(errs);
+}
+
+/** Reference path length over the used epochs, metres. */
+export function pathLength(ref: Float64Array[], use: number[]): number {
+  let s = 0;
+  for (let p = 1; p < use.length; p++) {
+    let d2 = 0;
+    for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
+    s += Math.sqrt(d2);
+  }
+  return s;
+}
+
+/** A round distance (1, 2 or 5 times a power of ten) at or below a tenth of the path length; NaN for no path. */
+export function defaultDistanceWindow(pathLength_m: number): number {
+  const target = pathLength_m / 10;
+  if (!(target > 0)) return NaN;
+  const p = Math.pow(10, Math.floor(Math.log10(target)));
+  for (const m of [5, 2, 1]) if (m * p <= target) return m * p;
+  return p;
+}
