@@ -14,6 +14,7 @@ const artifacts = [
   { entryPoints: ['extension/host/analysisWorker.ts'], outfile: 'dist/analysisWorker.js', platform: 'node', format: 'cjs', target: 'node20', external: ['vscode'] },
   { entryPoints: ['extension/cli/main.ts'], outfile: 'dist/cli.js', platform: 'node', format: 'cjs', target: 'node20', banner: { js: '#!/usr/bin/env node' } },
   { entryPoints: ['webview/main.ts'], outfile: 'dist/webview.js', platform: 'browser', format: 'iife', target: 'es2022' },
+  { entryPoints: ['scripts/gen-demo.ts'], outfile: 'dist/gen-demo.js', platform: 'node', format: 'cjs', target: 'node20' },
 ].filter((a) => existsSync(a.entryPoints[0]));
 
 mkdirSync('dist', { recursive: true });

@@ -1,0 +1,56 @@
+/**
+ * Seeded pseudo-random numbers for the demo generator: the same seed gives the same log on every machine.
+ *
+ * sfc32 (a public-domain 128-bit-state generator, common practice) seeded through splitmix32, with Box-Muller
+ * normals. Hand-written because the core takes no runtime dependency for twenty lines, and `Math.random` cannot be
+ * seeded.
+ */
+
+/** A seeded source of uniforms in [0, 1) and standard normals. */
+export interface DemoRandom {
+  /** Uniform in [0, 1). */
+  uniform(): number;
+  /** Standard normal N(0, 1). */
+  normal(): number;
+}
+
+/** Make a seeded generator; any finite number is a valid seed (it is reduced to 32 bits). */
+export function makeDemoRandom(seed: number): DemoRandom {
+  let s = (Math.trunc(seed) >>> 0) ^ 0x9e3779b9;
+  // splitmix32 spreads the seed over the four words of state.
+  const split = (): number => {
+    s = (s + 0x9e3779b9) >>> 0;
+    let z = s;
+    z = Math.imul(z ^ (z >>> 16), 0x85ebca6b);
+    z = Math.imul(z ^ (z >>> 13), 0xc2b2ae35);
+    return (z ^ (z >>> 16)) >>> 0;
+  };
+  let a = split(), b = split(), c = split(), d = split();
+  const next = (): number => {
+    const t = (((a + b) >>> 0) + d) >>> 0;
+    d = (d + 1) >>> 0;
+    a = b ^ (b >>> 9);
+    b = (c + (c << 3)) >>> 0;
+    c = ((c << 21) | (c >>> 11)) >>> 0;
+    c = (c + t) >>> 0;
+    return t;
+  };
+  for (let i = 0; i < 12; i++) next();
+  let spare = 0;
+  let hasSpare = false;
+  const uniform = (): number => next() / 4294967296;
+  const normal = (): number => {
+    if (hasSpare) {
+      hasSpare = false;
+      return spare;
+    }
+    let u = 0;
+    while (u <= 0) u = uniform();
+    const v = uniform();
+    const r = Math.sqrt(-2 * Math.log(u));
+    spare = r * Math.sin(2 * Math.PI * v);
+    hasSpare = true;
+    return r * Math.cos(2 * Math.PI * v);
+  };
+  return { uniform, normal };
+}
