@@ -1,0 +1,463 @@
+/**
+ * Consistency of one measurement channel: NIS figures, outliers beyond the gate, the corrected windowed test,
+ * whiteness, innovation bias, the NIS distribution and covariance health, with the panel's series.
+ *
+ * Conventions: `updates` counts every update record of the channel (and of each id); `rejected` counts those the
+ * estimator rejected. Rejected updates are left out of every other figure, of the findings and of `worst`.
+ * NIS values that cannot be computed (nothing logged) are left out too and counted in `nis.missing`.
+ * Methods and corrections are described in docs/consistency.md.
+ */
+import type { Channel } from '../model';
+import type { ChannelById, ChannelReport, Finding, WorstEntry } from '../report';
+import type { AnalysisSettings } from '../settings';
+import type { Series } from '../series';
+import { finiteJson } from '../finite';
+import { chi2Interval, chi2Quantile, chi2Sf } from '../stats/chi2';
+import { oneSampleTTest } from '../stats/ttest';
+import { twoSidedNormalQuantile } from '../stats/autocorrelation';
+import { computeNisDetailed, wrappedInnovations, NIS_BAD_COVARIANCE, NIS_FROM_LOG, NIS_MISSING } from './nis';
+import { TopK } from './topK';
+import { prefixSums, slidingAverage, windowTest, type WindowSpec } from './window';
+import { whiteness } from './whiteness';
+import { nisHistogram, nisKsTest } from './histogram';
+import { covarianceHealth } from './covariance';
+import { formatNumber, formatPercent } from './format';
+
+/** Outlier findings listed per channel; beyond it they are counted in the last one's message. */
+export const MAX_OUTLIER_FINDINGS = 500;
+
+/** Everything one channel contributes. */
+export interface ChannelAnalysis {
+  report: ChannelReport;
+  findings: Finding[];
+  series: Series[];
+  /** This channel's candidates for `worst` (its largest NIS), p computed, unsorted across channels. */
+  worst: WorstEntry[];
+  /** NIS of every update (rejected ones included; NaN where not computable). */
+  nis: Float64Array;
+}
+
+/** The window the settings ask for, or undefined when neither size is positive. */
+export function windowSpec(settings: AnalysisSettings): WindowSpec | undefined {
+  if (settings.windowUpdates !== undefined && settings.windowUpdates >= 1) {
+    return { kind: 'updates', size: Math.floor(settings.windowUpdates) };
+  }
+  if (settings.window_s > 0 && Number.isFinite(settings.window_s)) return { kind: 'seconds', size: settings.window_s };
+  return undefined;
+}
+
+function finiteOrNull(x: number): number | null {
+  return Number.isFinite(x) ? x : null;
+}
+
+/** Analyse one channel (see the file comment). Never throws on bad data. */
+export function analyzeChannel(channel: Channel, settings: AnalysisSettings): ChannelAnalysis {
+  const { name, dof, length: n } = channel;
+  const findings: Finding[] = [];
+  const series: Series[] = [];
+  if (!(dof >= 1) || n === 0) {
+    const report: ChannelReport = { name, dof, updates: n, rejected: countRejected(channel), outliers: 0, nis: { dof } };
+    return { report, findings, series, worst: [], nis: new Float64Array(n).fill(NaN) };
+  }
+  const { nis, source } = computeNisDetailed(channel);
+  const nu = wrappedInnovations(channel);
+  const S = channel.S;
+  const dd = dof * dof;
+  const hasS = S !== undefined && S.length >= n * dd;
+  const t = channel.t_s;
+  const ids = channel.ids;
+  const nIds = ids.length;
+
+  const gateValue = chi2Quantile(settings.gate, dof);
+  const [lo95, hi95] = chi2Interval(0.95, dof);
+
+  // Per-id accumulators.
+  const idUpdates = new Float64Array(nIds);
+  const idRejected = new Float64Array(nIds);
+  const idCount = new Float64Array(nIds);
+  const idSum = new Float64Array(nIds);
+  const idInside = new Float64Array(nIds);
+  const idOutliers = new Float64Array(nIds);
+  const idNuSum = new Float64Array(nIds * dof);
+  const idNuCount = new Float64Array(nIds * dof);
+
+  // Compact arrays of the accepted updates with a finite NIS.
+  const tC = new Float64Array(n);
+  const nisC = new Float64Array(n);
+  const idxC = new Int32Array(n);
+  let m = 0;
+  // Compact innovations (all components finite) for whiteness: raw and normalized.
+  const nuW = new Float64Array(n * dof);
+  const zW = new Float64Array(n * dof);
+  let mW = 0;
+  // Welford per component.
+  const compCount = new Float64Array(dof);
+  const compMean = new Float64Array(dof);
+  const compM2 = new Float64Array(dof);
+
+  let rejected = 0;
+  let sum = 0;
+  let inside = 0;
+  let outliers = 0;
+  let fromLog = 0;
+  let missing = 0;
+  const outlierIdx: number[] = [];
+  const top = new TopK(Math.max(0, settings.maxWorst));
+
+  for (let i = 0; i < n; i++) {
+    const idv = channel.id[i];
+    const k = idv >= 0 && idv < nIds ? idv | 0 : -1;
+    if (k >= 0) idUpdates[k]++;
+    if (channel.rejected[i]) {
+      rejected++;
+      if (k >= 0) idRejected[k]++;
+      continue;
+    }
+    const v = nis[i];
+    if (Number.isFinite(v)) {
+      tC[m] = t[i];
+      nisC[m] = v;
+      idxC[m] = i;
+      m++;
+      sum += v;
+      const isInside = v >= lo95 && v <= hi95;
+      if (isInside) inside++;
+      const isOutlier = v > gateValue;
+      if (isOutlier) {
+        outliers++;
+        if (outlierIdx.length < MAX_OUTLIER_FINDINGS) outlierIdx.push(i);
+      }
+      if (k >= 0) {
+        idCount[k]++;
+        idSum[k] += v;
+        if (isInside) idInside[k]++;
+        if (isOutlier) idOutliers[k]++;
+      }
+      top.push(v, i);
+      if (source[i] === NIS_FROM_LOG || source[i] === NIS_BAD_COVARIANCE) fromLog++;
+    } else if (source[i] === NIS_MISSING || source[i] === NIS_BAD_COVARIANCE) {
+      missing++;
+    }
+    // Innovation components.
+    const o = i * dof;
+    let all = true;
+    for (let c = 0; c < dof; c++) {
+      const x = nu[o + c];
+      if (!Number.isFinite(x)) { all = false; continue; }
+      const cnt = ++compCount[c];
+      const d = x - compMean[c];
+      compMean[c] += d / cnt;
+      compM2[c] += d * (x - compMean[c]);
+      if (k >= 0) { idNuSum[k * dof + c] += x; idNuCount[k * dof + c]++; }
+    }
+    if (all) {
+      let normOk = true;
+      const w = mW * dof;
+      for (let c = 0; c < dof; c++) {
+        const x = nu[o + c];
+        nuW[w + c] = x;
+        if (hasS) {
+          const s = S[i * dd + c * dof + c];
+          if (!(s > 0) || !Number.isFinite(s)) { normOk = false; break; }
+          zW[w + c] = x / Math.sqrt(s);
+        } else {
+          zW[w + c] = x;
+        }
+      }
+      if (normOk) mW++;
+    }
+  }
+
+  const accepted = n - rejected;
+  const nisSummary: ChannelReport['nis'] = {
+    dof,
+    count: m,
+    bounds95: [lo95, hi95],
+    gate: gateValue,
+    ...(m > 0 ? { mean: sum / m, inside95: inside / m } : {}),
+    ...(fromLog > 0 ? { fromLog } : {}),
+    ...(missing > 0 ? { missing } : {}),
+  };
+  const report: ChannelReport = { name, dof, updates: n, rejected, outliers, nis: nisSummary };
+  if (accepted === 0) report.note = 'every update of this channel was rejected by the estimator';
+
+  // Outlier findings.
+  const gateText = `${formatPercent(settings.gate)} gate (${formatNumber(gateValue, 3)}) for ${dof} dof`;
+  for (let q = 0; q < outlierIdx.length; q++) {
+    const i = outlierIdx[q];
+    const f: Finding = {
+      kind: 'outlier',
+      t: t[i],
+      line: channel.line[i],
+      file: channel.file,
+      channel: name,
+      ...(idOf(channel, i) !== undefined ? { id: idOf(channel, i) } : {}),
+      score: nis[i],
+      p: chi2Sf(nis[i], dof),
+      severity: 'warning',
+      message: `NIS ${formatNumber(nis[i])} is beyond the ${gateText}`,
+    };
+    if (q === outlierIdx.length - 1 && outliers > outlierIdx.length) {
+      f.message += ` (${outliers - outlierIdx.length} more outliers in ${name} not listed)`;
+    }
+    findings.push(f);
+  }
+
+  // Worst candidates of this channel.
+  const best = top.result();
+  const worst: WorstEntry[] = best.items.map((i, r) => {
+    const id = idOf(channel, i);
+    return {
+      t: t[i], line: channel.line[i], channel: name, ...(id !== undefined ? { id } : {}),
+      score: best.keys[r], p: chi2Sf(best.keys[r], dof),
+    };
+  });
+
+  // Windowed NIS.
+  const spec = windowSpec(settings);
+  if (spec && m > 0) {
+    const prefix = prefixSums(nisC, m);
+    const tV = tC.subarray(0, m);
+    const nV = nisC.subarray(0, m);
+    const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix);
+    const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix);
+    const lineW = new Float64Array(m);
+    for (let q = 0; q < m; q++) lineW[q] = channel.line[idxC[q]];
+    series.push({
+      key: `nisWindow/${name}`, group: 'innovations', label: `${name} windowed NIS`, unit: '1',
+      x: tV.slice(), y: slide.mean, line: lineW, lo: slide.lo, hi: slide.hi,
+    });
+    const windowText = spec.kind === 'seconds' ? `${formatNumber(spec.size)} s` : `${spec.size} updates`;
+    nisSummary.window = {
+      ...(spec.kind === 'seconds' ? { size_s: spec.size } : { sizeUpdates: spec.size }),
+      full: slide.full,
+      ...(slide.full > 0 ? { inside95: slide.fullInside95 / slide.full } : {}),
+      tests: test.tests,
+      alphaPerTest: test.alphaPerTest,
+      flagged: test.runs.length,
+    };
+    for (const r of test.runs) {
+      const over = r.side === 'overconfident';
+      const i0 = idxC[r.first];
+      findings.push({
+        kind: 'inconsistent',
+        t: tC[r.first],
+        tEnd: tC[r.last],
+        line: channel.line[i0],
+        file: channel.file,
+        channel: name,
+        side: r.side,
+        score: r.mean,
+        p: r.p,
+        severity: 'warning',
+        message:
+          `Average NIS ${formatNumber(r.mean)} over ${r.count} updates lies ${over ? 'above' : 'below'} the corrected ` +
+          `bound ${formatNumber(r.bound)} for ${dof} dof between t = ${formatNumber(tC[r.first])} s and ` +
+          `${formatNumber(tC[r.last])} s (${r.windows} of ${test.tests} ${windowText} windows; bounds corrected to a ` +
+          `${formatPercent(settings.familyAlpha)} false-finding chance per channel): the filter is ` +
+          (over ? 'overconfident here (S too small for the innovations)' : 'pessimistic here (S too large for the innovations)'),
+      });
+    }
+  }
+
+  // NIS series with the per-update band.
+  {
+    const [bLo, bHi] = chi2Interval(settings.confidence, dof);
+    const y = new Float64Array(n);
+    for (let i = 0; i < n; i++) y[i] = channel.rejected[i] ? NaN : nis[i];
+    series.push({
+      key: `nis/${name}`, group: 'innovations', label: `${name} NIS`, unit: '1',
+      x: t.slice(0, n), y, line: channel.line.slice(0, n),
+      lo: new Float64Array(n).fill(bLo), hi: new Float64Array(n).fill(bHi),
+    });
+    if (rejected > 0) {
+      const xr = new Float64Array(rejected);
+      const yr = new Float64Array(rejected);
+      const lr = new Float64Array(rejected);
+      let q = 0;
+      for (let i = 0; i < n; i++) if (channel.rejected[i]) { xr[q] = t[i]; yr[q] = nis[i]; lr[q] = channel.line[i]; q++; }
+      series.push({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1', x: xr, y: yr, line: lr });
+    }
+  }
+
+  // Innovations per component with +-z sqrt(S_cc).
+  const z = twoSidedNormalQuantile(settings.confidence);
+  let anyInnovation = false;
+  for (let c = 0; c < dof; c++) if (compCount[c] > 0) anyInnovation = true;
+  if (anyInnovation) {
+    for (let c = 0; c < dof; c++) {
+      const y = new Float64Array(n);
+      const lo = hasS ? new Float64Array(n) : undefined;
+      const hi = hasS ? new Float64Array(n) : undefined;
+      for (let i = 0; i < n; i++) {
+        y[i] = channel.rejected[i] ? NaN : nu[i * dof + c];
+        if (lo && hi && S) {
+          const s = S[i * dd + c * dof + c];
+          const half = s >= 0 ? z * Math.sqrt(s) : NaN;
+          lo[i] = -half;
+          hi[i] = half;
+        }
+      }
+      series.push({
+        key: `innovation/${name}/${c}`, group: 'innovations', label: `${name} innovation ${c}`,
+        unit: channel.angleComponents[c] ? 'rad' : '', x: t.slice(0, n), y, line: channel.line.slice(0, n),
+        ...(lo && hi ? { lo, hi } : {}),
+      });
+    }
+  }
+
+  // Innovation mean, std and the bias t-test (Bonferroni over components).
+  if (anyInnovation) {
+    const mean: (number | null)[] = [];
+    const std: (number | null)[] = [];
+    const pValues: (number | null)[] = [];
+    for (let c = 0; c < dof; c++) {
+      const cnt = compCount[c];
+      const sd = cnt >= 2 ? Math.sqrt(compM2[c] / (cnt - 1)) : NaN;
+      mean.push(cnt > 0 ? compMean[c] : null);
+      std.push(finiteOrNull(sd));
+      const tt = oneSampleTTest(compMean[c], sd, cnt);
+      pValues.push(tt ? finiteOrNull(tt.p) : null);
+      if (tt && tt.p < settings.familyAlpha / dof) {
+        findings.push({
+          kind: 'innovation-bias',
+          channel: name,
+          axis: c,
+          size: compMean[c],
+          score: tt.t,
+          p: tt.p,
+          severity: 'warning',
+          ...(m > 0 ? { t: tC[0], tEnd: tC[m - 1] } : {}),
+          message:
+            `Innovation component ${c} of ${name} has mean ${formatNumber(compMean[c])} (std ${formatNumber(sd)}, ` +
+            `t = ${formatNumber(tt.t)}) over ${cnt} updates; p = ${formatNumber(tt.p)} is below ` +
+            `${formatPercent(settings.familyAlpha)}${dof > 1 ? ` / ${dof} components` : ''}: the measurement or its model is biased`,
+        });
+      }
+    }
+    report.innovationMean = mean;
+    report.innovationStd = std;
+    report.innovationMeanP = pValues;
+  }
+
+  // Whiteness.
+  const white = whiteness(nuW.subarray(0, mW * dof), zW.subarray(0, mW * dof), mW, dof, settings.whitenessLags);
+  if (white) {
+    report.whiteness = {
+      lags: white.lags,
+      ljungBoxQ: white.ljungBoxQ,
+      ljungBoxP: white.ljungBoxP,
+      count: white.count,
+      ...(dof > 1 ? { component: white.component, components: white.components } : {}),
+      rho: Array.from(white.rho, finiteOrNull),
+      rhoBound: Array.from(white.rhoBound, finiteOrNull),
+      outside: white.outside,
+    };
+    const lagsX = Float64Array.from({ length: white.lags }, (_, j) => j + 1);
+    series.push({
+      key: `acf/${name}`, group: 'innovations', label: `${name} normalized autocorrelation`, unit: '1',
+      x: lagsX, y: white.rho, lo: white.rhoBound.map((b) => -b), hi: white.rhoBound,
+    });
+    if (white.ljungBoxP < settings.familyAlpha) {
+      findings.push({
+        kind: 'not-white',
+        channel: name,
+        score: white.ljungBoxQ,
+        p: white.ljungBoxP,
+        severity: 'warning',
+        ...(m > 0 ? { t: tC[0], tEnd: tC[m - 1] } : {}),
+        message:
+          `Innovations of ${name} are not white: Ljung-Box Q = ${formatNumber(white.ljungBoxQ)} over ${white.lags} lags` +
+          `${dof > 1 ? ` (component ${white.component}, p corrected for ${dof} components)` : ''}, ` +
+          `p = ${formatNumber(white.ljungBoxP)} < ${formatPercent(settings.familyAlpha)}; ` +
+          `${white.outside} of ${white.lags} lags of the normalized autocorrelation lie outside +-1.96/sqrt(K)`,
+      });
+    }
+  }
+
+  // NIS distribution.
+  const hist = nisHistogram(nisC, m, dof);
+  if (hist) {
+    const ks = nisKsTest(nisC, m, dof);
+    nisSummary.histogram = hist;
+    if (ks) nisSummary.ks = { d: ks.d, p: ks.p, n: ks.n, stride: ks.stride };
+    const centers = Float64Array.from({ length: hist.counts.length }, (_, k) => 0.5 * (hist.edges[k] + hist.edges[k + 1]));
+    series.push({
+      key: `nisHistogram/${name}`, group: 'innovations', label: `${name} NIS density`, unit: '1',
+      x: centers, y: Float64Array.from(hist.density),
+    });
+    series.push({
+      key: `nisPdf/${name}`, group: 'innovations', label: `chi-square(${dof}) density`, unit: '1',
+      x: centers.slice(), y: Float64Array.from(hist.pdf),
+    });
+  }
+
+  // Covariance health.
+  const health = covarianceHealth(channel, best.items.slice(0, 8));
+  if (health) {
+    report.covariance = {
+      checked: health.checked,
+      notSpd: health.notSpd,
+      asymmetric: health.asymmetric,
+      ...(health.incomplete > 0 ? { incomplete: health.incomplete } : {}),
+      ...(health.minEigenvalue !== undefined ? { minEigenvalue: health.minEigenvalue } : {}),
+      ...(health.maxCondition !== undefined ? { maxCondition: health.maxCondition } : {}),
+      eigenSampled: health.eigenSampled,
+    };
+    health.runs.forEach((r, q) => {
+      const what = r.notSpd > 0 && r.asymmetric > 0 ? 'not symmetric positive definite'
+        : r.notSpd > 0 ? 'not positive definite' : 'not symmetric';
+      const f: Finding = {
+        kind: 'bad-covariance',
+        t: t[r.first],
+        ...(r.last > r.first ? { tEnd: t[r.last] } : {}),
+        line: channel.line[r.first],
+        file: channel.file,
+        channel: name,
+        severity: 'error',
+        message: `Innovation covariance S of ${name} is ${what} at ${r.count} update${r.count > 1 ? 's' : ''}` +
+          (r.last > r.first ? ` from line ${channel.line[r.first]} to line ${channel.line[r.last]}` : ` at line ${channel.line[r.first]}`),
+      };
+      if (q === health.runs.length - 1 && health.moreRuns > 0) f.message += ` (${health.moreRuns} more runs not listed)`;
+      findings.push(f);
+    });
+  }
+
+  // Per id.
+  if (nIds > 0) {
+    const byId: ChannelById[] = [];
+    for (let k = 0; k < nIds; k++) {
+      if (idUpdates[k] === 0) continue;
+      const entry: ChannelById = {
+        id: ids[k],
+        updates: idUpdates[k],
+        outliers: idOutliers[k],
+        nis: idCount[k] > 0 ? { mean: idSum[k] / idCount[k], inside95: idInside[k] / idCount[k] } : {},
+      };
+      if (idRejected[k] > 0) entry.rejected = idRejected[k];
+      if (anyInnovation) {
+        const im: (number | null)[] = [];
+        for (let c = 0; c < dof; c++) {
+          const cnt = idNuCount[k * dof + c];
+          im.push(cnt > 0 ? idNuSum[k * dof + c] / cnt : null);
+        }
+        entry.innovationMean = im;
+      }
+      byId.push(entry);
+    }
+    report.byId = byId;
+  }
+
+  return { report: finiteJson(report) as unknown as ChannelReport, findings, series, worst, nis };
+}
+
+function idOf(channel: Channel, i: number): string | undefined {
+  const v = channel.id[i];
+  return v >= 0 && v < channel.ids.length ? channel.ids[v | 0] : undefined;
+}
+
+function countRejected(channel: Channel): number {
+  let r = 0;
+  for (let i = 0; i < channel.length; i++) if (channel.rejected[i]) r++;
+  return r;
+}

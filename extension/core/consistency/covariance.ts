@@ -1,0 +1,133 @@
+/**
+ * Health of the logged innovation covariances S: symmetric (relative asymmetry at most ASYMMETRY_TOLERANCE) and
+ * positive definite (a Cholesky factorisation succeeds) at every update, checked in one allocation-free pass.
+ * Eigen-figures (smallest eigenvalue, condition number) come from mathjs `eigs` on a small sample of updates only
+ * (evenly strided plus the caller's picks, e.g. the largest NIS), keeping eigen-decompositions off the hot path.
+ */
+import { eigs } from 'mathjs';
+import type { Channel } from '../model';
+import { asymmetry, choleskyFactor } from '../linalg/cholesky';
+
+/** Largest relative asymmetry |S_rc - S_cr| / max(|S_rr|, |S_cc|) still taken as symmetric (printing round-off). */
+export const ASYMMETRY_TOLERANCE = 1e-6;
+/** Matrices sampled at an even stride for eigen-figures. */
+export const EIGEN_SAMPLE = 24;
+/** Runs of bad covariances kept (the rest are counted). */
+export const MAX_BAD_RUNS = 50;
+
+/** A maximal run of consecutive updates whose S failed. */
+export interface BadCovarianceRun {
+  first: number;
+  last: number;
+  count: number;
+  notSpd: number;
+  asymmetric: number;
+}
+
+/** Covariance figures of one channel. */
+export interface CovarianceHealth {
+  /** Updates with a complete S. */
+  checked: number;
+  notSpd: number;
+  asymmetric: number;
+  /** Updates where S is partly missing (some entries NaN). */
+  incomplete: number;
+  minEigenvalue?: number;
+  maxCondition?: number;
+  /** Matrices the eigen-figures come from (all updates for 1 dof). */
+  eigenSampled: number;
+  runs: BadCovarianceRun[];
+  /** Bad runs beyond MAX_BAD_RUNS (not listed). */
+  moreRuns: number;
+}
+
+/** Check every logged S of `channel`; `extra` are update indices to include in the eigen sample. */
+export function covarianceHealth(channel: Channel, extra: number[] = []): CovarianceHealth | undefined {
+  const { S, dof, length } = channel;
+  if (!S || dof < 1) return undefined;
+  const dd = dof * dof;
+  const work = new Float64Array(dd);
+  const ok = new Uint8Array(length);
+  let checked = 0;
+  let notSpd = 0;
+  let asym = 0;
+  let incomplete = 0;
+  let minDiag1 = Infinity;
+  const runs: BadCovarianceRun[] = [];
+  let moreRuns = 0;
+  let open: BadCovarianceRun | undefined;
+  let prevBad = false;
+  for (let i = 0; i < length; i++) {
+    const o = i * dd;
+    let finite = 0;
+    for (let k = 0; k < dd; k++) if (Number.isFinite(S[o + k])) finite++;
+    if (finite < dd) {
+      if (finite > 0) incomplete++;
+      prevBad = false;
+      continue;
+    }
+    checked++;
+    const isAsym = dof > 1 && asymmetry(S, o, dof) > ASYMMETRY_TOLERANCE;
+    const isSpd = choleskyFactor(S, o, dof, work, 0);
+    if (dof === 1 && S[o] < minDiag1) minDiag1 = S[o];
+    if (isAsym) asym++;
+    if (!isSpd) notSpd++;
+    if (!isAsym && isSpd) { ok[i] = 1; prevBad = false; continue; }
+    if (!prevBad) {
+      if (runs.length < MAX_BAD_RUNS) {
+        open = { first: i, last: i, count: 0, notSpd: 0, asymmetric: 0 };
+        runs.push(open);
+      } else {
+        open = undefined;
+        moreRuns++;
+      }
+    }
+    prevBad = true;
+    if (!open) continue;
+    open.last = i;
+    open.count++;
+    if (!isSpd) open.notSpd++;
+    if (isAsym) open.asymmetric++;
+  }
+  const out: CovarianceHealth = { checked, notSpd, asymmetric: asym, incomplete, eigenSampled: 0, runs, moreRuns };
+  if (checked === 0) return out;
+  if (dof === 1) {
+    out.minEigenvalue = minDiag1;
+    if (minDiag1 > 0) out.maxCondition = 1;
+    out.eigenSampled = checked;
+    return out;
+  }
+  // Eigen-figures on a sample of well-formed updates.
+  const picks = new Set<number>();
+  const stride = Math.max(1, Math.floor(length / EIGEN_SAMPLE));
+  for (let i = 0; i < length; i += stride) {
+    let j = i;
+    while (j < length && j < i + stride && !ok[j]) j++;
+    if (j < length && ok[j]) picks.add(j);
+  }
+  for (const i of extra) if (i >= 0 && i < length && ok[i]) picks.add(i);
+  let minEig = Infinity;
+  let maxCond = 0;
+  for (const i of picks) {
+    const rows: number[][] = [];
+    for (let r = 0; r < dof; r++) {
+      const row: number[] = [];
+      for (let c = 0; c < dof; c++) row.push(0.5 * (S[i * dd + r * dof + c] + S[i * dd + c * dof + r]));
+      rows.push(row);
+    }
+    try {
+      const values = eigs(rows, { eigenvectors: false }).values as unknown as number[];
+      let lo = Infinity;
+      let hi = -Infinity;
+      for (const v of values) { if (v < lo) lo = v; if (v > hi) hi = v; }
+      if (lo < minEig) minEig = lo;
+      if (lo > 0 && hi / lo > maxCond) maxCond = hi / lo;
+      out.eigenSampled++;
+    } catch {
+      // mathjs did not converge on this matrix: leave it out of the sample.
+    }
+  }
+  if (Number.isFinite(minEig)) out.minEigenvalue = minEig;
+  if (maxCond > 0) out.maxCondition = maxCond;
+  return out;
+}

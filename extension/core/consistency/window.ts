@@ -1,0 +1,203 @@
+/**
+ * Time-average NIS over windows (Bar-Shalom, Li and Kirubarajan 2001, sec. 5.4): the average of K independent
+ * chi-square(dof) values has K * mean ~ chi-square(K * dof), so its two-sided bounds are chi2(K dof)/K.
+ *
+ * Two uses, both from one prefix sum over the accepted updates (O(n), no allocation in the loops):
+ * 1. The sliding average ending at every update, with its uncorrected band at `confidence`, for the panel and for
+ *    the share of windows inside their 95% band (about 95% for a consistent filter).
+ * 2. The `inconsistent` test. Sliding windows overlap, so testing each of them at 5% would flag almost every
+ *    consistent log. Instead the log is cut into windows of the same size placed every HALF window (each update lies
+ *    in two of them, so a burst straddling a boundary is still seen whole by one), and every such window is tested
+ *    against bounds at confidence 1 - familyAlpha / M, where M is the number of non-empty tested windows.
+ *    By the union bound (Bonferroni), the probability that a consistent log raises any `inconsistent` finding in the
+ *    channel is at most familyAlpha (1%), whatever the dependence between overlapping windows. Adjacent flagged
+ *    windows on the same side are merged into one finding.
+ *
+ * Windows are in seconds (`window_s`, window (t - w, t] for the sliding average, [s, s + w) for tested windows) or,
+ * when `windowUpdates` is set, in updates. Times are expected in non-decreasing order; a backwards step only
+ * widens a window, it never fails.
+ */
+import { chi2Cdf, chi2Interval, chi2Sf } from '../stats/chi2';
+
+/** Window definition: seconds or a count of updates. */
+export type WindowSpec = { kind: 'seconds'; size: number } | { kind: 'updates'; size: number };
+
+/** The sliding average at every accepted update. */
+export interface SlidingAverage {
+  /** Average NIS of the window ending at each update. */
+  mean: Float64Array;
+  /** Number of updates in that window. */
+  count: Float64Array;
+  /** Band at `confidence` for that count: chi2(count * dof) / count. */
+  lo: Float64Array;
+  hi: Float64Array;
+  /** Windows that span the full window size (the first ones are shorter). */
+  full: number;
+  /** Full windows whose average lies inside the two-sided 95% bounds for their count. */
+  fullInside95: number;
+}
+
+/** A maximal run of tested windows flagged on the same side. */
+export interface InconsistentRun {
+  side: 'overconfident' | 'pessimistic';
+  /** Index (into the accepted arrays) of the first and last update covered. */
+  first: number;
+  last: number;
+  /** The most extreme flagged window: its average, count and bound. */
+  mean: number;
+  count: number;
+  bound: number;
+  /** Chi-square tail probability of that window's sum (upper tail when overconfident, lower when pessimistic). */
+  p: number;
+  windows: number;
+}
+
+/** Result of the corrected window test. */
+export interface WindowTest {
+  /** Number of non-empty windows tested (M). */
+  tests: number;
+  /** Per-window two-sided false-alarm probability, familyAlpha / M. */
+  alphaPerTest: number;
+  runs: InconsistentRun[];
+}
+
+/** Memoised two-sided bounds of an average of `count` chi-square(dof) values at one confidence. */
+function boundsCache(confidence: number, dof: number): (count: number) => [number, number] {
+  const cache = new Map<number, [number, number]>();
+  return (count: number): [number, number] => {
+    let b = cache.get(count);
+    if (!b) {
+      const [lo, hi] = chi2Interval(confidence, dof * count);
+      b = [lo / count, hi / count];
+      cache.set(count, b);
+    }
+    return b;
+  };
+}
+
+/** Prefix sums P[i] = sum of values[0..i). */
+export function prefixSums(values: Float64Array, n: number): Float64Array {
+  const p = new Float64Array(n + 1);
+  for (let i = 0; i < n; i++) p[i + 1] = p[i] + values[i];
+  return p;
+}
+
+/**
+ * Sliding average of `nis[0..n)` (accepted updates, finite) at times `t_s`, with bands at `confidence` for the
+ * panel and the share of full windows inside the 95% bounds.
+ */
+export function slidingAverage(
+  t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, confidence: number,
+  prefix = prefixSums(nis, n),
+): SlidingAverage {
+  const mean = new Float64Array(n);
+  const count = new Float64Array(n);
+  const lo = new Float64Array(n);
+  const hi = new Float64Array(n);
+  const band = boundsCache(confidence, dof);
+  const band95 = confidence === 0.95 ? band : boundsCache(0.95, dof);
+  let full = 0;
+  let fullInside95 = 0;
+  let j = 0;
+  const t0 = n > 0 ? t_s[0] : 0;
+  for (let i = 0; i < n; i++) {
+    let isFull: boolean;
+    if (spec.kind === 'updates') {
+      j = Math.max(0, i - spec.size + 1);
+      isFull = i + 1 >= spec.size;
+    } else {
+      const start = t_s[i] - spec.size;
+      while (j < i && t_s[j] <= start) j++;
+      isFull = t_s[i] - t0 >= spec.size;
+    }
+    const k = i - j + 1;
+    const m = (prefix[i + 1] - prefix[j]) / k;
+    mean[i] = m;
+    count[i] = k;
+    const [a, b] = band(k);
+    lo[i] = a;
+    hi[i] = b;
+    if (isFull) {
+      full++;
+      const [a95, b95] = band95(k);
+      if (m >= a95 && m <= b95) fullInside95++;
+    }
+  }
+  return { mean, count, lo, hi, full, fullInside95 };
+}
+
+/**
+ * The corrected `inconsistent` test over half-overlapping windows (see the file comment): at most `familyAlpha`
+ * probability of any finding for a consistent channel.
+ */
+export function windowTest(
+  t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, familyAlpha: number,
+  prefix = prefixSums(nis, n),
+): WindowTest {
+  // Pass 1: the windows (depends on the times only, so M is fixed before any NIS is looked at).
+  const starts: number[] = [];
+  const ends: number[] = [];
+  if (n > 0) {
+    if (spec.kind === 'updates') {
+      const k = Math.max(1, Math.floor(spec.size));
+      const stride = Math.max(1, Math.ceil(k / 2));
+      for (let a = 0; a < n; a += stride) {
+        starts.push(a);
+        ends.push(Math.min(n, a + k));
+        if (a + k >= n) break;
+      }
+    } else {
+      const w = spec.size;
+      const h = w / 2;
+      const t0 = t_s[0];
+      let a = 0;
+      let b = 0;
+      let k = 0;
+      for (;;) {
+        const s = t0 + k * h;
+        while (a < n && t_s[a] < s) a++;
+        if (a >= n) break;
+        if (b < a) b = a;
+        while (b < n && t_s[b] < s + w) b++;
+        if (b > a) {
+          starts.push(a);
+          ends.push(b);
+          if (b >= n) break;
+          k++;
+        } else {
+          // Empty window (a gap in the log): jump to the first window that contains update a.
+          k = Math.max(k + 1, Math.floor((t_s[a] - w - t0) / h) + 1);
+        }
+      }
+    }
+  }
+  const tests = starts.length;
+  const alphaPerTest = tests > 0 ? familyAlpha / tests : familyAlpha;
+  const bounds = boundsCache(1 - alphaPerTest, dof);
+  const runs: InconsistentRun[] = [];
+  let open: InconsistentRun | undefined;
+  for (let wi = 0; wi < tests; wi++) {
+    const a = starts[wi];
+    const b = ends[wi];
+    const k = b - a;
+    const m = (prefix[b] - prefix[a]) / k;
+    const [lo, hi] = bounds(k);
+    const side = m > hi ? 'overconfident' : m < lo ? 'pessimistic' : undefined;
+    if (!side) { open = undefined; continue; }
+    const bound = side === 'overconfident' ? hi : lo;
+    if (open && open.side === side) {
+      open.last = b - 1;
+      open.windows++;
+      // Keep the window furthest beyond its own bound (ratio to the bound, as counts differ between windows).
+      const further = side === 'overconfident' ? m / bound > open.mean / open.bound : m * open.bound < open.mean * bound;
+      if (further) { open.mean = m; open.count = k; open.bound = bound; }
+    } else {
+      open = { side, first: a, last: b - 1, mean: m, count: k, bound, p: NaN, windows: 1 };
+      runs.push(open);
+    }
+  }
+  for (const r of runs) {
+    r.p = r.side === 'overconfident' ? chi2Sf(r.mean * r.count, dof * r.count) : chi2Cdf(r.mean * r.count, dof * r.count);
+  }
+  return { tests, alphaPerTest, runs };
+}
