@@ -46,7 +46,7 @@ const MAX_DIAGNOSTIC_FINDINGS_PER_KIND = 200;
  * @param times optional: filled with per-stage elapsed milliseconds
  */
 export function analyzeLog(log: NavLog, settings: AnalysisSettings, info: SourceInfo = {}, times?: StageTimes): AnalysisResult {
-  const clock = (): number => (typeof performance !== 'undefined' ? performance.now() : Date.now());
+  const clock = (): number => performance.now();
   const timed = <T>(name: string, fn: () => T): T => {
     const t0 = clock();
     const out = fn();
