@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import jStat from 'jstat';
+import { createRequire } from 'node:module';
 import { analyzeUwb, summarizeValues, isTdoaChannel, parsePairId } from '../../../extension/core/uwb/index';
 import { resolveSettings, DEFAULT_SETTINGS } from '../../../extension/core/settings';
 import { toaOffsetDop } from '../../../extension/core/uwb/dop';
@@ -8,6 +8,15 @@ import { REPORT_SCHEMA } from '../../../extension/core/report';
 import { reportProblems } from '../../helpers/reportSchema';
 import { GREENHOUSE_ANCHORS, simulateUwb, tagAt } from './simulate';
 import type { Vec3_m } from '../../../extension/core/uwb/vec3';
+
+/** jStat 1.9 (devDependency, general-purpose reference; ships no types: only the functions used are typed here). */
+interface JStatStats {
+  mean(a: number[]): number;
+  stdev(a: number[], sample: boolean): number;
+  median(a: number[]): number;
+  meddev(a: number[]): number;
+}
+const jStat = (createRequire(import.meta.url)('jstat') as { jStat: JStatStats }).jStat;
 
 // All logs here come from our own seeded simulation (simulate.ts, invented greenhouse scene).
 const BLOCK_3 = { anchor: 3, t0: 30, t1: 60, bias_m: 0.4, share: 0.15, extra_m: [1, 3] as [number, number] };
