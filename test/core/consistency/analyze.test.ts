@@ -133,7 +133,7 @@ describe('whiteness and bias (constructed)', () => {
   it('3 dof: an AR(1) innovation is flagged with the per-component correction', () => {
     const bad = analyzeChannels(makeLog([simulateChannel({ seed: 4, duration_s: 200, rate_hz: 10, dof: 3, ar: 0.3 })]), settings);
     expect(bad.findings.some((x) => x.kind === 'not-white')).toBe(true);
-    const w = bad.block?.[0].whiteness as { components: unknown[] };
+    const w = bad.block?.[0].whiteness as unknown as { components: unknown[] };
     expect(w.components.length).toBe(3);
   });
 
