@@ -12,7 +12,7 @@ import { chi2Interval } from '../stats/chi2';
 import { so3Angle } from '../geometry/so3';
 import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
 import { convergence, SETTLE_FACTOR, type Convergence } from './convergence';
-import { neesAutocorrelation, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
+import { errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
 import {
   defaultDistanceWindow, median, pathLength, relativeErrorOverDistance, relativeErrorOverTime, type RelativeErrorStats,
 } from './relative';
@@ -231,26 +231,26 @@ function windowedTest(
     for (let k = 0; k < track.length; k++) out[k] = e[k] / s[k];
     return out;
   });
-  const perSeg: { bounds: number[]; rho: Float64Array }[] = [];
+  const perSeg: { bounds: number[]; rs: Float64Array[] }[] = [];
   let total = 0;
   let longest = -1, longestLen = 0, correlationFactor: number | undefined;
   for (let s = 0; s + 1 < segs.length; s++) {
     const i0 = segs[s], i1 = segs[s + 1];
     const bounds = windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
-    const rho = neesAutocorrelation(z, i0, i1);
-    perSeg.push({ bounds, rho });
+    const rs = errorAutocorrelations(z, i0, i1);
+    perSeg.push({ bounds, rs });
     total += bounds.length - 1;
     if (i1 - i0 > longestLen) { longestLen = i1 - i0; longest = s; }
   }
   if (longest >= 0) {
     let sum = 0;
-    for (const r of perSeg[longest].rho) sum += r;
-    correlationFactor = 1 + 2 * sum;
+    for (const r of perSeg[longest].rs) for (const v of r) sum += v * v;
+    correlationFactor = 1 + (2 * sum) / Math.max(1, perSeg[longest].rs.length);
   }
   const alpha = settings.familyAlpha / Math.max(1, total);
   const windows: NeesWindow[] = [];
   for (const seg of perSeg) {
-    const ws = neesWindows(track.t_s, nees, dof, seg.bounds, seg.rho, settings.confidence, alpha);
+    const ws = neesWindows(track.t_s, nees, dof, seg.bounds, seg.rs, settings.confidence, alpha);
     // merge consecutive flagged windows of the same side into one finding
     let run: NeesWindow[] = [];
     const flush = (): void => {

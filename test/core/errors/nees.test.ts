@@ -1,0 +1,115 @@
+/**
+ * NEES bounds and the single-run windowed test with an effective sample size.
+ * Bar-Shalom intervals: reference-checks.md sec 2.2. Simulations: seeded, of our own (simulate.ts).
+ */
+import { describe, expect, it } from 'vitest';
+import { chi2MeanInterval } from '../../../extension/core/stats/chi2';
+import { effectiveSampleSize, meanInterval, neesAutocorrelation } from '../../../extension/core/errors/nees';
+import { analyzeErrors } from '../../../extension/core/errors/index';
+import { resolveSettings } from '../../../extension/core/settings';
+import { simulateRun } from './simulate';
+import { gaussian, seededRandom } from '../geometry/helpers';
+
+describe('Bar-Shalom average NEES / NIS intervals (reference-checks.md sec 2.2, [COMPUTED] R and jStat, tol 1e-4)', () => {
+  const rows: [string, number, number, [number, number]][] = [
+    ['NEES n_x = 2, N = 50', 2, 50, [1.4844, 2.5912]],
+    ['NEES n_x = 4, N = 50', 4, 50, [3.2546, 4.8212]],
+    ['NEES n_x = 3, N = 50', 3, 50, [2.3597, 3.716]],
+    ['NEES n_x = 6, N = 50', 6, 50, [5.0782, 6.9975]],
+    ['NIS n_z = 1, N = 50', 1, 50, [0.6471, 1.4284]],
+    ['time-average NIS n_z = 2, K = 100', 2, 100, [1.6273, 2.4106]],
+    ['single-step NEES n_x = 2', 2, 1, [0.0506, 7.3778]],
+  ];
+  it.each(rows)('%s', (_name, dof, N, [lo, hi]) => {
+    const [a, b] = chi2MeanInterval(0.95, dof, N);
+    expect(Math.abs(a - lo)).toBeLessThan(1e-4);
+    expect(Math.abs(b - hi)).toBeLessThan(1e-4);
+    // the effective-sample-size interval reduces to the same when n_eff = N
+    const [c, d] = meanInterval(0.95, dof, N);
+    expect(Math.abs(c - lo)).toBeLessThan(1e-4);
+    expect(Math.abs(d - hi)).toBeLessThan(1e-4);
+  });
+  it("the book's rounded [1.5, 2.6] for n_x = 2, N = 50 (from memory, tol 0.05)", () => {
+    const [a, b] = chi2MeanInterval(0.95, 2, 50);
+    expect(Math.abs(a - 1.5)).toBeLessThan(0.05);
+    expect(Math.abs(b - 2.6)).toBeLessThan(0.05);
+  });
+});
+
+describe('effective sample size', () => {
+  it('white errors: n_eff is close to K', () => {
+    const g = gaussian(seededRandom(3));
+    const z = [Float64Array.from({ length: 5000 }, g), Float64Array.from({ length: 5000 }, g)];
+    const rho = neesAutocorrelation(z, 0, 5000);
+    expect(effectiveSampleSize(50, rho)).toBeGreaterThan(45);
+  });
+  it('AR(1) errors with a = 0.9: rho_NEES(k) ≈ a^(2k), so a long window has n_eff ≈ K (1 - a^2)/(1 + a^2)', () => {
+    // common practice: corr(e^2(t), e^2(t+k)) = corr(e(t), e(t+k))^2 for Gaussian e; variance of the mean of a
+    // stationary sequence = (sigma^2/K)(1 + 2 sum rho_k)
+    const g = gaussian(seededRandom(11));
+    const n = 200000, a = 0.9;
+    const z = [new Float64Array(n)];
+    let e = g();
+    for (let k = 0; k < n; k++) { e = a * e + Math.sqrt(1 - a * a) * g(); z[0][k] = e; }
+    const rho = neesAutocorrelation(z, 0, n);
+    const K = 100000;
+    const expected = (K * (1 - a * a)) / (1 + a * a);
+    expect(Math.abs(effectiveSampleSize(K, rho) / expected - 1)).toBeLessThan(0.1);
+  });
+});
+
+describe('windowed NEES test on seeded simulated runs', () => {
+  const settings = resolveSettings({ window_s: 5 });
+
+  it('consistent run: about 95% of windows inside their 95% bounds, no finding', () => {
+    let inside = 0, total = 0;
+    for (let seed = 1; seed <= 10; seed++) {
+      const out = analyzeErrors(simulateRun({ seed }), settings);
+      expect(out.findings.filter((f) => f.kind === 'inconsistent')).toEqual([]);
+      const w = out.block?.position?.nees?.windows;
+      if (!w || w.inside95 === undefined) throw new Error('no windows');
+      inside += w.inside95 * w.count; total += w.count;
+    }
+    // 1200 windows: a binomial 95% share has sd ~0.6%; the n_eff approximation is allowed +-3%
+    expect(inside / total).toBeGreaterThan(0.92);
+    expect(inside / total).toBeLessThan(0.98);
+  });
+
+  it('covariance scaled by 1/4 in [300, 360] s: flagged there and nowhere else', () => {
+    for (const seed of [21, 22, 23]) {
+      const out = analyzeErrors(simulateRun({ seed, scaled: { t0: 300, t1: 360, factor: 0.5 } }), settings);
+      const inc = out.findings.filter((f) => f.kind === 'inconsistent');
+      expect(inc.length).toBeGreaterThan(0);
+      for (const f of inc) {
+        expect(f.channel).toBe('position');
+        expect(f.side).toBe('overconfident');
+        expect(f.t as number).toBeGreaterThanOrEqual(300 - 5);
+        expect(f.tEnd as number).toBeLessThanOrEqual(360 + 5);
+      }
+      const covered = inc.reduce((s, f) => s + ((f.tEnd as number) - (f.t as number)), 0);
+      expect(covered).toBeGreaterThan(30); // at least half of the 60 s interval
+    }
+  });
+
+  it('covariance scaled by 4 (pessimistic) in one interval: flagged there as pessimistic', () => {
+    const out = analyzeErrors(simulateRun({ seed: 5, scaled: { t0: 300, t1: 360, factor: 2 } }), resolveSettings({ window_s: 30 }));
+    const inc = out.findings.filter((f) => f.kind === 'inconsistent');
+    expect(inc.length).toBeGreaterThan(0);
+    for (const f of inc) {
+      expect(f.side).toBe('pessimistic');
+      expect(f.t as number).toBeGreaterThanOrEqual(270);
+      expect(f.tEnd as number).toBeLessThanOrEqual(390);
+    }
+  });
+
+  it('false-finding rate over 300 consistent seeded runs is at most familyAlpha = 1%', () => {
+    let runsWithFinding = 0;
+    const seeds = 300;
+    for (let seed = 1000; seed < 1000 + seeds; seed++) {
+      const out = analyzeErrors(simulateRun({ seed, epochs: 3000 }), settings);
+      if (out.findings.some((f) => f.kind === 'inconsistent')) runsWithFinding++;
+    }
+    console.log(`windowed NEES: ${runsWithFinding} of ${seeds} consistent runs raised a finding`);
+    expect(runsWithFinding / seeds).toBeLessThanOrEqual(0.01);
+  });
+});
