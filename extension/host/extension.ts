@@ -7,7 +7,7 @@ import * as path from 'node:path';
 import * as vscode from 'vscode';
 import type { WorstEntry } from '../core/report';
 import { LOG_VIEW_TYPE, LogViewProvider } from './customEditor';
-import { ADD_COLUMN_COMMAND, MappingFixProvider, addColumnToMappingFile } from './mappingFix';
+import { ADD_COLUMN_COMMAND, MappingFixProvider, addColumnToMappingFile, createMappingFile } from './mappingFix';
 import { PANEL_VIEW_TYPE } from './panel';
 import { PanelManager } from './panels';
 import { runSelfTestIfRequested } from './selfTest';
@@ -59,6 +59,12 @@ export function activate(context: vscode.ExtensionContext): ResiduumApi {
     }),
     vscode.commands.registerCommand('residuum.nextWorst', () => stepWorst(manager, 1)),
     vscode.commands.registerCommand('residuum.previousWorst', () => stepWorst(manager, -1)),
+    vscode.commands.registerCommand('residuum.createMapping', async (arg?: unknown) => {
+      const active = vscode.window.activeTextEditor?.document.uri;
+      const isLog = (u: vscode.Uri | undefined): u is vscode.Uri => !!u && u.scheme === 'file' && LOG_EXTENSIONS.some((e) => u.path.toLowerCase().endsWith(`.${e}`)) && !u.path.endsWith('.map.json');
+      const log = arg instanceof vscode.Uri ? arg : isLog(active) ? active : manager.current()?.uri ?? (await pickLog());
+      if (log) await createMappingFile(mappingFileFor(log));
+    }),
     vscode.commands.registerCommand(ADD_COLUMN_COMMAND, (map: unknown, column: unknown) => {
       if (map instanceof vscode.Uri && typeof column === 'string') return addColumnToMappingFile(map, column);
       output.warn(`${ADD_COLUMN_COMMAND}: ignored a call without a mapping URI and a column name`);

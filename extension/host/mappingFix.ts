@@ -43,6 +43,41 @@ function codeOf(d: vscode.Diagnostic): string | undefined {
   return undefined;
 }
 
+/** Write `text` to `target` atomically: a temporary file beside it, then a rename over it. */
+async function writeAtomically(target: vscode.Uri, text: string): Promise<void> {
+  const tmp = target.with({ path: `${target.path}.${process.pid}.tmp` });
+  try {
+    await vscode.workspace.fs.writeFile(tmp, new TextEncoder().encode(text));
+    await vscode.workspace.fs.rename(tmp, target, { overwrite: true });
+  } catch (e) {
+    try {
+      await vscode.workspace.fs.delete(tmp);
+    } catch {
+      // nothing left behind to remove
+    }
+    throw e;
+  }
+}
+
+/** Create the mapping file `map` (a skeleton validated by the schema) unless it exists, and show it. */
+export async function createMappingFile(map: vscode.Uri): Promise<void> {
+  let exists = true;
+  try {
+    await vscode.workspace.fs.stat(map);
+  } catch {
+    exists = false;
+  }
+  if (!exists) {
+    try {
+      await writeAtomically(map, `${JSON.stringify({ version: 1, columns: {} }, null, 2)}\n`);
+    } catch (e) {
+      void vscode.window.showErrorMessage(`Residuum: cannot write ${map.fsPath}: ${e instanceof Error ? e.message : String(e)}`);
+      return;
+    }
+  }
+  await vscode.commands.executeCommand('vscode.open', map);
+}
+
 /** Add `column` to the mapping file `map` atomically and show it; a plain message when that is not possible. */
 export async function addColumnToMappingFile(map: vscode.Uri, column: string): Promise<void> {
   let text: string | undefined;
@@ -60,16 +95,9 @@ export async function addColumnToMappingFile(map: vscode.Uri, column: string): P
     return;
   }
   if (edit.added) {
-    const tmp = map.with({ path: `${map.path}.${process.pid}.tmp` });
     try {
-      await vscode.workspace.fs.writeFile(tmp, new TextEncoder().encode(edit.text));
-      await vscode.workspace.fs.rename(tmp, map, { overwrite: true });
+      await writeAtomically(map, edit.text);
     } catch (e) {
-      try {
-        await vscode.workspace.fs.delete(tmp);
-      } catch {
-        // nothing left behind to remove
-      }
       void vscode.window.showErrorMessage(`Residuum: cannot write ${map.fsPath}: ${e instanceof Error ? e.message : String(e)}`);
       return;
     }

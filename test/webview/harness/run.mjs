@@ -1,0 +1,79 @@
+// Drives the webview harness in headless Chromium: bundles fakeHost.ts, serves a page with the real CSP shape and
+// dist/webview.js, checks the DOM hooks and that no CSP violation or page error occurs, and saves screenshots.
+// Usage: node test/webview/harness/run.mjs [--n 200000] [--theme dark|light|hc]   (after node scripts/build.mjs)
+import * as esbuild from 'esbuild';
+import { createServer } from 'node:http';
+import { readFileSync, mkdirSync } from 'node:fs';
+import { chromium } from 'playwright-core';
+
+const arg = (name, d) => { const i = process.argv.indexOf(`--${name}`); return i > 0 ? process.argv[i + 1] : d; };
+const n = arg('n', '200000');
+const themeKind = arg('theme', 'dark');
+const out = 'test-output/webview-harness';
+mkdirSync(out, { recursive: true });
+const fake = await esbuild.build({ entryPoints: ['test/webview/harness/fakeHost.ts'], bundle: true, write: false, format: 'iife', platform: 'browser' });
+const themes = {
+  dark: { cls: 'vscode-dark', bg: '#1e1e1e', fg: '#cccccc' },
+  light: { cls: 'vscode-light', bg: '#ffffff', fg: '#333333' },
+  hc: { cls: 'vscode-high-contrast', bg: '#000000', fg: '#ffffff' },
+};
+const th = themes[themeKind];
+const nonce = 'harness0nonce';
+const page = `<!DOCTYPE html><html><head>
+<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src 'self' data:; style-src 'self' 'unsafe-inline'; font-src 'self'; script-src 'nonce-${nonce}';">
+<meta charset="UTF-8"><link rel="stylesheet" href="/uPlot.min.css"><link rel="stylesheet" href="/webview.css">
+<style nonce="${nonce}">body{--vscode-editor-background:${th.bg};--vscode-editor-foreground:${th.fg};--vscode-charts-blue:#3794ff;--vscode-charts-red:#f14c4c;--vscode-charts-green:#89d185;--vscode-charts-orange:#d18616;--vscode-charts-purple:#b180d7;--vscode-charts-yellow:#cca700;--vscode-font-family:sans-serif;--vscode-font-size:13px}</style>
+</head><body class="${th.cls}"><main id="app" data-state="loading"></main>
+<script nonce="${nonce}" src="/fake.js"></script><script nonce="${nonce}" src="/webview.js"></script></body></html>`;
+const files = { '/': ['text/html', page], '/fake.js': ['text/javascript', fake.outputFiles[0].text] };
+for (const f of ['webview.js', 'webview.css', 'uPlot.min.css']) files[`/${f}`] = [f.endsWith('.js') ? 'text/javascript' : 'text/css', readFileSync(`dist/${f}`)];
+const server = createServer((req, res) => {
+  const f = files[req.url.split('?')[0]];
+  if (!f) { res.writeHead(req.url === '/favicon.ico' ? 204 : 404); res.end(); return; }
+  res.writeHead(200, { 'content-type': f[0] });
+  res.end(f[1]);
+}).listen(0, '127.0.0.1');
+await new Promise((r) => server.once('listening', r));
+const url = `http://127.0.0.1:${server.address().port}/?n=${n}`;
+const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', headless: true, args: ['--no-sandbox', '--disable-gpu', '--disable-dev-shm-usage'] });
+const problems = [];
+try {
+  const p = await browser.newPage({ viewportSize: { width: 1100, height: 900 } });
+  p.on('console', (m) => { if (m.type() === 'error' || /Content Security Policy/.test(m.text())) problems.push(`console: ${m.text()}`); });
+  p.on('pageerror', (e) => problems.push(`pageerror: ${e.stack}`));
+  p.on('dialog', (d) => { problems.push(`dialog opened: ${d.message()}`); void d.dismiss(); });
+  await p.goto(url);
+  await p.waitForFunction(() => document.body.dataset.chartsRendered !== undefined, null, { timeout: 30000 });
+  const facts = await p.evaluate(() => ({
+    state: document.getElementById('app')?.dataset.state,
+    chartsRendered: document.body.dataset.chartsRendered,
+    charts: [...document.querySelectorAll('section.chart')].map((s) => `${s.getAttribute('data-series')}=${s.getAttribute('data-points')}`),
+    worst: [...document.querySelectorAll('[data-testid="worst-list"] button')].map((b) => `${b.getAttribute('data-line')}@${b.getAttribute('data-t')}`),
+    findings: document.querySelectorAll('[data-testid="findings-list"] li').length,
+    overview: !!document.querySelector('[data-testid="overview"]'),
+    injected: document.querySelectorAll('img').length,
+  }));
+  console.log(JSON.stringify(facts, null, 1));
+  await p.screenshot({ path: `${out}/overview-${themeKind}.png`, fullPage: true });
+  await p.click('[data-testid="worst-list"] button');
+  const sent = await p.evaluate(() => globalThis.harness.sent.filter((m) => m.type === 'reveal/line'));
+  console.log('reveal messages', JSON.stringify(sent));
+  for (const [i, name] of [[1, 'innovations'], [2, 'errors'], [3, 'trajectory'], [4, 'bias'], [5, 'allan'], [6, 'uwb']]) {
+    await p.click(`#tab-${i}`);
+    await p.waitForTimeout(300);
+    await p.screenshot({ path: `${out}/${name}-${themeKind}.png`, fullPage: true });
+  }
+  // zoom with the keyboard on the first time chart and check the envelope was re-queried
+  await p.click('#tab-1');
+  const before = await p.evaluate(() => globalThis.harness.sent.filter((m) => m.type === 'series/request').length);
+  await p.focus('section.chart[data-series="nis/tdoa"]');
+  await p.keyboard.press('+');
+  await p.waitForTimeout(400);
+  const after = await p.evaluate(() => ({ n: globalThis.harness.sent.filter((m) => m.type === 'series/request').length, last: globalThis.harness.sent.filter((m) => m.type === 'series/request').at(-1) }));
+  console.log('requests before/after zoom', before, after.n, JSON.stringify(after.last));
+} finally {
+  await browser.close();
+  server.close();
+}
+console.log(problems.length ? `PROBLEMS:\n${problems.join('\n')}` : 'no console errors, CSP violations or dialogs');
+process.exitCode = problems.length ? 1 : 0;

@@ -1,0 +1,578 @@
+/**
+ * The analysis panel's webview: restores its state, says `ready`, builds the views from `init`, asks the host for
+ * min/max envelopes of each chart's visible window, links cursors and zoom across the time charts, and sends
+ * jumps to log lines. Data shaping lives in shape.ts (pure, tested), charts in chart.ts (the only uplot importer),
+ * components in ui.ts (the only toolkit importer). Text from the log is set with textContent only.
+ *
+ * DOM hooks kept for the e2e tests: `<main id="app" data-state="loading|ready|error">`; each chart is
+ * `<section class="chart" data-series="KEY" data-points="N">`; `<ol data-testid="worst-list">` of
+ * `<button data-line data-t>`; `data-testid="findings-list"`; `data-testid="overview"`;
+ * `document.body.dataset.chartsRendered` once every chart got its first data.
+ */
+import type { Finding } from '../extension/core/report';
+import {
+  parseHostMessage,
+  type HistogramInfo,
+  type HostToWebviewMessage,
+  type InitMessage,
+  type SeriesInfo,
+  type SeriesResponseMessage,
+  type StatusMessage,
+  type ViewState,
+} from '../extension/protocol';
+import { HistogramChart, TimeChart, XyChart, readTheme, type Theme, type XyLayer } from './chart';
+import { el, table } from './dom';
+import {
+  anchorRows,
+  centreOn,
+  channelRows,
+  chartKind,
+  fileIndexOf,
+  findingLabel,
+  flattenBlock,
+  groupViews,
+  markersFor,
+  nextWindow,
+  runSummary,
+  tableRows,
+  worstLabel,
+  worstOnPath,
+  type WindowAction,
+} from './shape';
+import { button, divider, progressRing, registerUi, tabs } from './ui';
+import { panelApi } from './vscodeApi';
+
+/** Delay before linked charts re-query their envelopes after a zoom or pan, milliseconds. */
+const REQUERY_DEBOUNCE_MS = 60;
+
+interface TimeEntry {
+  kind: 'time';
+  info: SeriesInfo;
+  section: HTMLElement;
+  chart: TimeChart;
+  tableHost: HTMLElement;
+  requestId: number;
+  columns?: Columns;
+  rendered: boolean;
+}
+
+interface XyEntry {
+  kind: 'xy';
+  infos: SeriesInfo[];
+  section: HTMLElement;
+  chart: XyChart;
+  tableHost: HTMLElement;
+  requestIds: Map<string, number>;
+  columns: Map<string, Columns>;
+  rendered: boolean;
+}
+
+interface HistogramEntry {
+  kind: 'histogram';
+  section: HTMLElement;
+  chart: HistogramChart;
+  rendered: boolean;
+}
+
+type Entry = TimeEntry | XyEntry | HistogramEntry;
+
+interface Columns {
+  x: Float64Array;
+  y: Float64Array;
+  lo?: Float64Array;
+  hi?: Float64Array;
+  line?: Float64Array;
+}
+
+const app = document.getElementById('app') as HTMLElement;
+let theme: Theme = readTheme();
+let uri = '';
+let view: ViewState = {};
+let init: InitMessage | undefined;
+let entries: Entry[] = [];
+let nextRequestId = 1;
+const pendingByRequest = new Map<number, Entry>();
+let requeryTimer: ReturnType<typeof setTimeout> | undefined;
+let extent: [number, number] = [0, 1];
+let firstRenderReported = false;
+
+function log(level: 'info' | 'warning' | 'error', message: string): void {
+  panelApi.post({ type: 'log/write', level, message });
+}
+
+function persist(): void {
+  if (uri) panelApi.setState({ uri, view });
+}
+
+function toFloat64(b: ArrayBuffer | ArrayBufferView | undefined): Float64Array | undefined {
+  if (b === undefined) return undefined;
+  if (b instanceof ArrayBuffer) return new Float64Array(b);
+  return new Float64Array(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength));
+}
+
+function chartWidth(): number {
+  return Math.max(280, Math.floor((app.clientWidth || document.body.clientWidth || 800) - 40));
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Status (loading, error)
+
+function showStatus(msg: StatusMessage): void {
+  uri = msg.uri;
+  persist();
+  if (msg.state === 'error') {
+    destroyCharts();
+    init = undefined;
+    app.dataset.state = 'error';
+    app.setAttribute('aria-busy', 'false');
+    app.replaceChildren(
+      el('h1', {}, 'The log could not be analysed'),
+      el('p', { class: 'error', role: 'alert' }, msg.message ?? 'Unknown error.'),
+      button('Try again', () => panelApi.post({ type: 'ready', view }), 'primary'),
+    );
+    return;
+  }
+  if (init) {
+    const banner = app.querySelector('.reloading');
+    if (banner) banner.textContent = 'Re-reading the log…';
+    return;
+  }
+  app.dataset.state = 'loading';
+  app.setAttribute('aria-busy', 'true');
+  const percent = msg.progress !== undefined ? ` ${Math.round(msg.progress * 100)}%` : '';
+  app.replaceChildren(el('div', { class: 'loading' }, progressRing(), el('p', { role: 'status' }, `Reading the log…${percent}`)));
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Building the views
+
+function destroyCharts(): void {
+  for (const e of entries) e.chart.destroy();
+  entries = [];
+  pendingByRequest.clear();
+}
+
+function render(message: InitMessage): void {
+  destroyCharts();
+  init = message;
+  uri = message.uri;
+  view = { ...message.view, ...view };
+  const report = message.report;
+  const timeSeries = message.series.filter((s) => chartKind(s) === 'time' && Number.isFinite(s.x0) && s.x1 >= s.x0);
+  extent = timeSeries.length
+    ? [Math.min(...timeSeries.map((s) => s.x0)), Math.max(...timeSeries.map((s) => s.x1))]
+    : [report.time.start ?? 0, report.time.end ?? 1];
+  if (!(extent[1] > extent[0])) extent = [extent[0], extent[0] + 1];
+  if (view.window && !(view.window[0] < extent[1] && view.window[1] > extent[0])) view.window = undefined;
+
+  const groups = groupViews(message.series, report);
+  const active = groups.some((g) => g.id === view.view) ? (view.view as string) : 'overview';
+  const t = tabs(
+    groups.map((g) => ({ id: g.id, label: g.label, count: g.id === 'overview' ? report.findings.length : undefined })),
+    active,
+    (id) => {
+      view.view = id;
+      persist();
+    },
+  );
+  const header = el('header', {}, el('h1', {}, message.logName), el('p', { class: 'reloading', role: 'status' }));
+  if (message.notice) header.append(el('p', { class: 'notice', role: 'status' }, message.notice));
+  app.replaceChildren(header, t.root);
+
+  const width = chartWidth();
+  for (const g of groups) {
+    const host = t.views.get(g.id);
+    if (!host) continue;
+    if (g.id === 'overview') buildOverview(host, message);
+    else buildGroup(host, g.id, g.series, message, width);
+  }
+  app.dataset.state = 'ready';
+  app.setAttribute('aria-busy', 'false');
+  persist();
+  requestAll();
+  applySelection();
+  maybeReportRendered();
+}
+
+function buildOverview(host: HTMLElement, message: InitMessage): void {
+  const report = message.report;
+  host.dataset.testid = 'overview';
+  host.setAttribute('data-testid', 'overview');
+  const summary = el('dl', { class: 'summary' });
+  for (const [k, v] of runSummary(report)) summary.append(el('dt', {}, k), el('dd', {}, v));
+  host.append(el('h2', {}, 'Run'), summary);
+
+  const rows = channelRows(report);
+  const channels = table(
+    'Channels: share of NIS inside the 95% chi-square bounds (about 95% when the filter is consistent)',
+    ['Channel', 'dof', 'Updates', 'Rejected', 'Outliers', 'Mean NIS', 'Inside 95%', 'Ljung-Box p'],
+    rows.map((r) => [r.name, r.dof, r.updates, r.rejected, r.outliers, r.nisMean, r.inside95, r.whitenessP]),
+  );
+  channels.classList.add('channels');
+  rows.forEach((r, i) => channels.tBodies[0]?.rows[i]?.classList.add(`verdict-${r.verdict}`));
+  host.append(el('h2', {}, 'Consistency at a glance'), rows.length ? channels : el('p', {}, 'No measurement channels in this log.'));
+
+  host.append(el('h2', { id: 'worst-heading' }, `Worst epochs (${report.worst.length})`));
+  const worst = el('ol', { 'data-testid': 'worst-list', class: 'pick-list', 'aria-labelledby': 'worst-heading' });
+  report.worst.forEach((w, i) => {
+    const b = el('button', { type: 'button', 'data-line': String(w.line), 'data-t': String(w.t), 'data-index': String(i) }, worstLabel(w));
+    b.addEventListener('click', () => {
+      select(w.t, i);
+      panelApi.post({ type: 'reveal/line', line: w.line, t: w.t, worstIndex: i });
+    });
+    worst.append(el('li', {}, b));
+  });
+  host.append(report.worst.length ? worst : el('p', {}, 'No updates outside the gate.'));
+
+  host.append(el('h2', { id: 'findings-heading' }, `Findings (${report.findings.length})`));
+  const findings = el('ol', { 'data-testid': 'findings-list', class: 'pick-list', 'aria-labelledby': 'findings-heading' });
+  report.findings.forEach((f) => findings.append(el('li', { class: `finding kind-${safeClass(f.kind)}` }, findingItem(f, message.files))));
+  host.append(report.findings.length ? findings : el('p', {}, 'No findings.'));
+  host.append(divider());
+  if (report.notes.length) {
+    host.append(el('h2', {}, 'Notes'));
+    const notes = el('ul');
+    for (const n of report.notes) notes.append(el('li', {}, typeof n === 'string' ? n : JSON.stringify(n)));
+    host.append(notes);
+  }
+}
+
+function safeClass(s: string): string {
+  return s.replace(/[^a-z0-9-]/gi, '_');
+}
+
+function findingItem(f: Finding, files: readonly string[]): Node {
+  const label = findingLabel(f);
+  if (f.line === undefined && f.t === undefined) return document.createTextNode(label);
+  const attrs: Record<string, string> = { type: 'button' };
+  if (f.line !== undefined) attrs['data-line'] = String(f.line);
+  if (f.t !== undefined) attrs['data-t'] = String(f.t);
+  const b = el('button', attrs, label);
+  b.addEventListener('click', () => {
+    if (f.t !== undefined) select(f.t, undefined);
+    if (f.line !== undefined && f.line >= 1) panelApi.post({ type: 'reveal/line', line: f.line, file: fileIndexOf(f, files), t: f.t });
+  });
+  return b;
+}
+
+function chartSection(key: string, label: string, unit: string): { section: HTMLElement; plot: HTMLElement; tableHost: HTMLElement; details: HTMLDetailsElement } {
+  const section = el('section', { class: 'chart', 'data-series': key, 'data-points': '0', tabindex: '0' });
+  const title = unit && unit !== '1' ? `${label} [${unit}]` : label;
+  section.setAttribute('aria-label', `${title}. Arrow keys pan, plus and minus zoom, Home resets, Enter opens the table.`);
+  const plot = el('div', { class: 'plot', 'aria-hidden': 'true' });
+  const tableHost = el('div', { class: 'table-host' });
+  const details = el('details', {}, el('summary', {}, `Table of ${title}`), tableHost);
+  section.append(el('h3', {}, title), plot, details);
+  return { section, plot, tableHost, details };
+}
+
+function buildGroup(host: HTMLElement, id: string, series: readonly SeriesInfo[], message: InitMessage, width: number): void {
+  const report = message.report;
+  const xy = series.filter((s) => chartKind(s) === 'xy');
+  const anchors = message.series.find((s) => s.key === 'uwb/anchors');
+  if (id === 'trajectory' && xy.length) {
+    const layers = anchors && !xy.includes(anchors) ? [...xy, anchors] : xy;
+    addXyChart(host, layers, 'Trajectory from above', width);
+  } else {
+    for (const s of xy) addXyChart(host, [s], s.label, width);
+  }
+  for (const s of series) {
+    const kind = chartKind(s);
+    if (kind === 'xy') continue;
+    addTimeChart(host, s, kind, report, width);
+    if (s.key.startsWith('nis/')) {
+      const h = message.histograms.find((x) => x.key === s.key);
+      if (h) addHistogram(host, h, width);
+    }
+  }
+  const block = id === 'errors' ? report.errors : id === 'bias' ? report.bias : id === 'uwb' ? report.uwb : id === 'allan' ? allanFigures(report.bias) : undefined;
+  if (id === 'uwb') {
+    const rows = anchorRows(report);
+    if (rows.length) {
+      const t = table('UWB anchors (suspect anchors first in the findings)', ['Anchor', 'Updates', 'Mean NIS', 'Outliers', 'Suspect', 'Reason'], rows.map((r) => [r.id, r.updates, r.nisMean, r.outliers, r.suspect ? 'yes' : '', r.reason]));
+      rows.forEach((r, i) => r.suspect && t.tBodies[0]?.rows[i]?.classList.add('suspect'));
+      host.append(el('h2', {}, 'Anchors'), t);
+    }
+  }
+  if (block !== undefined) {
+    const rows = flattenBlock(id === 'uwb' && typeof block === 'object' && block !== null ? { ...(block as Record<string, unknown>), anchors: undefined } : block);
+    if (rows.length) host.append(el('h2', {}, id === 'allan' ? 'Noise figures read off the Allan deviation' : 'Figures'), table('Report figures', ['Figure', 'Value'], rows));
+  }
+  if (!host.childElementCount) host.append(el('p', {}, 'Nothing to show for this log.'));
+}
+
+/** The Allan read-off figures inside the bias block (any key containing "allan"), for the Allan view. */
+function allanFigures(bias: unknown): unknown {
+  if (typeof bias !== 'object' || bias === null) return undefined;
+  const out: Record<string, unknown> = {};
+  for (const [sensor, block] of Object.entries(bias as Record<string, unknown>)) {
+    if (/allan/i.test(sensor)) out[sensor] = block;
+    else if (typeof block === 'object' && block !== null) {
+      for (const [k, v] of Object.entries(block as Record<string, unknown>)) if (/allan|noise|randomWalk|instability/i.test(k)) out[`${sensor}.${k}`] = v;
+    }
+  }
+  return Object.keys(out).length ? out : undefined;
+}
+
+function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglog', report: InitMessage['report'], width: number): void {
+  const { section, plot, tableHost, details } = chartSection(info.key, info.label, info.unit);
+  host.append(section);
+  const ownExtent: [number, number] = kind === 'time' ? extent : [info.x0, info.x1];
+  const chart = new TimeChart(
+    plot,
+    {
+      label: info.label,
+      unit: info.unit,
+      kind,
+      band: info.band,
+      extent: ownExtent,
+      markers: markersFor(info.key, report),
+      syncKey: 'residuum-time',
+      onWindow: (t0, t1) => onUserWindow(t0, t1),
+      onPick: (t) => {
+        select(t, undefined);
+        panelApi.post({ type: 'cursor/didChange', t });
+      },
+    },
+    width,
+    () => theme,
+  );
+  if (kind === 'time' && view.window) chart.setWindow(view.window[0], view.window[1]);
+  const entry: TimeEntry = { kind: 'time', info, section, chart, tableHost, requestId: 0, rendered: false };
+  entries.push(entry);
+  details.addEventListener('toggle', () => details.open && fillTable(entry));
+  if (kind === 'time') section.addEventListener('keydown', (e) => onChartKey(e, chart, details));
+}
+
+function addXyChart(host: HTMLElement, infos: SeriesInfo[], label: string, width: number): void {
+  const { section, plot, tableHost, details } = chartSection(infos[0].key, label, infos[0].unit || 'm');
+  section.dataset.layers = infos.map((i) => i.key).join(' ');
+  host.append(section);
+  const entry: XyEntry = { kind: 'xy', infos, section, chart: new XyChart(plot, infos[0].unit || 'm', width, () => theme), tableHost, requestIds: new Map(), columns: new Map(), rendered: false };
+  entries.push(entry);
+  details.addEventListener('toggle', () => details.open && fillTable(entry));
+}
+
+function addHistogram(host: HTMLElement, h: HistogramInfo, width: number): void {
+  const key = `histogram/${h.key}`;
+  const { section, plot, tableHost } = chartSection(key, `Histogram of ${h.key} against chi-square (${h.dof} dof)`, '');
+  host.append(section);
+  const chart = new HistogramChart(plot, 'NIS', width, () => theme);
+  const points = chart.setBins(h.edges, h.counts, h.expected);
+  section.dataset.points = String(points);
+  const rows = h.counts.map((c, i) => [`${h.edges[i].toPrecision(3)} – ${h.edges[i + 1].toPrecision(3)}`, String(c), h.expected[i].toFixed(1)]);
+  rows.push([`≥ ${h.edges[h.edges.length - 1].toPrecision(3)}`, String(h.overflow), (h.total * 0.005).toFixed(1)]);
+  tableHost.append(table(`NIS histogram, ${h.total} values`, ['NIS bin', 'Count', 'Expected'], rows));
+  entries.push({ kind: 'histogram', section, chart, rendered: true });
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Envelope requests and responses
+
+function request(entry: TimeEntry | XyEntry, key: string, window?: [number, number]): void {
+  const id = nextRequestId++;
+  pendingByRequest.set(id, entry);
+  if (entry.kind === 'time') entry.requestId = id;
+  else entry.requestIds.set(key, id);
+  const widthPx = entry.kind === 'time' ? entry.chart.plotWidthPx() : 1;
+  const msg = { type: 'series/request' as const, id, key, widthPx: Math.min(16384, Math.max(1, widthPx)) };
+  panelApi.post(window ? { ...msg, t0: window[0], t1: window[1] } : msg);
+}
+
+function requestAll(): void {
+  for (const e of entries) {
+    if (e.kind === 'time') request(e, e.info.key, chartKindOf(e) === 'time' ? e.chart.visibleWindow() : undefined);
+    else if (e.kind === 'xy') for (const i of e.infos) request(e, i.key);
+  }
+}
+
+function chartKindOf(e: TimeEntry): 'time' | 'loglog' {
+  return e.info.logLog ? 'loglog' : 'time';
+}
+
+function requeryTimeCharts(): void {
+  if (requeryTimer) clearTimeout(requeryTimer);
+  requeryTimer = setTimeout(() => {
+    requeryTimer = undefined;
+    for (const e of entries) if (e.kind === 'time' && chartKindOf(e) === 'time') request(e, e.info.key, e.chart.visibleWindow());
+  }, REQUERY_DEBOUNCE_MS);
+}
+
+function onResponse(msg: SeriesResponseMessage): void {
+  const entry = pendingByRequest.get(msg.id);
+  pendingByRequest.delete(msg.id);
+  if (!entry || entry.kind === 'histogram') return;
+  if (msg.error) log('warning', `series ${msg.key}: ${msg.error}`);
+  const columns: Columns = {
+    x: toFloat64(msg.x) ?? new Float64Array(0),
+    y: toFloat64(msg.y) ?? new Float64Array(0),
+    lo: toFloat64(msg.lo),
+    hi: toFloat64(msg.hi),
+    line: toFloat64(msg.line),
+  };
+  if (entry.kind === 'time') {
+    if (msg.id !== entry.requestId) return; // a newer window was asked for
+    entry.columns = columns;
+    const points = entry.chart.setData(columns.x, columns.y, columns.lo, columns.hi);
+    entry.section.dataset.points = String(points);
+    entry.rendered = true;
+  } else {
+    if (entry.requestIds.get(msg.key) !== msg.id) return;
+    entry.columns.set(msg.key, columns);
+    if (entry.columns.size === entry.infos.length) drawXy(entry);
+  }
+  const details = entry.section.querySelector('details');
+  if (details?.open) fillTable(entry);
+  maybeReportRendered();
+}
+
+function drawXy(entry: XyEntry): void {
+  const layers: XyLayer[] = [];
+  let path: Columns | undefined;
+  for (const info of entry.infos) {
+    const c = entry.columns.get(info.key);
+    if (!c) continue;
+    const isAnchors = info.key === 'uwb/anchors';
+    const isReference = /reference|truth|gt/i.test(info.key);
+    if (!isAnchors && !isReference && !path) path = c;
+    layers.push({
+      label: info.label,
+      x: c.x,
+      y: c.y,
+      style: isAnchors ? 'points' : 'path',
+      color: (t) => (isAnchors ? t.points : isReference ? t.reference : t.line),
+    });
+  }
+  if (path && init) {
+    const marks = worstOnPath(init.report.worst, path.x, path.y, path.line);
+    if (marks.x.length) layers.push({ label: 'worst epochs', x: marks.x, y: marks.y, style: 'marks', color: (t) => t.marker });
+  }
+  const points = entry.chart.setLayers(layers);
+  entry.section.dataset.points = String(points);
+  entry.rendered = true;
+}
+
+function fillTable(entry: TimeEntry | XyEntry): void {
+  const blocks: HTMLElement[] = [];
+  const sources = entry.kind === 'time' ? [[entry.info, entry.columns] as const] : entry.infos.map((i) => [i, entry.columns.get(i.key)] as const);
+  for (const [info, c] of sources) {
+    if (!c) continue;
+    const { rows, total } = tableRows(c);
+    const header = [info.xy ? 'x' : info.logLog ? 'tau [s]' : 't [s]', info.xy ? 'y' : info.label];
+    if (c.lo) header.push('lower');
+    if (c.hi) header.push('upper');
+    if (c.line) header.push('line');
+    const caption = rows.length < total ? `${info.label}: ${rows.length} of the ${total} points drawn` : `${info.label}: ${total} points`;
+    blocks.push(table(caption, header, rows));
+  }
+  entry.tableHost.replaceChildren(...blocks);
+}
+
+function maybeReportRendered(): void {
+  if (firstRenderReported) return;
+  if (!entries.every((e) => e.rendered)) return;
+  firstRenderReported = true;
+  document.body.dataset.chartsRendered = String(entries.length);
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Cursor, selection, zoom and pan
+
+function onUserWindow(t0: number, t1: number): void {
+  view.window = [t0, t1];
+  persist();
+  for (const e of entries) if (e.kind === 'time' && chartKindOf(e) === 'time') e.chart.setWindow(t0, t1);
+  requeryTimeCharts();
+}
+
+function onChartKey(e: KeyboardEvent, chart: TimeChart, details: HTMLDetailsElement): void {
+  const actions: Record<string, WindowAction> = { ArrowLeft: 'panLeft', ArrowRight: 'panRight', '+': 'zoomIn', '=': 'zoomIn', '-': 'zoomOut', Home: 'reset' };
+  if (e.key === 'Enter' && e.target === e.currentTarget) {
+    details.open = !details.open;
+    e.preventDefault();
+    return;
+  }
+  const action = actions[e.key];
+  if (!action || e.target !== e.currentTarget) return;
+  e.preventDefault();
+  chart.userWindow(nextWindow(chart.visibleWindow(), extent, action));
+}
+
+function select(t: number, worstIndex: number | undefined): void {
+  view.cursor_s = t;
+  view.worstIndex = worstIndex;
+  persist();
+  applySelection();
+}
+
+function applySelection(): void {
+  const t = view.cursor_s;
+  if (t !== undefined) {
+    const current: [number, number] = view.window ?? extent;
+    const w = centreOn(current, extent, t);
+    if (w !== current) onUserWindow(w[0], w[1]);
+  }
+  for (const e of entries) if (e.kind === 'time') e.chart.select(t);
+  for (const b of app.querySelectorAll<HTMLButtonElement>('[data-testid="worst-list"] button')) {
+    const on = view.worstIndex !== undefined && b.dataset.index === String(view.worstIndex);
+    if (on) {
+      b.setAttribute('aria-current', 'true');
+      b.scrollIntoView({ block: 'nearest' });
+    } else b.removeAttribute('aria-current');
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Wiring
+
+function onMessage(msg: HostToWebviewMessage): void {
+  switch (msg.type) {
+    case 'init':
+      render(msg);
+      break;
+    case 'series/response':
+      onResponse(msg);
+      break;
+    case 'cursor/set':
+      select(msg.t, msg.worstIndex);
+      break;
+    case 'status':
+      showStatus(msg);
+      break;
+  }
+}
+
+function start(): void {
+  registerUi();
+  const saved = panelApi.getState();
+  if (saved) {
+    uri = saved.uri;
+    view = { ...saved.view };
+  }
+  window.addEventListener('message', (e: MessageEvent<unknown>) => {
+    const msg = parseHostMessage(e.data);
+    if (!msg) return;
+    try {
+      onMessage(msg);
+    } catch (err) {
+      log('error', `handling ${msg.type}: ${err instanceof Error ? err.stack ?? err.message : String(err)}`);
+    }
+  });
+  let resizeTimer: ReturnType<typeof setTimeout> | undefined;
+  window.addEventListener('resize', () => {
+    if (resizeTimer) clearTimeout(resizeTimer);
+    resizeTimer = setTimeout(() => {
+      const w = chartWidth();
+      for (const e of entries) e.chart.resize(w);
+      requeryTimeCharts();
+    }, 150);
+  });
+  new MutationObserver(() => {
+    theme = readTheme();
+    for (const e of entries) e.chart.redraw();
+  }).observe(document.body, { attributes: true, attributeFilter: ['class'] });
+  window.addEventListener('error', (e) => log('error', `${e.message} (${e.filename}:${e.lineno})`));
+  panelApi.post(view.view || view.window || view.cursor_s !== undefined ? { type: 'ready', view } : { type: 'ready' });
+}
+
+start();
