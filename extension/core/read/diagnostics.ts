@@ -1,0 +1,65 @@
+/**
+ * Reader diagnostics with a cap per (file, kind, column): the first {@link DIAGNOSTIC_CAP} are kept and the rest
+ * counted, then summarised in one line, so a bad 1 GB file does not produce millions of objects.
+ */
+import type { Diagnostic, FindingKind, Severity } from '../model';
+
+/** Diagnostics kept per file, kind and column before the rest are only counted. */
+export const DIAGNOSTIC_CAP = 50;
+
+interface Overflow {
+  first: Diagnostic;
+  dropped: number;
+}
+
+/** Collects diagnostics for one run, capping repeats. */
+export class DiagnosticSink {
+  readonly list: Diagnostic[] = [];
+  private readonly counts = new Map<string, number>();
+  private readonly overflow = new Map<string, Overflow>();
+
+  /** Add a diagnostic; `key` groups repeats (default: file, kind and column or channel). */
+  add(d: Diagnostic, key?: string): void {
+    const k = key ?? `${d.file}\u0000${d.kind}\u0000${d.channel ?? ''}\u0000${d.column ?? ''}`;
+    const n = (this.counts.get(k) ?? 0) + 1;
+    this.counts.set(k, n);
+    // Keys starting with "once:" are kept the first time only, without a summary.
+    if (n > 1 && k.startsWith('once:')) return;
+    if (n <= DIAGNOSTIC_CAP) { this.list.push(d); return; }
+    const o = this.overflow.get(k);
+    if (o) o.dropped++;
+    else this.overflow.set(k, { first: d, dropped: 1 });
+  }
+
+  /** Shorthand for {@link add}. */
+  report(severity: Severity, kind: FindingKind, file: string, line: number, message: string,
+    extra?: { column?: number; t?: number; channel?: string; key?: string }): void {
+    const d: Diagnostic = { severity, kind, file, line, message };
+    if (extra?.column !== undefined) d.column = extra.column;
+    if (extra?.t !== undefined && Number.isFinite(extra.t)) d.t = extra.t;
+    if (extra?.channel !== undefined) d.channel = extra.channel;
+    this.add(d, extra?.key);
+  }
+
+  /** Whether an error-severity diagnostic has been added. */
+  hasErrors(): boolean {
+    return this.list.some((d) => d.severity === 'error');
+  }
+
+  /** Every diagnostic so far plus one summary line per capped group (nothing is changed). */
+  snapshot(): Diagnostic[] {
+    const out = this.list.slice();
+    for (const o of this.overflow.values()) {
+      const d: Diagnostic = {
+        severity: o.first.severity,
+        kind: o.first.kind,
+        file: o.first.file,
+        line: 0,
+        message: `${o.dropped} more like this not listed (first of them at line ${o.first.line}): ${o.first.message}`,
+      };
+      if (o.first.channel !== undefined) d.channel = o.first.channel;
+      out.push(d);
+    }
+    return out;
+  }
+}

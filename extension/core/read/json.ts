@@ -1,0 +1,512 @@
+/**
+ * JSON Lines and JSON logs (log-conventions.md, "JSON records").
+ *
+ * Each record is flattened to the wide names of the conventions (`p: [x, y, z]` -> `p_x p_y p_z`, an update of
+ * channel `tdoa` with `nu: [a]` -> `nu_tdoa_0`...) and dispatched through the same row plans as CSV rows, compiled
+ * once per distinct key set. A JSON file (an array of records, or `{ "meta": {...}, "records": [...] }`) is scanned
+ * byte by byte and only one record at a time is decoded, so a large file is never one string.
+ */
+import type { RunBuilder } from './builder';
+import { ByteBuffer, LineSplitter } from './bytes';
+import { normalizeId } from './csv';
+import { isJsonObject, lineColumnOf, parseJson, type JsonValue } from './jsonValue';
+import type { FileSpec, Mapping } from './mapping';
+import { CELL_NUM, CELL_STR, CELL_TIME, compilePlan, type FileRole, type RowPlan } from './plan';
+import { NUM_INVALID, NUM_NONFINITE, NUM_OK, numStatus, parseNumberText } from './numbers';
+import { decodeUtf8 } from './utf8';
+import { parseWallClock } from './wallclock';
+import { choleskyFactor, asymmetry } from '../linalg/cholesky';
+
+/** Options of one JSON / JSON Lines file of a run. */
+export interface JsonFileOptions {
+  spec?: FileSpec;
+  mapping?: Mapping;
+  role: FileRole;
+  mapName?: string;
+}
+
+const AXES = ['x', 'y', 'z'];
+const VECTORS = ['p', 'v', 'bg', 'ba', 'att'];
+
+type Flat = Map<string, JsonValue>;
+
+/** Dispatches decoded JSON records of one file into the run. */
+export class JsonRecordSink {
+  private readonly plans = new Map<string, RowPlan>();
+  private readonly quatOrder: 'wxyz' | 'xyzw';
+  private warnedKinds = new Set<string>();
+
+  constructor(private readonly run: RunBuilder, readonly file: string, private readonly opts: JsonFileOptions) {
+    this.quatOrder = opts.mapping?.conventions?.quaternionOrder ?? 'wxyz';
+    run.fileIndex(file);
+  }
+
+  private diag(kind: 'parse-error' | 'bad-value' | 'unknown-column' | 'bad-covariance', line: number, column: number,
+    message: string, key?: string): void {
+    const severity = kind === 'parse-error' ? 'error' : kind === 'unknown-column' ? 'info' : 'warning';
+    this.run.diagnostics.report(severity, kind, this.file, line, message, { column, key: key ?? `${this.file}:${kind}` });
+  }
+
+  /** Metadata object (`meta`). */
+  meta(value: JsonValue, line: number): void {
+    if (!isJsonObject(value)) {
+      this.diag('parse-error', line, 1, '"meta" should be an object of key: value pairs.');
+      return;
+    }
+    for (const [k, v] of Object.entries(value)) {
+      const key = k.toLowerCase();
+      if (key === 'anchors' && Array.isArray(v)) {
+        for (const a of v) {
+          if (isJsonObject(a) && (typeof a.id === 'string' || typeof a.id === 'number') && Array.isArray(a.p)
+            && a.p.length === 3 && a.p.every((x) => typeof x === 'number' && Number.isFinite(x))) {
+            this.run.addAnchor(normalizeId(String(a.id)), [a.p[0] as number, a.p[1] as number, a.p[2] as number], this.file, line);
+          } else this.diag('parse-error', line, 1, 'An anchor in "meta.anchors" should be {"id": ..., "p": [x, y, z]}.');
+        }
+        continue;
+      }
+      if (key === 'reset' || key === 'resets') {
+        for (const t of Array.isArray(v) ? v : [v]) if (typeof t === 'number' && Number.isFinite(t)) this.run.resets.push(t);
+        continue;
+      }
+      this.run.meta[key] = typeof v === 'string' ? v : JSON.stringify(v);
+    }
+  }
+
+  /** One record that starts at `line`, `column`. */
+  record(value: JsonValue, line: number, column: number): void {
+    if (!isJsonObject(value)) {
+      this.diag('parse-error', line, column, 'A record should be a JSON object {...}; this one is not, and is skipped.');
+      return;
+    }
+    const flat: Flat = new Map();
+    const kindRaw = value.kind;
+    const kind = typeof kindRaw === 'string' ? kindRaw.toLowerCase() : inferKind(value);
+    let P: JsonValue | undefined;
+    const add = (name: string, v: JsonValue): void => { flat.set(name, v); };
+    const vector = (prefix: string, name: string, v: JsonValue, axes: string[] = AXES): void => {
+      if (Array.isArray(v)) {
+        if (v.length !== axes.length) {
+          this.diag('parse-error', line, column, `"${name}" should have ${axes.length} numbers, it has ${v.length}.`, `${this.file}:len:${name}`);
+        }
+        v.forEach((x, k) => { if (k < axes.length) add(`${prefix}${name}_${axes[k]}`, x); });
+      } else if (isJsonObject(v)) {
+        for (const [ax, x] of Object.entries(v)) add(`${prefix}${name}_${ax}`, x);
+      } else add(`${prefix}${name}`, v);
+    };
+    const quat = (prefix: string, v: JsonValue): void => {
+      if (Array.isArray(v) && v.length === 4) {
+        const order = this.quatOrder === 'xyzw' ? ['x', 'y', 'z', 'w'] : ['w', 'x', 'y', 'z'];
+        v.forEach((x, k) => add(`${prefix}q_${order[k]}`, x));
+      } else if (isJsonObject(v)) {
+        for (const [ax, x] of Object.entries(v)) add(`${prefix}q_${ax}`, x);
+      } else this.diag('parse-error', line, column, `"${prefix}q" should be 4 numbers.`, `${this.file}:len:q`);
+    };
+    const matrix = (prefix: string, v: JsonValue): void => {
+      const flatM = Array.isArray(v) && v.every(Array.isArray) ? (v as JsonValue[][]).flat() : v;
+      if (Array.isArray(flatM) && flatM.length === 9) flatM.forEach((x, k) => add(`${prefix}r_${Math.floor(k / 3) + 1}${(k % 3) + 1}`, x));
+      else this.diag('parse-error', line, column, `"${prefix}R" should be a 3x3 matrix.`, `${this.file}:len:R`);
+    };
+    const stateFields = (prefix: string, obj: { [key: string]: JsonValue }): void => {
+      for (const [k, v] of Object.entries(obj)) {
+        if (prefix === '' && (k === 'kind')) continue;
+        if (VECTORS.includes(k)) vector(prefix, k, v);
+        else if (k === 'q') quat(prefix, v);
+        else if (k === 'R') matrix(prefix, v);
+        else if (prefix === '' && k === 'sigma' && isJsonObject(v)) {
+          for (const [sk, sv] of Object.entries(v)) vector('sigma_', sk, sv);
+        } else if (prefix === '' && (k === 'gt' || k === 'true') && isJsonObject(v)) stateFields('gt_', v);
+        else if (prefix === '' && k === 'P') P = v;
+        else add(prefix + k, v);
+      }
+    };
+
+    switch (kind) {
+      case 'state':
+        stateFields('', value);
+        break;
+      case 'update': {
+        const ch = value.channel;
+        if (typeof ch !== 'string' || ch === '') {
+          this.diag('parse-error', line, column, 'An update record needs "channel": "<name>"; skipped.');
+          return;
+        }
+        for (const [k, v] of Object.entries(value)) {
+          if (k === 'kind' || k === 'channel') continue;
+          if (k === 'nu' || k === 'innov') {
+            if (Array.isArray(v)) v.forEach((x, i) => add(`nu_${ch}_${i}`, x)); else add(`nu_${ch}_0`, v);
+          } else if (k === 'S') {
+            if (Array.isArray(v)) {
+              v.forEach((row, i) => {
+                if (Array.isArray(row)) row.forEach((x, j) => add(`s_${ch}_${i}_${j}`, x));
+                else add(`s_${ch}_${i}_${i}`, row);
+              });
+            } else add(`s_${ch}_0_0`, v);
+          } else if (k === 'nis') add(`nis_${ch}`, v);
+          else if (k === 'id') add(`id_${ch}`, v === null ? null : String(v));
+          else if (k === 'rejected') add(`rejected_${ch}`, v === true ? 1 : v === false ? 0 : v);
+          else add(k, v);
+        }
+        break;
+      }
+      case 'imu':
+        for (const [k, v] of Object.entries(value)) {
+          if (k === 'kind') continue;
+          if (k === 'gyro' || k === 'acc' || k === 'mag') vector('', k, v); else add(k, v);
+        }
+        break;
+      case 'tdoa':
+        for (const [k, v] of Object.entries(value)) {
+          if (k === 'kind') continue;
+          if (k === 'i') add('tdoa_i', v === null ? null : String(v));
+          else if (k === 'j') add('tdoa_j', v === null ? null : String(v));
+          else if (k === 'd') add('tdoa', v);
+          else add(k, v);
+        }
+        break;
+      case 'range':
+        for (const [k, v] of Object.entries(value)) {
+          if (k === 'kind') continue;
+          if (k === 'anchor') add('range_id', v === null ? null : String(v));
+          else if (k === 'r') add('range', v);
+          else add(k, v);
+        }
+        break;
+      case 'reset': {
+        const t = value.t ?? value.time;
+        if (typeof t === 'number' && Number.isFinite(t)) this.run.resets.push(t);
+        else this.diag('parse-error', line, column, 'A reset record needs a numeric "t".');
+        this.run.rows++;
+        return;
+      }
+      default:
+        if (!this.warnedKinds.has(kind)) {
+          this.warnedKinds.add(kind);
+          this.diag('unknown-column', line, column, `Records of kind "${kind}" are not part of the log conventions; they are skipped.`, `once:${this.file}:kind:${kind}`);
+        }
+        return;
+    }
+    this.dispatch(flat, line, column, P);
+  }
+
+  private dispatch(flat: Flat, line: number, column: number, P: JsonValue | undefined): void {
+    const names = [...flat.keys()];
+    const sig = names.join('\u0001');
+    let plan = this.plans.get(sig);
+    if (!plan) {
+      plan = compilePlan({ names, headerLine: line, spec: this.opts.spec, mapping: this.opts.mapping, role: this.opts.role,
+        file: this.file, run: this.run, reportUnknown: true, mapName: this.opts.mapName });
+      this.plans.set(sig, plan);
+    }
+    const vals = new Float64Array(names.length);
+    const strs: (string | undefined)[] = new Array<string | undefined>(names.length);
+    names.forEach((name, c) => {
+      const v = flat.get(name) as JsonValue;
+      const kind = plan.cellKind[c];
+      if (kind === CELL_STR) {
+        strs[c] = v === null ? undefined : normalizeId(typeof v === 'string' ? v : String(v));
+        return;
+      }
+      vals[c] = NaN;
+      if (kind !== CELL_NUM && kind !== CELL_TIME) return;
+      let x: number;
+      if (typeof v === 'number') x = v;
+      else if (v === null) return;
+      else if (typeof v === 'boolean') x = v ? 1 : 0;
+      else if (typeof v === 'string') {
+        x = parseNumberText(v);
+        if (numStatus === NUM_INVALID) {
+          if (kind === CELL_TIME) {
+            const w = parseWallClock(v, plan.timeZone);
+            if (!Number.isNaN(w)) { vals[c] = w + plan.offset[c]; return; }
+          }
+          this.diag('parse-error', line, column, `"${name}": "${v.slice(0, 40)}" is not a number; treated as missing.`, `${this.file}:num:${name}`);
+          return;
+        }
+        if (numStatus !== NUM_OK && numStatus !== NUM_NONFINITE) return;
+      } else {
+        this.diag('parse-error', line, column, `"${name}" should be a number, not ${Array.isArray(v) ? 'an array' : 'an object'}.`, `${this.file}:num:${name}`);
+        return;
+      }
+      if (Number.isNaN(x)) return;
+      if (!Number.isFinite(x)) {
+        this.diag('bad-value', line, column, `"${name}" holds the non-finite value ${x}; treated as missing.`, `${this.file}:inf:${name}`);
+        return;
+      }
+      vals[c] = x * plan.scale[c] + plan.offset[c];
+    });
+    const target = plan.target;
+    const before = target.length;
+    plan.row(vals, strs, line);
+    if (P !== undefined) {
+      if (target.length === before) {
+        this.diag('parse-error', line, column, 'A covariance "P" was given in a record with no time or state; skipped.');
+      } else this.covariance(P, target.length - 1, line, column, vals[plan.timeCol]);
+    }
+  }
+
+  private covariance(P: JsonValue, index: number, line: number, column: number, t: number): void {
+    const run = this.run;
+    if (!isJsonObject(P) || !Array.isArray(P.states) || !Array.isArray(P.matrix)) {
+      this.diag('parse-error', line, column, '"P" should be {"states": [names...], "matrix": [[...], ...]}.');
+      return;
+    }
+    const states = P.states.map(String);
+    const n = states.length;
+    if (!run.pStates) run.pStates = states;
+    else if (run.pStates.join(',') !== states.join(',')) {
+      this.diag('parse-error', line, column, `"P.states" differ from the first record's (${run.pStates.join(', ')}); this P is skipped.`, `${this.file}:pstates`);
+      return;
+    }
+    const rows = P.matrix;
+    const m = new Float64Array(n * n);
+    let ok = rows.length === n;
+    for (let r = 0; ok && r < n; r++) {
+      const row = rows[r];
+      if (!Array.isArray(row) || row.length !== n) { ok = false; break; }
+      for (let c = 0; c < n; c++) {
+        const x = row[c];
+        m[r * n + c] = typeof x === 'number' ? x : NaN;
+      }
+    }
+    if (!ok) {
+      this.diag('parse-error', line, column, `"P.matrix" should be ${n} rows of ${n} numbers.`, `${this.file}:pshape`);
+      return;
+    }
+    const slot = run.state.slot('__P', n * n);
+    slot.arr.set(m, index * n * n);
+    const asym = asymmetry(m, 0, n);
+    const l = new Float64Array(n * n);
+    if (!(asym <= 1e-6) || !choleskyFactor(m, 0, n, l, 0)) {
+      const why = !(asym <= 1e-6) ? (Number.isNaN(asym) ? 'holds a non-finite value' : `is not symmetric (relative difference ${asym.toPrecision(3)})`) : 'is not positive definite';
+      run.diagnostics.report('warning', 'bad-covariance', this.file, line, `The state covariance P ${why}.`,
+        { column, t, key: `${this.file}:P` });
+    }
+  }
+}
+
+function inferKind(v: { [key: string]: JsonValue }): string {
+  if ('channel' in v) return 'update';
+  if ('gyro' in v || 'acc' in v) return 'imu';
+  if ('anchor' in v && 'r' in v) return 'range';
+  if ('i' in v && 'j' in v && 'd' in v) return 'tdoa';
+  return 'state';
+}
+
+/** Reads a JSON Lines file: one record per line. */
+export class JsonlFileReader {
+  private readonly splitter: LineSplitter;
+  private readonly sink: JsonRecordSink;
+  private any = false;
+
+  constructor(run: RunBuilder, readonly file: string, opts: JsonFileOptions) {
+    this.sink = new JsonRecordSink(run, file, opts);
+    this.splitter = new LineSplitter((b, s, e, line) => this.onLine(b, s, e, line, run));
+  }
+
+  /** Bytes consumed so far. */
+  get bytesRead(): number {
+    return this.splitter.bytesRead;
+  }
+
+  private onLine(b: Uint8Array, s: number, e: number, line: number, run: RunBuilder): void {
+    const text = decodeUtf8(b, s, e);
+    if (text.trim() === '') return;
+    this.any = true;
+    const r = parseJson(text);
+    if (!r.ok) {
+      const lc = lineColumnOf(text, r.offset);
+      run.diagnostics.report('error', 'parse-error', this.file, line, `Not a JSON record: ${r.message}.`,
+        { column: lc.column, key: `${this.file}:json` });
+      return;
+    }
+    let col = 1;
+    while (col <= text.length && /\s/.test(text[col - 1])) col++;
+    this.sink.record(r.value, line, col);
+  }
+
+  /** Feed a chunk. */
+  push(chunk: Uint8Array): void {
+    this.splitter.push(chunk);
+  }
+
+  /** End of the file. */
+  finish(run: RunBuilder): void {
+    this.splitter.finish();
+    if (!this.any) run.diagnostics.report('warning', 'parse-error', this.file, 0, 'The file holds no records.');
+  }
+}
+
+const BOM = [0xef, 0xbb, 0xbf];
+const OPEN_OBJ = 0x7b, CLOSE_OBJ = 0x7d, OPEN_ARR = 0x5b, CLOSE_ARR = 0x5d, QUOTE = 0x22, BACKSLASH = 0x5c;
+
+/**
+ * Reads a JSON file holding an array of records or `{ "meta": {...}, "records": [...] }`, decoding one record at a
+ * time. A record's line is the line of its opening brace.
+ */
+export class JsonFileReader {
+  private readonly sink: JsonRecordSink;
+  private depth = 0;
+  private inStr = false;
+  private esc = false;
+  private line = 1;
+  private col = 0;
+  private lastCR = false;
+  private mode: 'start' | 'array' | 'object' | 'done' | 'failed' = 'start';
+  private recDepth = -1;
+  private capturing = false;
+  private readonly cap = new ByteBuffer();
+  private capLine = 0;
+  private capCol = 0;
+  private capDepth = 0;
+  private capKey: string | undefined;
+  private objState: 'key' | 'colon' | 'value' | 'after' = 'key';
+  private inKey = false;
+  private readonly keyBuf = new ByteBuffer();
+  private key = '';
+  private records = 0;
+  bytesRead = 0;
+  private bom = 0;  // bytes of a BOM dropped so far; -1 when the file has none
+
+  constructor(private readonly run: RunBuilder, readonly file: string, opts: JsonFileOptions) {
+    this.sink = new JsonRecordSink(run, file, opts);
+  }
+
+  private fail(message: string): void {
+    this.run.diagnostics.report('error', 'parse-error', this.file, this.line, message, { column: Math.max(1, this.col) });
+    this.mode = 'failed';
+    this.capturing = false;
+  }
+
+  /** Feed a chunk. */
+  push(chunk: Uint8Array): void {
+    let start = 0;
+    const before = this.bytesRead;
+    this.bytesRead += chunk.length;
+    if (this.mode === 'failed') return;
+    // Drop a UTF-8 byte order mark at the start of the file.
+    while (this.bom >= 0 && before + start < 3 && start < chunk.length) {
+      if (chunk[start] === BOM[before + start]) { start++; this.bom++; } else { this.bom = -1; }
+    }
+    for (let k = start; k < chunk.length; k++) {
+      const c = chunk[k];
+      if (this.capturing) this.cap.push(c);
+      // position
+      if (c === 10) { if (!this.lastCR) { this.line++; } this.col = 0; this.lastCR = false; }
+      else if (c === 13) { this.line++; this.col = 0; this.lastCR = true; }
+      else { this.lastCR = false; if ((c & 0xc0) !== 0x80) this.col++; }
+
+      if (this.inStr) {
+        if (this.esc) this.esc = false;
+        else if (c === BACKSLASH) this.esc = true;
+        else if (c === QUOTE) {
+          this.inStr = false;
+          if (this.inKey) { this.inKey = false; this.key = decodeUtf8(this.keyBuf.bytes, 0, this.keyBuf.length); this.objState = 'colon'; }
+          continue;
+        }
+        if (this.inKey) this.keyBuf.push(c);
+        continue;
+      }
+      if (c === 0x20 || c === 0x0a || c === 0x0d || c === 0x09) continue;
+      if (this.mode === 'done') { this.fail('Unexpected text after the end of the JSON document.'); return; }
+      if (this.mode === 'start') {
+        if (c === OPEN_ARR) { this.mode = 'array'; this.recDepth = 1; this.depth = 1; continue; }
+        if (c === OPEN_OBJ) { this.mode = 'object'; this.depth = 1; this.objState = 'key'; continue; }
+        this.fail('A JSON log should start with [ (an array of records) or { ("meta" and "records").');
+        return;
+      }
+      if (c === QUOTE) {
+        this.inStr = true;
+        if (this.mode === 'object' && this.depth === 1 && !this.capturing) {
+          if (this.objState === 'key') { this.inKey = true; this.keyBuf.clear(); }
+          else if (this.objState === 'value') this.objState = 'after';
+        } else if (this.depth === this.recDepth && !this.capturing) this.scalarRecord();
+        continue;
+      }
+      if (c === OPEN_OBJ || c === OPEN_ARR) {
+        if (!this.capturing) {
+          if (this.mode === 'object' && this.depth === 1) {
+            if (this.objState !== 'value') { this.fail(`Expected a key in the top-level object, found "${String.fromCharCode(c)}".`); return; }
+            if (this.key === 'records' && c === OPEN_ARR) { this.recDepth = 2; this.depth++; continue; }
+            this.startCapture(c, this.key);
+          } else if (this.depth === this.recDepth) this.startCapture(c, undefined);
+        }
+        this.depth++;
+        continue;
+      }
+      if (c === CLOSE_OBJ || c === CLOSE_ARR) {
+        this.depth--;
+        if (this.depth < 0) { this.fail('A closing bracket has no opening one.'); return; }
+        if (this.capturing && this.depth === this.capDepth) this.endCapture();
+        else if (this.mode === 'object' && this.depth === 1 && !this.capturing) this.objState = 'after';
+        if (this.depth === 0) this.mode = 'done';
+        continue;
+      }
+      if (this.capturing) continue;
+      if (this.mode === 'object' && this.depth === 1) {
+        if (c === 0x3a && this.objState === 'colon') this.objState = 'value';
+        else if (c === 0x2c && (this.objState === 'after' || this.objState === 'value')) this.objState = 'key';
+        else if (this.objState === 'value') { /* scalar value at the top level: ignored */ }
+        else if (this.objState === 'after' && c !== 0x2c) { /* rest of a scalar */ }
+        else { this.fail(`Unexpected "${String.fromCharCode(c)}" in the top-level object.`); return; }
+        continue;
+      }
+      if (this.depth === this.recDepth && c !== 0x2c) this.scalarRecord();
+    }
+    if (this.capturing) { /* capture continues in the next chunk */ }
+  }
+
+  private scalarWarned = false;
+  private scalarRecord(): void {
+    if (this.scalarWarned) return;
+    this.scalarWarned = true;
+    this.run.diagnostics.report('error', 'parse-error', this.file, this.line,
+      'The records array holds a value that is not an object; such values are skipped.', { column: Math.max(1, this.col) });
+  }
+
+  private startCapture(c: number, key: string | undefined): void {
+    this.capturing = true;
+    this.cap.clear();
+    this.cap.push(c);
+    this.capLine = this.line;
+    this.capCol = Math.max(1, this.col);
+    this.capDepth = this.depth;
+    this.capKey = key;
+  }
+
+  private endCapture(): void {
+    this.capturing = false;
+    const text = decodeUtf8(this.cap.bytes, 0, this.cap.length);
+    this.cap.clear();
+    const r = parseJson(text);
+    if (!r.ok) {
+      const lc = lineColumnOf(text, r.offset);
+      this.run.diagnostics.report('error', 'parse-error', this.file, this.capLine + lc.line - 1,
+        `Not a valid JSON record: ${r.message}.`, { column: lc.line === 1 ? this.capCol + lc.column - 1 : lc.column, key: `${this.file}:json` });
+      return;
+    }
+    if (this.capKey === undefined) {
+      this.records++;
+      this.sink.record(r.value, this.capLine, this.capCol);
+    } else if (this.capKey === 'meta') this.sink.meta(r.value, this.capLine);
+    else {
+      this.run.diagnostics.report('info', 'unknown-column', this.file, this.capLine,
+        `Top-level key "${this.capKey}" is not "meta" or "records"; it is ignored.`, { column: this.capCol, key: `once:${this.file}:top:${this.capKey}` });
+    }
+  }
+
+  /** End of the file. */
+  finish(): void {
+    if (this.mode === 'failed') return;
+    if (this.mode === 'start') {
+      this.run.diagnostics.report('warning', 'parse-error', this.file, 0, 'The file is empty.');
+      return;
+    }
+    if (this.mode !== 'done' || this.inStr) {
+      this.run.diagnostics.report('error', 'parse-error', this.file, this.line,
+        'The JSON document ends before its brackets are closed (is the file cut short?).', { column: Math.max(1, this.col) });
+    }
+    if (this.records === 0 && this.mode === 'done') {
+      this.run.diagnostics.report('warning', 'parse-error', this.file, 0, 'The JSON document holds no records.');
+    }
+  }
+}
