@@ -36,24 +36,28 @@ export function gaussNewton(model: ResidualModel, m: number, p0: Vec3_m): Refine
   if (m < 3) return undefined;
   const r = new Float64Array(m);
   const J = new Float64Array(m * 3);
+  const rq = new Float64Array(m);
+  const Jq = new Float64Array(m * 3);
+  const Jw = new Float64Array(m * 3);
+  const rw = new Float64Array(m);
   let p: [number, number, number] = [p0[0], p0[1], p0[2]];
   if (!model(p, r, J)) return undefined;
   let cost = sumSquares(r);
   let iterations = 0;
   let lastStep = Infinity;
   for (; iterations < MAX_ITERATIONS; iterations++) {
-    const step = solveLeastSquares(J.slice(), r.slice(), m, 3);
+    Jw.set(J);
+    rw.set(r);
+    const step = solveLeastSquares(Jw, rw, m, 3);
     if (!step) return iterations === 0 ? undefined : finish(false);
     let scale = 1;
     let accepted = false;
     for (let halvings = 0; halvings < 12; halvings++, scale /= 2) {
       const q: [number, number, number] = [p[0] + scale * step[0], p[1] + scale * step[1], p[2] + scale * step[2]];
-      const rq = new Float64Array(m);
-      const Jq = new Float64Array(m * 3);
       if (!model(q, rq, Jq)) continue;
       const c = sumSquares(rq);
       if (c <= cost * (1 + 1e-12) || halvings === 11) {
-        lastStep = scale * Math.hypot(step[0], step[1], step[2]);
+        lastStep = scale * Math.sqrt(step[0] * step[0] + step[1] * step[1] + step[2] * step[2]);
         p = q;
         r.set(rq);
         J.set(Jq);
@@ -63,15 +67,18 @@ export function gaussNewton(model: ResidualModel, m: number, p0: Vec3_m): Refine
       }
     }
     if (!accepted) break;
-    const size = 1 + Math.hypot(p[0], p[1], p[2]);
-    if (lastStep <= 1e-13 * size) {
+    if (lastStep <= 1e-13 * (1 + norm(p))) {
       iterations++;
       break;
     }
   }
-  return finish(lastStep <= 1e-6 * (1 + Math.hypot(p[0], p[1], p[2])));
+  return finish(lastStep <= 1e-6 * (1 + norm(p)));
 
   function finish(converged: boolean): RefinedPosition {
     return { p, rms_m: Math.sqrt(cost / m), iterations, converged };
   }
+}
+
+function norm(p: Vec3_m): number {
+  return Math.sqrt(p[0] * p[0] + p[1] * p[1] + p[2] * p[2]);
 }

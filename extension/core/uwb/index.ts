@@ -30,7 +30,7 @@ import { buildAnchorTable, collectRaw, collectUpdates, indicesByLink, type LinkT
 import { fixTrack } from './fixTrack';
 import { geometryWindows } from './geometryWindows';
 import {
-  MAD_TO_SIGMA, interpolateTrack, makeTrack, median, predictedRange_m, predictedTdoa_m, summarizeValues,
+  MAD_TO_SIGMA, interpolateTrack, makeTrack, maxBridgedGap_s, median, predictedRange_m, predictedTdoa_m, summarizeValues,
   type Track, type ValueSummary,
 } from './residuals';
 import type { Vec3_m } from './vec3';
@@ -291,10 +291,20 @@ export function analyzeUwb(
   // ---- 2. Residuals of raw records against truth and estimate ----
   const truth = truthTrack(log, settings);
   const estimate = estimateTrack(log);
+  // The bridged gap of each track is computed once (it takes a median over the track).
+  const gapOf = new Map<Track, number>();
+  const interpolate = (track: Track, tq: ArrayLike<number>): ReturnType<typeof interpolateTrack> => {
+    let gap = gapOf.get(track);
+    if (gap === undefined) {
+      gap = maxBridgedGap_s(track);
+      gapOf.set(track, gap);
+    }
+    return interpolateTrack(track, tq, gap);
+  };
   const rawByLink = indicesByLink(raw.link, raw.t_s, raw.length, nL);
   const residualAgainst = (track: Track | undefined): Float64Array | undefined => {
     if (!track || raw.length === 0) return undefined;
-    const at = interpolateTrack(track, raw.t_s.subarray(0, raw.length));
+    const at = interpolate(track, raw.t_s.subarray(0, raw.length));
     const res = new Float64Array(raw.length).fill(NaN);
     for (let k = 0; k < raw.length; k++) {
       const p: Vec3_m = [at.x[k], at.y[k], at.z[k]];
@@ -499,10 +509,10 @@ export function analyzeUwb(
       message: `Anchor ${rep.id} is suspect: ${rep.reason}.`,
     };
     if (times.length > 0) {
-      f.t = Math.min(...times);
-      f.tEnd = Math.max(...times);
+      f.t = times.reduce((m, x) => (x < m ? x : m), Infinity);
+      f.tEnd = times.reduce((m, x) => (x > m ? x : m), -Infinity);
     }
-    if (lines.length > 0) f.line = Math.min(...lines);
+    if (lines.length > 0) f.line = lines.reduce((m, x) => (x < m ? x : m), Infinity);
     const ch = mine.length > 0 ? channelOfLink(mine[0]) : undefined;
     if (ch) f.channel = ch;
     if (rep.offset) f.size = rep.offset.value;
@@ -520,10 +530,10 @@ export function analyzeUwb(
 
   // ---- 5. Fixes (before geometry, which may need them for a position) ----
   const truthAt = (track: Track | undefined, t: ArrayLike<number>): { x: Float64Array; y: Float64Array; z: Float64Array } | undefined =>
-    track ? interpolateTrack(track, t) : undefined;
+    track ? interpolate(track, t) : undefined;
   const fixes = fixTrack(raw, links, positions, rawByLink, (t) => {
     if (!estimate) return undefined;
-    const q = interpolateTrack(estimate, [t]);
+    const q = interpolate(estimate, [t]);
     const p: Vec3_m = [q.x[0], q.y[0], q.z[0]];
     return p.every(Number.isFinite) ? p : undefined;
   });
@@ -577,7 +587,7 @@ export function analyzeUwb(
     links,
     positions,
     model,
-    (t) => (positionTrack ? interpolateTrack(positionTrack, t) : { x: new Float64Array(t.length).fill(NaN), y: new Float64Array(t.length).fill(NaN), z: new Float64Array(t.length).fill(NaN) }),
+    (t) => (positionTrack ? interpolate(positionTrack, t) : { x: new Float64Array(t.length).fill(NaN), y: new Float64Array(t.length).fill(NaN), z: new Float64Array(t.length).fill(NaN) }),
     options.window_s ?? UWB_WINDOW_S,
     settings.maxDop,
   );

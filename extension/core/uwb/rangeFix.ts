@@ -8,7 +8,7 @@
  */
 import { gaussNewton, type RefinedPosition } from './gaussNewton';
 import { solveLeastSquares } from './lsq';
-import { isFiniteVec3, type Vec3_m } from './vec3';
+import { isFiniteVec3, norm3, type Vec3_m } from './vec3';
 
 /** One two-way range to anchor `anchor` (index into the anchor array), metres. */
 export interface RangeObservation {
@@ -45,7 +45,7 @@ export function refineRange(anchors: readonly Vec3_m[], observations: readonly R
     (p, residual, jacobian) => {
       for (let k = 0; k < m; k++) {
         const s = anchors[observations[k].anchor];
-        const r = Math.hypot(p[0] - s[0], p[1] - s[1], p[2] - s[2]);
+        const r = norm3(p[0] - s[0], p[1] - s[1], p[2] - s[2]);
         if (!(r > 0)) return false;
         residual[k] = observations[k].r_m - r;
         for (let c = 0; c < 3; c++) jacobian[k * 3 + c] = (p[c] - s[c]) / r;

@@ -10,7 +10,7 @@
  *   process with lag-1 autocorrelation rho1 (clamped to [0, 0.99]; common practice), so 10 Hz residuals that
  *   wander slowly do not make a small offset look significant.
  */
-import type { Vec3_m } from './vec3';
+import { norm3, type Vec3_m } from './vec3';
 
 /** Scale from MAD to a Gaussian sigma, 1 / Phi^-1(3/4) (common practice). */
 export const MAD_TO_SIGMA = 1.482602218505602;
@@ -31,12 +31,59 @@ export interface ValueSummary {
   meanSigma?: number;
 }
 
-/** Median of a numeric array (a sorted copy is made); NaN for an empty input. */
+/**
+ * k-th smallest value (0-based) of `a`, reordering `a` in place: Hoare quickselect with a median-of-three pivot
+ * (common practice), O(n) on average. Hand-written because a full sort per median was the stage's hot spot.
+ */
+function selectKth(a: Float64Array, k: number): number {
+  let lo = 0;
+  let hi = a.length - 1;
+  while (hi > lo) {
+    const mid = (lo + hi) >> 1;
+    // Median of three to the middle, as pivot.
+    if (a[mid] < a[lo]) swap(a, mid, lo);
+    if (a[hi] < a[lo]) swap(a, hi, lo);
+    if (a[hi] < a[mid]) swap(a, hi, mid);
+    const pivot = a[mid];
+    let i = lo;
+    let j = hi;
+    while (i <= j) {
+      while (a[i] < pivot) i++;
+      while (a[j] > pivot) j--;
+      if (i <= j) {
+        swap(a, i, j);
+        i++;
+        j--;
+      }
+    }
+    if (k <= j) hi = j;
+    else if (k >= i) lo = i;
+    else return a[k];
+  }
+  return a[k];
+}
+
+function swap(a: Float64Array, i: number, j: number): void {
+  const t = a[i];
+  a[i] = a[j];
+  a[j] = t;
+}
+
+/** Median of a numeric array (a copy is reordered; the input is untouched); NaN for an empty input. */
 export function median(values: ArrayLike<number>): number {
-  const n = values.length;
+  return values.length === 0 ? NaN : medianInPlace(Float64Array.from(values));
+}
+
+/** Median of `s`, reordering it. */
+function medianInPlace(s: Float64Array): number {
+  const n = s.length;
   if (n === 0) return NaN;
-  const s = Float64Array.from(values).sort();
-  return n % 2 === 1 ? s[(n - 1) / 2] : 0.5 * (s[n / 2 - 1] + s[n / 2]);
+  const upper = selectKth(s, n >> 1);
+  if (n % 2 === 1) return upper;
+  // The lower middle is the largest value left of position n/2 after selection.
+  let lower = -Infinity;
+  for (let k = 0; k < n >> 1; k++) if (s[k] > lower) lower = s[k];
+  return 0.5 * (lower + upper);
 }
 
 /**
@@ -44,28 +91,34 @@ export function median(values: ArrayLike<number>): number {
  * values are skipped. This is the per-anchor / per-pair statistics function used throughout the UWB block.
  */
 export function summarizeValues(values: ArrayLike<number>): ValueSummary {
-  const finite: number[] = [];
-  for (let k = 0; k < values.length; k++) if (Number.isFinite(values[k])) finite.push(values[k]);
-  const n = finite.length;
+  const all = values.length;
+  let n = 0;
+  for (let k = 0; k < all; k++) if (Number.isFinite(values[k])) n++;
   if (n === 0) return { count: 0 };
+  const finite = new Float64Array(n);
+  let o = 0;
+  for (let k = 0; k < all; k++) {
+    const v = values[k];
+    if (Number.isFinite(v)) finite[o++] = v;
+  }
   let sum = 0;
   let sumSq = 0;
-  for (const v of finite) {
-    sum += v;
-    sumSq += v * v;
+  for (let k = 0; k < n; k++) {
+    sum += finite[k];
+    sumSq += finite[k] * finite[k];
   }
   const mean = sum / n;
   const out: ValueSummary = { count: n, mean, rms: Math.sqrt(sumSq / n) };
-  const med = median(finite);
-  out.median = med;
-  out.mad = median(finite.map((v) => Math.abs(v - med)));
   if (n >= 2) {
     let ss = 0;
     let lag = 0;
-    for (let k = 0; k < n; k++) {
+    let prev = finite[0] - mean;
+    ss += prev * prev;
+    for (let k = 1; k < n; k++) {
       const d = finite[k] - mean;
       ss += d * d;
-      if (k > 0) lag += d * (finite[k - 1] - mean);
+      lag += d * prev;
+      prev = d;
     }
     out.std = Math.sqrt(ss / (n - 1));
     const rho1 = ss > 0 ? lag / ss : 0;
@@ -74,12 +127,17 @@ export function summarizeValues(values: ArrayLike<number>): ValueSummary {
     const nEff = Math.max(1, (n * (1 - r)) / (1 + r));
     out.meanSigma = out.std / Math.sqrt(nEff);
   }
+  // Order no longer matters: select in place.
+  const med = medianInPlace(finite);
+  out.median = med;
+  for (let k = 0; k < n; k++) finite[k] = Math.abs(finite[k] - med);
+  out.mad = medianInPlace(finite);
   return out;
 }
 
 /** Predicted two-way range from `p` to anchor `s`, metres. */
 export function predictedRange_m(p: Vec3_m, s: Vec3_m): number {
-  return Math.hypot(p[0] - s[0], p[1] - s[1], p[2] - s[2]);
+  return norm3(p[0] - s[0], p[1] - s[1], p[2] - s[2]);
 }
 
 /** Predicted TDOA range difference r_j - r_i at `p`, metres. */

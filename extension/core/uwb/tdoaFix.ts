@@ -13,7 +13,7 @@
  */
 import { gaussNewton, type RefinedPosition } from './gaussNewton';
 import { solveLeastSquares } from './lsq';
-import { isFiniteVec3, type Vec3_m } from './vec3';
+import { isFiniteVec3, norm3, type Vec3_m } from './vec3';
 
 /** One TDOA measurement: range difference d_j - d_i between anchors i and j (indices into the anchor array), metres. */
 export interface TdoaObservation {
@@ -127,8 +127,8 @@ export function refineTdoa(anchors: readonly Vec3_m[], observations: readonly Td
         const { i, j, d_m } = observations[k];
         const si = anchors[i];
         const sj = anchors[j];
-        const ri = Math.hypot(p[0] - si[0], p[1] - si[1], p[2] - si[2]);
-        const rj = Math.hypot(p[0] - sj[0], p[1] - sj[1], p[2] - sj[2]);
+        const ri = norm3(p[0] - si[0], p[1] - si[1], p[2] - si[2]);
+        const rj = norm3(p[0] - sj[0], p[1] - sj[1], p[2] - sj[2]);
         if (!(ri > 0) || !(rj > 0)) return false;
         residual[k] = d_m - (rj - ri);
         for (let c = 0; c < 3; c++) jacobian[k * 3 + c] = (p[c] - sj[c]) / rj - (p[c] - si[c]) / ri;

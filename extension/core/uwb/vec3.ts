@@ -21,3 +21,8 @@ export function distance_m(a: Vec3_m, b: Vec3_m): number {
 export function isFiniteVec3(p: Vec3_m | undefined): p is Vec3_m {
   return p !== undefined && Number.isFinite(p[0]) && Number.isFinite(p[1]) && Number.isFinite(p[2]);
 }
+
+/** Length of (x, y, z); plain sqrt of the sum of squares (Math.hypot is several times slower in V8 and the values here cannot overflow). */
+export function norm3(x: number, y: number, z: number): number {
+  return Math.sqrt(x * x + y * y + z * z);
+}
