@@ -136,7 +136,7 @@ function resolve(o: WarehouseOptions): Resolved {
     tau_s: Math.max(0, o.errorCorrelation_s ?? 0),
     t0_s: o.t0_s ?? 0,
     source: o.source ?? 'src/filter/tdoa_update.cpp:120',
-    tDecimals: Math.max(2, Math.ceil(Math.log10(rate_hz) - 1e-9)),
+    tDecimals: o.columns === 'bench' ? 6 : Math.max(2, Math.ceil(Math.log10(rate_hz) - 1e-9)),
   };
 }
 
