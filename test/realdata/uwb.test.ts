@@ -8,7 +8,8 @@ import { existsSync, readFileSync } from 'node:fs';
 import path from 'node:path';
 import { describe, expect, it } from 'vitest';
 import type { NavLog, RangeStream, ReferenceStream, StateStream } from '../../extension/core/model';
-import { DEFAULT_SETTINGS } from '../../extension/core/settings';
+import { DEFAULT_SETTINGS, resolveSettings } from '../../extension/core/settings';
+import { bytesSource, readRun } from '../../extension/core/read/index';
 import { analyzeUwb, summarizeValues } from '../../extension/core/uwb/index';
 
 const DATA = path.resolve(__dirname, '../../..', 'shared/data/uwb-outdoor-eskf-rtk');
@@ -150,5 +151,29 @@ describe.skipIf(!present)('outdoor UWB ranges with an RTK reference (uwb-outdoor
       expect(Math.abs(summary.mean! - mean)).toBeLessThan(5e-6);
       expect(Math.abs(summary.std! - std)).toBeLessThan(5e-6);
     }
+  });
+
+  it('read through the project reader with the fixture mapping: the same figures as the local parse', async () => {
+    // test/fixtures/maps/ESKF.csv.map.json names the four anchor files and the reference; the tag height above the
+    // reference point (1 m, source note) is the settings' navigation-frame reference offset.
+    const mapText = readFileSync(path.resolve(__dirname, '../fixtures/maps/ESKF.csv.map.json'), 'utf8');
+    const source = (file: string) => bytesSource(file, new Uint8Array(readFileSync(file)));
+    const log = await readRun(source(path.join(DATA, 'ESKF.csv')), {
+      map: { text: mapText, name: path.join(DATA, 'ESKF.csv.map.json') },
+      open: (p, relativeTo) => {
+        const file = path.resolve(path.dirname(relativeTo), p);
+        return existsSync(file) ? source(file) : undefined;
+      },
+    });
+    const viaReader = analyzeUwb(log, resolveSettings({ referenceOffset_m: [0, 0, 1] })).block!;
+    expect(viaReader.anchors.map((a) => a.id).sort()).toEqual(['12', '3', '5', '9']);
+    for (const a of viaReader.anchors) {
+      const local = block!.anchors.find((x) => x.id === a.id)!;
+      expect(a.p).toEqual(local.p);
+      expect(a.residual!.count).toBe(local.residual!.count);
+      expect(Math.abs(a.residualMean! - local.residualMean!)).toBeLessThan(1e-6);
+      expect(Math.abs(a.residual!.std! - local.residual!.std!)).toBeLessThan(1e-6);
+    }
+    expect(viaReader.anchors.filter((a) => a.suspect)).toEqual([]);
   });
 });

@@ -163,27 +163,40 @@ function fmt(x: number, digits = 3): string {
   return Number.isFinite(x) ? Number(x.toPrecision(digits)).toString() : String(x);
 }
 
-/** Truth track: state `gt_p_*` when present, else the reference stream (its times shifted by `timeOffset_s`). */
+/**
+ * Truth track: state `gt_p_*` when present, else the reference stream (its times shifted by `timeOffset_s`);
+ * `settings.referenceOffset_m` (a navigation-frame offset, e.g. tag height above the reference point) is added.
+ * The body-frame `leverArm_m` is not applied here (it needs an attitude per epoch; the errors stage applies it).
+ */
 function truthTrack(log: NavLog, settings: AnalysisSettings): Track | undefined {
   const c = log.state.columns;
+  let track: Track | undefined;
   const gx = c.get('gt_p_x');
   const gy = c.get('gt_p_y');
   const gz = c.get('gt_p_z');
   if (gx && gy && gz) {
     const t = makeTrack(log.state.t_s, gx, gy, gz, log.state.length);
-    if (t.length > 0) return t;
+    if (t.length > 0) track = t;
   }
   const r = log.reference;
-  if (r) {
+  if (!track && r) {
     const rx = r.columns.get('p_x');
     const ry = r.columns.get('p_y');
     const rz = r.columns.get('p_z');
     if (rx && ry && rz) {
       const t = makeTrack(r.t_s, rx, ry, rz, r.length, settings.timeOffset_s);
-      if (t.length > 0) return t;
+      if (t.length > 0) track = t;
     }
   }
-  return undefined;
+  const off = settings.referenceOffset_m;
+  if (track && off) {
+    for (let k = 0; k < track.length; k++) {
+      track.x[k] += off[0];
+      track.y[k] += off[1];
+      track.z[k] += off[2];
+    }
+  }
+  return track;
 }
 
 function estimateTrack(log: NavLog): Track | undefined {
@@ -200,7 +213,7 @@ function estimateTrack(log: NavLog): Track | undefined {
  * Analyse the UWB measurements of a log (see the file comment). Returns no block when the log has no TDOA or
  * range updates and no raw UWB records.
  * @param log what the reader produced
- * @param settings gate (outlier probability), maxDop (high-dop threshold), timeOffset_s, familyAlpha
+ * @param settings gate (outlier probability), maxDop (high-dop threshold), timeOffset_s, referenceOffset_m, familyAlpha
  * @param nisByChannel NIS per update from the consistency stage, by channel name (computed here when absent)
  * @param options geometry window
  */
