@@ -34,19 +34,19 @@ export function quatCreate(w = 1, x = 0, y = 0, z = 0): Float64Array {
 }
 
 /** Write the identity rotation [1, 0, 0, 0] into `out`. */
-export function quatIdentity(out: QuatWXYZ): QuatWXYZ {
+export function quatIdentity<T extends QuatWXYZ>(out: T): T {
   out[0] = 1; out[1] = 0; out[2] = 0; out[3] = 0;
   return out;
 }
 
 /** Copy `a` into `out`. */
-export function quatCopy(out: QuatWXYZ, a: QuatWXYZ): QuatWXYZ {
+export function quatCopy<T extends QuatWXYZ>(out: T, a: QuatWXYZ): T {
   out[0] = a[0]; out[1] = a[1]; out[2] = a[2]; out[3] = a[3];
   return out;
 }
 
 /** Hamilton product out = a ⊗ b (apply b first, then a, to a vector). */
-export function quatMultiply(out: QuatWXYZ, a: QuatWXYZ, b: QuatWXYZ): QuatWXYZ {
+export function quatMultiply<T extends QuatWXYZ>(out: T, a: QuatWXYZ, b: QuatWXYZ): T {
   const aw = a[0], ax = a[1], ay = a[2], az = a[3];
   const bw = b[0], bx = b[1], by = b[2], bz = b[3];
   out[0] = aw * bw - ax * bx - ay * by - az * bz;
@@ -57,7 +57,7 @@ export function quatMultiply(out: QuatWXYZ, a: QuatWXYZ, b: QuatWXYZ): QuatWXYZ 
 }
 
 /** Conjugate out = a* (the inverse of a unit quaternion). */
-export function quatConjugate(out: QuatWXYZ, a: QuatWXYZ): QuatWXYZ {
+export function quatConjugate<T extends QuatWXYZ>(out: T, a: QuatWXYZ): T {
   out[0] = a[0]; out[1] = -a[1]; out[2] = -a[2]; out[3] = -a[3];
   return out;
 }
@@ -73,7 +73,7 @@ export function quatDot(a: QuatWXYZ, b: QuatWXYZ): number {
 }
 
 /** out = a / |a|; a zero or non-finite quaternion gives NaNs (the caller decides what to do with it). */
-export function quatNormalize(out: QuatWXYZ, a: QuatWXYZ): QuatWXYZ {
+export function quatNormalize<T extends QuatWXYZ>(out: T, a: QuatWXYZ): T {
   const n = quatNorm(a);
   const s = n > 0 && Number.isFinite(n) ? 1 / n : NaN;
   out[0] = a[0] * s; out[1] = a[1] * s; out[2] = a[2] * s; out[3] = a[3] * s;
@@ -81,7 +81,7 @@ export function quatNormalize(out: QuatWXYZ, a: QuatWXYZ): QuatWXYZ {
 }
 
 /** Rotate a body vector into the navigation frame: out = q ⊗ v ⊗ q* = R(q) v. */
-export function quatRotate(out: Vec3, q: QuatWXYZ, v: Vec3): Vec3 {
+export function quatRotate<T extends Vec3>(out: T, q: QuatWXYZ, v: Vec3): T {
   // t = 2 q_v × v ; v' = v + w t + q_v × t (the usual two-cross-product form of the Hamilton sandwich).
   const w = q[0], x = q[1], y = q[2], z = q[3];
   const vx = v[0], vy = v[1], vz = v[2];
@@ -95,7 +95,7 @@ export function quatRotate(out: Vec3, q: QuatWXYZ, v: Vec3): Vec3 {
 }
 
 /** Rotation by angle_rad about a unit axis (the axis is not re-normalised). */
-export function quatFromAxisAngle(out: QuatWXYZ, axis: Vec3, angle_rad: number): QuatWXYZ {
+export function quatFromAxisAngle<T extends QuatWXYZ>(out: T, axis: Vec3, angle_rad: number): T {
   const h = angle_rad / 2;
   const s = Math.sin(h);
   out[0] = Math.cos(h); out[1] = axis[0] * s; out[2] = axis[1] * s; out[3] = axis[2] * s;
@@ -106,7 +106,7 @@ export function quatFromAxisAngle(out: QuatWXYZ, axis: Vec3, angle_rad: number):
  * Exponential map: rotation vector phi (rad, axis times angle) to a unit quaternion,
  * q = [cos(|phi|/2), sin(|phi|/2) phi/|phi|], with the series sin(h)/(2h) = 1/2 - h^2/12 + ... for small angles.
  */
-export function quatExp(out: QuatWXYZ, phi_rad: Vec3): QuatWXYZ {
+export function quatExp<T extends QuatWXYZ>(out: T, phi_rad: Vec3): T {
   const theta = Math.hypot(phi_rad[0], phi_rad[1], phi_rad[2]);
   const h = theta / 2;
   let k: number; // sin(theta/2) / theta
@@ -125,7 +125,7 @@ export function quatExp(out: QuatWXYZ, phi_rad: Vec3): QuatWXYZ {
  * Logarithm map: unit quaternion to the rotation vector phi (rad) with |phi| in [0, pi]
  * (q and -q give the same result). Uses theta = 2 atan2(|q_v|, |w|), well conditioned at every angle.
  */
-export function quatLog(out: Vec3, q: QuatWXYZ): Vec3 {
+export function quatLog<T extends Vec3>(out: T, q: QuatWXYZ): T {
   let w = q[0], x = q[1], y = q[2], z = q[3];
   if (w < 0) { w = -w; x = -x; y = -y; z = -z; } // shortest rotation
   const s = Math.hypot(x, y, z);
@@ -161,7 +161,7 @@ export function quatAngleBetween(a: QuatWXYZ, b: QuatWXYZ): number {
  * Spherical linear interpolation from a (f = 0) to b (f = 1) along the shorter arc; unit inputs expected.
  * Falls back to normalised linear interpolation when the two are within 1e-6 rad of each other.
  */
-export function quatSlerp(out: QuatWXYZ, a: QuatWXYZ, b: QuatWXYZ, f: number): QuatWXYZ {
+export function quatSlerp<T extends QuatWXYZ>(out: T, a: QuatWXYZ, b: QuatWXYZ, f: number): T {
   let bw = b[0], bx = b[1], by = b[2], bz = b[3];
   let c = a[0] * bw + a[1] * bx + a[2] * by + a[3] * bz;
   if (c < 0) { c = -c; bw = -bw; bx = -bx; by = -by; bz = -bz; }

@@ -24,7 +24,7 @@ export function mat3Create(): Float64Array {
 }
 
 /** out = a b (3x3, row-major). `out` may alias a or b. */
-export function mat3Multiply(out: Mat3, a: Mat3, b: Mat3): Mat3 {
+export function mat3Multiply<T extends Mat3>(out: T, a: Mat3, b: Mat3): T {
   const a0 = a[0], a1 = a[1], a2 = a[2], a3 = a[3], a4 = a[4], a5 = a[5], a6 = a[6], a7 = a[7], a8 = a[8];
   const b0 = b[0], b1 = b[1], b2 = b[2], b3 = b[3], b4 = b[4], b5 = b[5], b6 = b[6], b7 = b[7], b8 = b[8];
   out[0] = a0 * b0 + a1 * b3 + a2 * b6; out[1] = a0 * b1 + a1 * b4 + a2 * b7; out[2] = a0 * b2 + a1 * b5 + a2 * b8;
@@ -34,7 +34,7 @@ export function mat3Multiply(out: Mat3, a: Mat3, b: Mat3): Mat3 {
 }
 
 /** out = a b^T. `out` may alias a or b. */
-export function mat3MultiplyTransposeB(out: Mat3, a: Mat3, b: Mat3): Mat3 {
+export function mat3MultiplyTransposeB<T extends Mat3>(out: T, a: Mat3, b: Mat3): T {
   const a0 = a[0], a1 = a[1], a2 = a[2], a3 = a[3], a4 = a[4], a5 = a[5], a6 = a[6], a7 = a[7], a8 = a[8];
   const b0 = b[0], b1 = b[1], b2 = b[2], b3 = b[3], b4 = b[4], b5 = b[5], b6 = b[6], b7 = b[7], b8 = b[8];
   out[0] = a0 * b0 + a1 * b1 + a2 * b2; out[1] = a0 * b3 + a1 * b4 + a2 * b5; out[2] = a0 * b6 + a1 * b7 + a2 * b8;
@@ -44,7 +44,7 @@ export function mat3MultiplyTransposeB(out: Mat3, a: Mat3, b: Mat3): Mat3 {
 }
 
 /** out = a^T b. `out` may alias a or b. */
-export function mat3MultiplyTransposeA(out: Mat3, a: Mat3, b: Mat3): Mat3 {
+export function mat3MultiplyTransposeA<T extends Mat3>(out: T, a: Mat3, b: Mat3): T {
   const a0 = a[0], a1 = a[1], a2 = a[2], a3 = a[3], a4 = a[4], a5 = a[5], a6 = a[6], a7 = a[7], a8 = a[8];
   const b0 = b[0], b1 = b[1], b2 = b[2], b3 = b[3], b4 = b[4], b5 = b[5], b6 = b[6], b7 = b[7], b8 = b[8];
   out[0] = a0 * b0 + a3 * b3 + a6 * b6; out[1] = a0 * b1 + a3 * b4 + a6 * b7; out[2] = a0 * b2 + a3 * b5 + a6 * b8;
@@ -54,7 +54,7 @@ export function mat3MultiplyTransposeA(out: Mat3, a: Mat3, b: Mat3): Mat3 {
 }
 
 /** out = m^T. `out` may alias m. */
-export function mat3Transpose(out: Mat3, m: Mat3): Mat3 {
+export function mat3Transpose<T extends Mat3>(out: T, m: Mat3): T {
   const m1 = m[1], m2 = m[2], m5 = m[5];
   out[0] = m[0]; out[4] = m[4]; out[8] = m[8];
   out[1] = m[3]; out[3] = m1;
@@ -64,7 +64,7 @@ export function mat3Transpose(out: Mat3, m: Mat3): Mat3 {
 }
 
 /** out = m v. */
-export function mat3MulVec(out: Vec3, m: Mat3, v: Vec3): Vec3 {
+export function mat3MulVec<T extends Vec3>(out: T, m: Mat3, v: Vec3): T {
   const x = v[0], y = v[1], z = v[2];
   out[0] = m[0] * x + m[1] * y + m[2] * z;
   out[1] = m[3] * x + m[4] * y + m[5] * z;
@@ -73,7 +73,7 @@ export function mat3MulVec(out: Vec3, m: Mat3, v: Vec3): Vec3 {
 }
 
 /** out = m^T v. */
-export function mat3TransposeMulVec(out: Vec3, m: Mat3, v: Vec3): Vec3 {
+export function mat3TransposeMulVec<T extends Vec3>(out: T, m: Mat3, v: Vec3): T {
   const x = v[0], y = v[1], z = v[2];
   out[0] = m[0] * x + m[3] * y + m[6] * z;
   out[1] = m[1] * x + m[4] * y + m[7] * z;
@@ -82,7 +82,7 @@ export function mat3TransposeMulVec(out: Vec3, m: Mat3, v: Vec3): Vec3 {
 }
 
 /** Skew matrix: hat(a) b = a × b. */
-export function hat(out: Mat3, a: Vec3): Mat3 {
+export function hat<T extends Mat3>(out: T, a: Vec3): T {
   out[0] = 0; out[1] = -a[2]; out[2] = a[1];
   out[3] = a[2]; out[4] = 0; out[5] = -a[0];
   out[6] = -a[1]; out[7] = a[0]; out[8] = 0;
@@ -90,13 +90,13 @@ export function hat(out: Mat3, a: Vec3): Mat3 {
 }
 
 /** Inverse of hat on the skew part: vee(m) = ((m32 - m23)/2, (m13 - m31)/2, (m21 - m12)/2). */
-export function vee(out: Vec3, m: Mat3): Vec3 {
+export function vee<T extends Vec3>(out: T, m: Mat3): T {
   out[0] = (m[7] - m[5]) / 2; out[1] = (m[2] - m[6]) / 2; out[2] = (m[3] - m[1]) / 2;
   return out;
 }
 
 /** Hamilton rotation matrix of a unit quaternion (body to navigation). */
-export function matFromQuat(out: Mat3, q: QuatWXYZ): Mat3 {
+export function matFromQuat<T extends Mat3>(out: T, q: QuatWXYZ): T {
   const w = q[0], x = q[1], y = q[2], z = q[3];
   out[0] = 1 - 2 * (y * y + z * z); out[1] = 2 * (x * y - w * z); out[2] = 2 * (x * z + w * y);
   out[3] = 2 * (x * y + w * z); out[4] = 1 - 2 * (x * x + z * z); out[5] = 2 * (y * z - w * x);
@@ -108,7 +108,7 @@ export function matFromQuat(out: Mat3, q: QuatWXYZ): Mat3 {
  * Unit quaternion of a rotation matrix (Shepperd's method: pivot on the largest of w^2, x^2, y^2, z^2 so no
  * division by a small number); the result has w >= 0.
  */
-export function quatFromMat(out: QuatWXYZ, m: Mat3): QuatWXYZ {
+export function quatFromMat<T extends QuatWXYZ>(out: T, m: Mat3): T {
   const m00 = m[0], m11 = m[4], m22 = m[8];
   const tr = m00 + m11 + m22;
   let w: number, x: number, y: number, z: number;
@@ -132,7 +132,7 @@ export function quatFromMat(out: QuatWXYZ, m: Mat3): QuatWXYZ {
 }
 
 /** Exponential map (Rodrigues): rotation vector phi (rad) to a rotation matrix, series below SMALL_ANGLE_RAD. */
-export function so3Exp(out: Mat3, phi_rad: Vec3): Mat3 {
+export function so3Exp<T extends Mat3>(out: T, phi_rad: Vec3): T {
   const x = phi_rad[0], y = phi_rad[1], z = phi_rad[2];
   const t2 = x * x + y * y + z * z;
   const t = Math.sqrt(t2);
@@ -160,7 +160,7 @@ export function so3Exp(out: Mat3, phi_rad: Vec3): Mat3 {
  *   largest diagonal entry, with its sign fixed by the skew part (sin theta >= 0);
  * - otherwise theta / sin(theta) * vee(R - R^T)/2.
  */
-export function so3Log(out: Vec3, m: Mat3): Vec3 {
+export function so3Log<T extends Vec3>(out: T, m: Mat3): T {
   const sx = (m[7] - m[5]) / 2, sy = (m[2] - m[6]) / 2, sz = (m[3] - m[1]) / 2; // sin(theta) u
   const s = Math.hypot(sx, sy, sz);
   const c = (m[0] + m[4] + m[8] - 1) / 2; // cos(theta)
@@ -220,7 +220,7 @@ export function so3AngleBetween(a: Mat3, b: Mat3): number {
  * Left Jacobian of SO(3): J_l(phi) = I + (1 - cos t)/t^2 hat + (t - sin t)/t^3 hat^2, series below SMALL_ANGLE_RAD.
  * Used by the SE(3)/SE2(3) exponentials (translation part t = J_l(phi) rho).
  */
-export function so3LeftJacobian(out: Mat3, phi_rad: Vec3): Mat3 {
+export function so3LeftJacobian<T extends Mat3>(out: T, phi_rad: Vec3): T {
   const x = phi_rad[0], y = phi_rad[1], z = phi_rad[2];
   const t2 = x * x + y * y + z * z;
   const t = Math.sqrt(t2);
@@ -242,7 +242,7 @@ export function so3LeftJacobian(out: Mat3, phi_rad: Vec3): Mat3 {
  * Inverse left Jacobian: J_l^-1(phi) = I - hat/2 + (1/t^2 - cot(t/2)/(2t)) hat^2; the coefficient is written with
  * cot(t/2) so it stays finite up to t = pi, and uses its series 1/12 + t^2/720 + t^4/30240 below SMALL_ANGLE_RAD.
  */
-export function so3LeftJacobianInverse(out: Mat3, phi_rad: Vec3): Mat3 {
+export function so3LeftJacobianInverse<T extends Mat3>(out: T, phi_rad: Vec3): T {
   const x = phi_rad[0], y = phi_rad[1], z = phi_rad[2];
   const t2 = x * x + y * y + z * z;
   const t = Math.sqrt(t2);
@@ -260,7 +260,7 @@ export function so3LeftJacobianInverse(out: Mat3, phi_rad: Vec3): Mat3 {
 }
 
 /** Rotation matrix from ZYX Euler angles: R = Rz(yaw) Ry(pitch) Rx(roll), radians. */
-export function matFromEulerZYX(out: Mat3, yaw_rad: number, pitch_rad: number, roll_rad: number): Mat3 {
+export function matFromEulerZYX<T extends Mat3>(out: T, yaw_rad: number, pitch_rad: number, roll_rad: number): T {
   const cy = Math.cos(yaw_rad), sy = Math.sin(yaw_rad);
   const cp = Math.cos(pitch_rad), sp = Math.sin(pitch_rad);
   const cr = Math.cos(roll_rad), sr = Math.sin(roll_rad);
@@ -275,7 +275,7 @@ export function matFromEulerZYX(out: Mat3, yaw_rad: number, pitch_rad: number, r
  * At gimbal lock (cos pitch below 1e-12) only yaw -/+ roll is defined: roll is set to 0 and yaw carries it,
  * so the round trip preserves R, not the separate angles.
  */
-export function eulerZYXFromMat(out: Vec3, m: Mat3): Vec3 {
+export function eulerZYXFromMat<T extends Vec3>(out: T, m: Mat3): T {
   const cp = Math.hypot(m[0], m[3]);
   const pitch = Math.atan2(-m[6], cp);
   if (cp > 1e-12) {
@@ -290,7 +290,7 @@ export function eulerZYXFromMat(out: Vec3, m: Mat3): Vec3 {
 }
 
 /** Quaternion from ZYX Euler angles: q = q_z(yaw) ⊗ q_y(pitch) ⊗ q_x(roll), radians. */
-export function quatFromEulerZYX(out: QuatWXYZ, yaw_rad: number, pitch_rad: number, roll_rad: number): QuatWXYZ {
+export function quatFromEulerZYX<T extends QuatWXYZ>(out: T, yaw_rad: number, pitch_rad: number, roll_rad: number): T {
   const cy = Math.cos(yaw_rad / 2), sy = Math.sin(yaw_rad / 2);
   const cp = Math.cos(pitch_rad / 2), sp = Math.sin(pitch_rad / 2);
   const cr = Math.cos(roll_rad / 2), sr = Math.sin(roll_rad / 2);
@@ -304,7 +304,7 @@ export function quatFromEulerZYX(out: QuatWXYZ, yaw_rad: number, pitch_rad: numb
 const scratchMat = new Float64Array(9);
 
 /** ZYX Euler angles [yaw, pitch, roll] (rad) of a unit quaternion (through its matrix; same gimbal-lock rule). */
-export function eulerZYXFromQuat(out: Vec3, q: QuatWXYZ): Vec3 {
+export function eulerZYXFromQuat<T extends Vec3>(out: T, q: QuatWXYZ): T {
   return eulerZYXFromMat(out, matFromQuat(scratchMat, q));
 }
 

@@ -53,7 +53,7 @@ function withSigmas(c: Record<string, Float64Array>, sAtt: number, sPos: number,
 
 describe('orientation error conventions', () => {
   it('navigation side: R_true = Exp(d) R_est gives error d; body side gives R_est^T d; angle agrees with three', () => {
-    const trueQ = estQ.map((q, k) => quatMultiply(new Float64Array(4), quatExp(new Float64Array(4), xi[k].slice(0, 3)), q) as Float64Array);
+    const trueQ = estQ.map((q, k) => quatMultiply(new Float64Array(4), quatExp(new Float64Array(4), Float64Array.from(xi[k].slice(0, 3))), q) as Float64Array);
     const cols = { ...withSigmas(columns(estQ, estP), 0.02, 1), ...columns(trueQ, estP, undefined, 'gt_') };
     for (const side of ['nav', 'body'] as const) {
       const log = navLog(stateStream(t, cols), undefined, { conventions: { attitudeErrorSide: side } });
