@@ -59,8 +59,16 @@ export class StreamBuilder {
     return i;
   }
 
+  /** Make room for `n` records at least (one allocation instead of repeated doubling when the size is known). */
+  reserve(n: number): void {
+    if (n > this.capacity) this.resize(Math.ceil(n));
+  }
+
   private grow(): void {
-    const cap = this.capacity * 2;
+    this.resize(this.capacity * 2);
+  }
+
+  private resize(cap: number): void {
     const t = new Float64Array(cap); t.set(this.t); this.t = t;
     const l = new Float64Array(cap); l.set(this.line); this.line = l;
     const f = new Uint16Array(cap); f.set(this.fileIndex); this.fileIndex = f;
@@ -162,6 +170,11 @@ export class RunBuilder {
   pStates: string[] | undefined;
   pMatrix: Float64Array | undefined;
   rows = 0;
+
+  /** Every stream builder of the run. */
+  builders(): StreamBuilder[] {
+    return [this.state, this.reference, ...this.channels.values(), this.imu, this.tdoa, this.ranges];
+  }
 
   /** Index of `file` in {@link files}, added when new. */
   fileIndex(file: string): number {

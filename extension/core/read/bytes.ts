@@ -79,7 +79,7 @@ export class LineSplitter {
       this.pending.clear();
     }
     if (this.pending.length > 0) {
-      const idx = b.indexOf(sep);
+      const idx = indexOfByte(b, sep, 0);
       if (idx < 0) { this.pending.append(b); return; }
       this.pending.append(b, 0, idx);
       this.emit(this.pending.bytes, 0, this.pending.length);
@@ -87,7 +87,7 @@ export class LineSplitter {
       pos = idx + 1;
     }
     for (;;) {
-      const idx = b.indexOf(sep, pos);
+      const idx = indexOfByte(b, sep, pos);
       if (idx < 0) break;
       this.emit(b, pos, idx);
       pos = idx + 1;
@@ -129,7 +129,7 @@ export class LineSplitter {
         this.pending.clear();
         let pos = 0;
         for (;;) {
-          const idx = all.indexOf(13, pos);
+          const idx = indexOfByte(all, 13, pos);
           if (idx < 0) break;
           this.emit(all, pos, idx);
           pos = idx + 1;
@@ -143,4 +143,14 @@ export class LineSplitter {
       this.pending.clear();
     }
   }
+}
+
+/**
+ * Index of `byte` in `b` from `from`, or -1. A plain loop: `Uint8Array.prototype.indexOf` measured several times
+ * slower per byte than this JIT-compiled loop on the benchmark log.
+ */
+export function indexOfByte(b: Uint8Array, byte: number, from: number): number {
+  const n = b.length;
+  for (let i = from; i < n; i++) if (b[i] === byte) return i;
+  return -1;
 }

@@ -20,7 +20,12 @@ export interface CsvFileOptions {
   mapping?: Mapping;
   role: FileRole;
   mapName?: string;
+  /** Size of the file in bytes, when known: used to reserve the columns once instead of growing them. */
+  sizeHint?: number;
 }
+
+/** Data rows looked at before the column storage is reserved from the file size. */
+const RESERVE_AFTER_ROWS = 256;
 
 const QUOTE = 0x22;
 
@@ -49,6 +54,8 @@ export class CsvFileReader {
   private recLine = 0;
   private inRecord = false;
   private recQuotes = 0;
+  private dataRows = 0;
+  private dataBytes = 0;
 
   constructor(private readonly run: RunBuilder, readonly file: string, private readonly opts: CsvFileOptions) {
     this.splitter = new LineSplitter((b, s, e, line) => this.onLine(b, s, e, line));
@@ -282,6 +289,7 @@ export class CsvFileReader {
     const ncols = plan.ncols;
     const delim = this.delim;
     if (ncols === 0) return;
+    if (this.dataRows < RESERVE_AFTER_ROWS) this.countRow(e - s + 1);
     let p = s;
     let c = 0;
     for (;;) {
@@ -316,6 +324,18 @@ export class CsvFileReader {
       if (!(extra === 1 && this.isBlank(b, p + 1, e))) this.ragged(line, ncols + extra, ncols);
     }
     plan.row(vals, strs, line);
+  }
+
+  /** After the first rows, reserve every growing stream in proportion to the file size. */
+  private countRow(bytes: number): void {
+    this.dataRows++;
+    this.dataBytes += bytes;
+    const size = this.opts.sizeHint;
+    if (this.dataRows !== RESERVE_AFTER_ROWS || !size || size <= 0) return;
+    const rows = (size / (this.dataBytes / this.dataRows)) * 1.02;
+    for (const b of this.run.builders()) {
+      if (b.length > 0) b.reserve(b.length + ((b.length / this.dataRows) * rows));
+    }
   }
 
   private ragged(line: number, cells: number, ncols: number): void {

@@ -60,6 +60,8 @@ export interface LogReaderOptions {
   /** Force a format instead of guessing from the name and the first bytes. */
   format?: 'csv' | 'jsonl' | 'json';
   maxGapSteps?: number;
+  /** Size of the main log in bytes, when known (lets the reader reserve its columns once). */
+  sizeHint?: number;
 }
 
 function extFormat(name: string): 'csv' | 'jsonl' | 'json' | undefined {
@@ -81,7 +83,8 @@ export class FileIngest {
   bytesRead = 0;
 
   constructor(private readonly run: RunBuilder, readonly name: string,
-    private readonly opts: { spec?: FileSpec; mapping?: Mapping; role: FileRole; mapName?: string; format?: 'csv' | 'jsonl' | 'json' }) {
+    private readonly opts: { spec?: FileSpec; mapping?: Mapping; role: FileRole; mapName?: string; format?: 'csv' | 'jsonl' | 'json';
+      sizeHint?: number }) {
     run.fileIndex(name);
     this.format = opts.format ?? opts.spec?.format ?? extFormat(name);
     if (this.format) this.create(this.format);
@@ -89,7 +92,8 @@ export class FileIngest {
 
   private create(format: 'csv' | 'jsonl' | 'json'): CsvFileReader | JsonlFileReader | JsonFileReader {
     this.format = format;
-    const o = { spec: this.opts.spec, mapping: this.opts.mapping, role: this.opts.role, mapName: this.opts.mapName };
+    const o = { spec: this.opts.spec, mapping: this.opts.mapping, role: this.opts.role, mapName: this.opts.mapName,
+      sizeHint: this.opts.sizeHint };
     return this.reader = format === 'csv' ? new CsvFileReader(this.run, this.name, o)
       : format === 'jsonl' ? new JsonlFileReader(this.run, this.name, o)
         : new JsonFileReader(this.run, this.name, o);
@@ -156,6 +160,7 @@ export class LogReader {
   constructor(readonly name: string, private readonly options: LogReaderOptions = {}) {
     this.main = new FileIngest(this.run, name, {
       spec: options.mapping, mapping: options.mapping, role: 'estimate', mapName: options.mapName, format: options.format,
+      sizeHint: options.sizeHint,
     });
   }
 
@@ -171,8 +176,8 @@ export class LogReader {
   }
 
   /** Start another file of the same run (a measurement file, the reference); feed it and call its finish(). */
-  openFile(name: string, spec: FileSpec | undefined, role: FileRole): FileIngest {
-    return new FileIngest(this.run, name, { spec, mapping: this.options.mapping, role, mapName: this.options.mapName });
+  openFile(name: string, spec: FileSpec | undefined, role: FileRole, sizeHint?: number): FileIngest {
+    return new FileIngest(this.run, name, { spec, mapping: this.options.mapping, role, mapName: this.options.mapName, sizeHint });
   }
 
   /** Add diagnostics found outside the files' data (mapping file, missing files). */
@@ -329,7 +334,7 @@ export async function readRun(main: ByteSource, options: ReadOptions = {}): Prom
     early.push(...r.diagnostics);
   }
   early.push(...pre.run.diagnostics.snapshot());
-  const reader = new LogReader(main.name, { mapping, mapName, maxGapSteps: options.maxGapSteps });
+  const reader = new LogReader(main.name, { mapping, mapName, maxGapSteps: options.maxGapSteps, sizeHint: main.size });
   reader.addDiagnostics(early);
   if (mapName !== undefined) reader.noteFile(mapName);
   await pump(main, reader, reader, options, progress);
@@ -350,7 +355,7 @@ export async function readRun(main: ByteSource, options: ReadOptions = {}): Prom
     return src;
   };
   const readOther = async (src: ByteSource, spec: FileSpec | undefined, role: FileRole): Promise<void> => {
-    const ingest = reader.openFile(src.name, spec, role);
+    const ingest = reader.openFile(src.name, spec, role, src.size);
     await pump(src, ingest, reader, options, progress);
     ingest.finish();
   };
