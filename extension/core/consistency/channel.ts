@@ -65,108 +65,20 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
   const dd = dof * dof;
   const hasS = S !== undefined && S.length >= n * dd;
   const t = channel.t_s;
+  const rej = channel.rejected;
+  const idCol = channel.id;
+  const lineCol = channel.line;
   const ids = channel.ids;
   const nIds = ids.length;
 
   const gateValue = chi2Quantile(settings.gate, dof);
   const [lo95, hi95] = chi2Interval(0.95, dof);
 
-  // Per-id accumulators.
-  const idUpdates = new Float64Array(nIds);
-  const idRejected = new Float64Array(nIds);
-  const idCount = new Float64Array(nIds);
-  const idSum = new Float64Array(nIds);
-  const idInside = new Float64Array(nIds);
-  const idOutliers = new Float64Array(nIds);
-  const idNuSum = new Float64Array(nIds * dof);
-  const idNuCount = new Float64Array(nIds * dof);
-
-  // Compact arrays of the accepted updates with a finite NIS.
-  const tC = new Float64Array(n);
-  const nisC = new Float64Array(n);
-  const idxC = new Int32Array(n);
-  let m = 0;
-  // Compact innovations (all components finite) for whiteness: raw and normalized.
-  const nuW = new Float64Array(n * dof);
-  const zW = new Float64Array(n * dof);
-  let mW = 0;
-  // Welford per component.
-  const compCount = new Float64Array(dof);
-  const compMean = new Float64Array(dof);
-  const compM2 = new Float64Array(dof);
-
-  let rejected = 0;
-  let sum = 0;
-  let inside = 0;
-  let outliers = 0;
-  let fromLog = 0;
-  let missing = 0;
-  const outlierIdx: number[] = [];
-  const top = new TopK(Math.max(0, settings.maxWorst));
-
-  for (let i = 0; i < n; i++) {
-    const idv = channel.id[i];
-    const k = idv >= 0 && idv < nIds ? idv | 0 : -1;
-    if (k >= 0) idUpdates[k]++;
-    if (channel.rejected[i]) {
-      rejected++;
-      if (k >= 0) idRejected[k]++;
-      continue;
-    }
-    const v = nis[i];
-    if (Number.isFinite(v)) {
-      tC[m] = t[i];
-      nisC[m] = v;
-      idxC[m] = i;
-      m++;
-      sum += v;
-      const isInside = v >= lo95 && v <= hi95;
-      if (isInside) inside++;
-      const isOutlier = v > gateValue;
-      if (isOutlier) {
-        outliers++;
-        if (outlierIdx.length < MAX_OUTLIER_FINDINGS) outlierIdx.push(i);
-      }
-      if (k >= 0) {
-        idCount[k]++;
-        idSum[k] += v;
-        if (isInside) idInside[k]++;
-        if (isOutlier) idOutliers[k]++;
-      }
-      top.push(v, i);
-      if (source[i] === NIS_FROM_LOG || source[i] === NIS_BAD_COVARIANCE) fromLog++;
-    } else if (source[i] === NIS_MISSING || source[i] === NIS_BAD_COVARIANCE) {
-      missing++;
-    }
-    // Innovation components.
-    const o = i * dof;
-    let all = true;
-    for (let c = 0; c < dof; c++) {
-      const x = nu[o + c];
-      if (!Number.isFinite(x)) { all = false; continue; }
-      const cnt = ++compCount[c];
-      const d = x - compMean[c];
-      compMean[c] += d / cnt;
-      compM2[c] += d * (x - compMean[c]);
-      if (k >= 0) { idNuSum[k * dof + c] += x; idNuCount[k * dof + c]++; }
-    }
-    if (all) {
-      let normOk = true;
-      const w = mW * dof;
-      for (let c = 0; c < dof; c++) {
-        const x = nu[o + c];
-        nuW[w + c] = x;
-        if (hasS) {
-          const s = S[i * dd + c * dof + c];
-          if (!(s > 0) || !Number.isFinite(s)) { normOk = false; break; }
-          zW[w + c] = x / Math.sqrt(s);
-        } else {
-          zW[w + c] = x;
-        }
-      }
-      if (normOk) mW++;
-    }
-  }
+  const scan = scanNis(channel, nis, source, gateValue, lo95, hi95, settings.maxWorst);
+  const { m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
+  const { idUpdates, idRejected, idCount, idSum, idInside, idOutliers } = scan;
+  const inn = scanInnovations(channel, nu);
+  const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW } = inn;
 
   const accepted = n - rejected;
   const nisSummary: ChannelReport['nis'] = {
@@ -222,7 +134,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
     const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix);
     const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix);
     const lineW = new Float64Array(m);
-    for (let q = 0; q < m; q++) lineW[q] = channel.line[idxC[q]];
+    for (let q = 0; q < m; q++) lineW[q] = lineCol[idxC[q]];
     series.push({
       key: `nisWindow/${name}`, group: 'innovations', label: `${name} windowed NIS`, unit: '1',
       x: tV.slice(), y: slide.mean, line: lineW, lo: slide.lo, hi: slide.hi,
@@ -260,50 +172,19 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
     }
   }
 
+  // One copy of the time and line columns, shared by this channel's per-update series (never the log's own arrays).
+  const xAll = t.slice(0, n);
+  const lineAll = lineCol.slice(0, n);
+
   // NIS series with the per-update band.
-  {
-    const [bLo, bHi] = chi2Interval(settings.confidence, dof);
-    const y = new Float64Array(n);
-    for (let i = 0; i < n; i++) y[i] = channel.rejected[i] ? NaN : nis[i];
-    series.push({
-      key: `nis/${name}`, group: 'innovations', label: `${name} NIS`, unit: '1',
-      x: t.slice(0, n), y, line: channel.line.slice(0, n),
-      lo: new Float64Array(n).fill(bLo), hi: new Float64Array(n).fill(bHi),
-    });
-    if (rejected > 0) {
-      const xr = new Float64Array(rejected);
-      const yr = new Float64Array(rejected);
-      const lr = new Float64Array(rejected);
-      let q = 0;
-      for (let i = 0; i < n; i++) if (channel.rejected[i]) { xr[q] = t[i]; yr[q] = nis[i]; lr[q] = channel.line[i]; q++; }
-      series.push({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1', x: xr, y: yr, line: lr });
-    }
-  }
+  series.push(...nisSeries(channel, nis, rejected, settings.confidence, xAll, lineAll));
 
   // Innovations per component with +-z sqrt(S_cc).
   const z = twoSidedNormalQuantile(settings.confidence);
   let anyInnovation = false;
   for (let c = 0; c < dof; c++) if (compCount[c] > 0) anyInnovation = true;
   if (anyInnovation) {
-    for (let c = 0; c < dof; c++) {
-      const y = new Float64Array(n);
-      const lo = hasS ? new Float64Array(n) : undefined;
-      const hi = hasS ? new Float64Array(n) : undefined;
-      for (let i = 0; i < n; i++) {
-        y[i] = channel.rejected[i] ? NaN : nu[i * dof + c];
-        if (lo && hi && S) {
-          const s = S[i * dd + c * dof + c];
-          const half = s >= 0 ? z * Math.sqrt(s) : NaN;
-          lo[i] = -half;
-          hi[i] = half;
-        }
-      }
-      series.push({
-        key: `innovation/${name}/${c}`, group: 'innovations', label: `${name} innovation ${c}`,
-        unit: channel.angleComponents[c] ? 'rad' : '', x: t.slice(0, n), y, line: channel.line.slice(0, n),
-        ...(lo && hi ? { lo, hi } : {}),
-      });
-    }
+    for (let c = 0; c < dof; c++) series.push(innovationSeries(channel, nu, c, z, xAll, lineAll));
   }
 
   // Innovation mean, std and the bias t-test (Bonferroni over components).
@@ -449,6 +330,213 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
   }
 
   return { report: finiteJson(report) as unknown as ChannelReport, findings, series, worst, nis };
+}
+
+/** `nis/<ch>` (rejected updates NaN) with the per-update band, and `nisRejected/<ch>` when any were rejected. */
+function nisSeries(
+  channel: Channel, nis: Float64Array, rejected: number, confidence: number, x: Float64Array, line: Float64Array,
+): Series[] {
+  const { name, dof, length: n } = channel;
+  const rej = channel.rejected;
+  const band = chi2Interval(confidence, dof);
+  const y = new Float64Array(n);
+  for (let i = 0; i < n; i++) y[i] = rej[i] ? NaN : nis[i];
+  const out: Series[] = [{
+    key: `nis/${name}`, group: 'innovations', label: `${name} NIS`, unit: '1',
+    x, y, line, lo: new Float64Array(n).fill(band[0]), hi: new Float64Array(n).fill(band[1]),
+  }];
+  if (rejected > 0) {
+    const xr = new Float64Array(rejected);
+    const yr = new Float64Array(rejected);
+    const lr = new Float64Array(rejected);
+    let q = 0;
+    for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = x[i]; yr[q] = nis[i]; lr[q] = line[i]; q++; }
+    out.push({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1', x: xr, y: yr, line: lr });
+  }
+  return out;
+}
+
+/** `innovation/<ch>/<c>` (rejected updates NaN) with the band +-z sqrt(S_cc) when S is logged. */
+function innovationSeries(
+  channel: Channel, nu: Float64Array, c: number, z: number, x: Float64Array, line: Float64Array,
+): Series {
+  const { name, dof, length: n, S } = channel;
+  const rej = channel.rejected;
+  const dd = dof * dof;
+  const y = new Float64Array(n);
+  for (let i = 0, o = c; i < n; i++, o += dof) y[i] = rej[i] ? NaN : nu[o];
+  const s: Series = {
+    key: `innovation/${name}/${c}`, group: 'innovations', label: `${name} innovation ${c}`,
+    unit: channel.angleComponents[c] ? 'rad' : '', x, y, line,
+  };
+  if (S !== undefined && S.length >= n * dd) {
+    const lo = new Float64Array(n);
+    const hi = new Float64Array(n);
+    for (let i = 0, o = c * dof + c; i < n; i++, o += dd) {
+      const v = S[o];
+      const half = v >= 0 ? z * Math.sqrt(v) : NaN;
+      lo[i] = -half;
+      hi[i] = half;
+    }
+    s.lo = lo;
+    s.hi = hi;
+  }
+  return s;
+}
+
+/** What one pass over the NIS values gathers (accepted updates with a finite NIS, compacted). */
+interface NisScan {
+  m: number;
+  tC: Float64Array;
+  nisC: Float64Array;
+  idxC: Int32Array;
+  sum: number;
+  inside: number;
+  outliers: number;
+  outlierIdx: number[];
+  fromLog: number;
+  missing: number;
+  rejected: number;
+  top: TopK;
+  idUpdates: Float64Array;
+  idRejected: Float64Array;
+  idCount: Float64Array;
+  idSum: Float64Array;
+  idInside: Float64Array;
+  idOutliers: Float64Array;
+}
+
+/** One allocation-free pass over the NIS of a channel (kept small so the engine optimises it as a whole). */
+function scanNis(
+  channel: Channel, nis: Float64Array, source: Uint8Array, gateValue: number, lo95: number, hi95: number, maxWorst: number,
+): NisScan {
+  const n = channel.length;
+  const t = channel.t_s;
+  const rej = channel.rejected;
+  const idCol = channel.id;
+  const nIds = channel.ids.length;
+  const idUpdates = new Float64Array(nIds);
+  const idRejected = new Float64Array(nIds);
+  const idCount = new Float64Array(nIds);
+  const idSum = new Float64Array(nIds);
+  const idInside = new Float64Array(nIds);
+  const idOutliers = new Float64Array(nIds);
+  const tC = new Float64Array(n);
+  const nisC = new Float64Array(n);
+  const idxC = new Int32Array(n);
+  const top = new TopK(Math.max(0, maxWorst));
+  const outlierIdx: number[] = [];
+  let m = 0;
+  let rejected = 0;
+  let sum = 0;
+  let inside = 0;
+  let outliers = 0;
+  let fromLog = 0;
+  let missing = 0;
+  for (let i = 0; i < n; i++) {
+    const idv = idCol[i];
+    const k = idv >= 0 && idv < nIds ? idv | 0 : -1;
+    if (k >= 0) idUpdates[k]++;
+    if (rej[i]) {
+      rejected++;
+      if (k >= 0) idRejected[k]++;
+      continue;
+    }
+    const v = nis[i];
+    const from = source[i];
+    if (Number.isFinite(v)) {
+      tC[m] = t[i];
+      nisC[m] = v;
+      idxC[m] = i;
+      m++;
+      sum += v;
+      const isInside = v >= lo95 && v <= hi95;
+      if (isInside) inside++;
+      const isOutlier = v > gateValue;
+      if (isOutlier) {
+        outliers++;
+        if (outlierIdx.length < MAX_OUTLIER_FINDINGS) outlierIdx.push(i);
+      }
+      if (k >= 0) {
+        idCount[k]++;
+        idSum[k] += v;
+        if (isInside) idInside[k]++;
+        if (isOutlier) idOutliers[k]++;
+      }
+      top.push(v, i);
+      if (from === NIS_FROM_LOG || from === NIS_BAD_COVARIANCE) fromLog++;
+    } else if (from === NIS_MISSING || from === NIS_BAD_COVARIANCE) {
+      missing++;
+    }
+  }
+  return {
+    m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
+    idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
+  };
+}
+
+/** What one pass over the innovations gathers. */
+interface InnovationScan {
+  /** Welford count, mean and sum of squared deviations per component. */
+  compCount: Float64Array;
+  compMean: Float64Array;
+  compM2: Float64Array;
+  idNuSum: Float64Array;
+  idNuCount: Float64Array;
+  /** Accepted updates with every component (and S_cc) finite: raw and normalized innovations, compacted. */
+  nuW: Float64Array;
+  zW: Float64Array;
+  mW: number;
+}
+
+/** One allocation-free pass over the (angle-wrapped) innovations of the accepted updates. */
+function scanInnovations(channel: Channel, nu: Float64Array): InnovationScan {
+  const { dof, length: n, S } = channel;
+  const dd = dof * dof;
+  const hasS = S !== undefined && S.length >= n * dd;
+  const rej = channel.rejected;
+  const idCol = channel.id;
+  const nIds = channel.ids.length;
+  const compCount = new Float64Array(dof);
+  const compMean = new Float64Array(dof);
+  const compM2 = new Float64Array(dof);
+  const idNuSum = new Float64Array(nIds * dof);
+  const idNuCount = new Float64Array(nIds * dof);
+  const nuW = new Float64Array(n * dof);
+  const zW = new Float64Array(n * dof);
+  let mW = 0;
+  for (let i = 0; i < n; i++) {
+    if (rej[i]) continue;
+    const idv = idCol[i];
+    const k = idv >= 0 && idv < nIds ? idv | 0 : -1;
+    const o = i * dof;
+    let all = true;
+    for (let c = 0; c < dof; c++) {
+      const x = nu[o + c];
+      if (!Number.isFinite(x)) { all = false; continue; }
+      const cnt = ++compCount[c];
+      const d = x - compMean[c];
+      compMean[c] += d / cnt;
+      compM2[c] += d * (x - compMean[c]);
+      if (k >= 0) { idNuSum[k * dof + c] += x; idNuCount[k * dof + c]++; }
+    }
+    if (!all) continue;
+    let normOk = true;
+    const w = mW * dof;
+    for (let c = 0; c < dof; c++) {
+      const x = nu[o + c];
+      nuW[w + c] = x;
+      if (hasS) {
+        const s = S[i * dd + c * dof + c];
+        if (!(s > 0) || !Number.isFinite(s)) { normOk = false; break; }
+        zW[w + c] = x / Math.sqrt(s);
+      } else {
+        zW[w + c] = x;
+      }
+    }
+    if (normOk) mW++;
+  }
+  return { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW };
 }
 
 function idOf(channel: Channel, i: number): string | undefined {

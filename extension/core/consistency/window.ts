@@ -28,7 +28,7 @@ export interface SlidingAverage {
   mean: Float64Array;
   /** Number of updates in that window. */
   count: Float64Array;
-  /** Band at `confidence` for that count: chi2(count * dof) / count. */
+  /** Band at `confidence` for that count: chi2(count * dof) / count (NaN for the short windows at the start). */
   lo: Float64Array;
   hi: Float64Array;
   /** Windows that span the full window size (the first ones are shorter). */
@@ -61,18 +61,33 @@ export interface WindowTest {
   runs: InconsistentRun[];
 }
 
-/** Memoised two-sided bounds of an average of `count` chi-square(dof) values at one confidence. */
-function boundsCache(confidence: number, dof: number): (count: number) => [number, number] {
-  const cache = new Map<number, [number, number]>();
-  return (count: number): [number, number] => {
-    let b = cache.get(count);
-    if (!b) {
-      const [lo, hi] = chi2Interval(confidence, dof * count);
-      b = [lo / count, hi / count];
-      cache.set(count, b);
+/**
+ * Memoised two-sided bounds of an average of `count` chi-square(dof) values at one confidence, in typed arrays
+ * indexed by count (no allocation or hashing per lookup in the hot loops; a quantile costs tens of microseconds).
+ */
+class BoundsCache {
+  private lo = new Float64Array(0);
+  private hi = new Float64Array(0);
+  constructor(private readonly confidence: number, private readonly dof: number) {}
+  /** Make sure `count` is cached; then read `lower(count)` and `upper(count)`. */
+  ensure(count: number): void {
+    if (count >= this.lo.length) {
+      const size = Math.max(count + 1, this.lo.length * 2, 16);
+      const lo = new Float64Array(size).fill(NaN);
+      const hi = new Float64Array(size).fill(NaN);
+      lo.set(this.lo);
+      hi.set(this.hi);
+      this.lo = lo;
+      this.hi = hi;
     }
-    return b;
-  };
+    if (Number.isNaN(this.lo[count])) {
+      const b = chi2Interval(this.confidence, this.dof * count);
+      this.lo[count] = b[0] / count;
+      this.hi[count] = b[1] / count;
+    }
+  }
+  lower(count: number): number { return this.lo[count]; }
+  upper(count: number): number { return this.hi[count]; }
 }
 
 /** Prefix sums P[i] = sum of values[0..i). */
@@ -92,35 +107,38 @@ export function slidingAverage(
 ): SlidingAverage {
   const mean = new Float64Array(n);
   const count = new Float64Array(n);
-  const lo = new Float64Array(n);
-  const hi = new Float64Array(n);
-  const band = boundsCache(confidence, dof);
-  const band95 = confidence === 0.95 ? band : boundsCache(0.95, dof);
+  const lo = new Float64Array(n).fill(NaN);
+  const hi = new Float64Array(n).fill(NaN);
+  const band = new BoundsCache(confidence, dof);
+  const band95 = confidence === 0.95 ? band : new BoundsCache(0.95, dof);
+  const byUpdates = spec.kind === 'updates';
+  const size = spec.size;
   let full = 0;
   let fullInside95 = 0;
   let j = 0;
   const t0 = n > 0 ? t_s[0] : 0;
   for (let i = 0; i < n; i++) {
     let isFull: boolean;
-    if (spec.kind === 'updates') {
-      j = Math.max(0, i - spec.size + 1);
-      isFull = i + 1 >= spec.size;
+    if (byUpdates) {
+      j = Math.max(0, i - size + 1);
+      isFull = i + 1 >= size;
     } else {
-      const start = t_s[i] - spec.size;
+      const start = t_s[i] - size;
       while (j < i && t_s[j] <= start) j++;
-      isFull = t_s[i] - t0 >= spec.size;
+      isFull = t_s[i] - t0 >= size;
     }
     const k = i - j + 1;
     const m = (prefix[i + 1] - prefix[j]) / k;
     mean[i] = m;
     count[i] = k;
-    const [a, b] = band(k);
-    lo[i] = a;
-    hi[i] = b;
+    // Bands only for full windows: the short windows at the start would each need their own quantiles.
     if (isFull) {
+      band.ensure(k);
+      lo[i] = band.lower(k);
+      hi[i] = band.upper(k);
       full++;
-      const [a95, b95] = band95(k);
-      if (m >= a95 && m <= b95) fullInside95++;
+      if (band95 !== band) band95.ensure(k);
+      if (m >= band95.lower(k) && m <= band95.upper(k)) fullInside95++;
     }
   }
   return { mean, count, lo, hi, full, fullInside95 };
@@ -173,7 +191,7 @@ export function windowTest(
   }
   const tests = starts.length;
   const alphaPerTest = tests > 0 ? familyAlpha / tests : familyAlpha;
-  const bounds = boundsCache(1 - alphaPerTest, dof);
+  const bounds = new BoundsCache(1 - alphaPerTest, dof);
   const runs: InconsistentRun[] = [];
   let open: InconsistentRun | undefined;
   for (let wi = 0; wi < tests; wi++) {
@@ -181,7 +199,9 @@ export function windowTest(
     const b = ends[wi];
     const k = b - a;
     const m = (prefix[b] - prefix[a]) / k;
-    const [lo, hi] = bounds(k);
+    bounds.ensure(k);
+    const lo = bounds.lower(k);
+    const hi = bounds.upper(k);
     const side = m > hi ? 'overconfident' : m < lo ? 'pessimistic' : undefined;
     if (!side) { open = undefined; continue; }
     const bound = side === 'overconfident' ? hi : lo;

@@ -9,7 +9,7 @@
  *   rho(j) = sum_k nu(k)^T nu(k+j) / sqrt(sum_k |nu(k)|^2 sum_k |nu(k+j)|^2), not mean-removed, approximately
  *   N(0, 1/K) for K pairs under whiteness (Bar-Shalom, Li and Kirubarajan 2001, sec. 5.4).
  *
- * All are O(n * lags) with no allocation beyond the output: bounded lag counts, never O(n^2).
+ * All are O(n * lags) with one scratch array of n values: bounded lag counts, never O(n^2).
  */
 import { chi2Quantile, chi2Sf } from './chi2';
 
@@ -21,12 +21,13 @@ export function autocorrelation(x: ArrayLike<number>, n: number, maxLag: number,
   let mean = 0;
   for (let t = 0; t < n; t++) mean += x[t];
   mean /= n;
+  const d = new Float64Array(n);
   let c0 = 0;
-  for (let t = 0; t < n; t++) { const d = x[t] - mean; c0 += d * d; }
+  for (let t = 0; t < n; t++) { const v = x[t] - mean; d[t] = v; c0 += v * v; }
   for (let k = 1; k <= maxLag; k++) {
     if (k >= n || !(c0 > 0)) { out[k - 1] = NaN; continue; }
     let s = 0;
-    for (let t = 0; t + k < n; t++) s += (x[t] - mean) * (x[t + k] - mean);
+    for (let t = 0; t + k < n; t++) s += d[t] * d[t + k];
     out[k - 1] = s / c0;
   }
   return out;
@@ -67,20 +68,21 @@ export function boxPierce(r: ArrayLike<number>, n: number, m: number, fittedPara
 export function normalizedAutocorrelation(
   nu: ArrayLike<number>, dof: number, count: number, maxLag: number, out = new Float64Array(maxLag),
 ): Float64Array {
+  // Energies |nu(k)|^2 and their prefix sums, so each lag costs one pass of dot products.
+  const energy = new Float64Array(count + 1);
+  for (let k = 0; k < count; k++) {
+    let e = 0;
+    for (let c = 0; c < dof; c++) e += nu[k * dof + c] * nu[k * dof + c];
+    energy[k + 1] = energy[k] + e;
+  }
   for (let j = 1; j <= maxLag; j++) {
     if (j >= count) { out[j - 1] = NaN; continue; }
     let cross = 0;
-    let head = 0;
-    let tail = 0;
-    for (let k = 0; k + j < count; k++) {
-      const a = k * dof;
-      const b = (k + j) * dof;
-      for (let c = 0; c < dof; c++) {
-        cross += nu[a + c] * nu[b + c];
-        head += nu[a + c] * nu[a + c];
-        tail += nu[b + c] * nu[b + c];
-      }
-    }
+    const end = (count - j) * dof;
+    const shift = j * dof;
+    for (let a = 0; a < end; a++) cross += nu[a] * nu[a + shift];
+    const head = energy[count - j];
+    const tail = energy[count] - energy[j];
     const den = Math.sqrt(head * tail);
     out[j - 1] = den > 0 ? cross / den : NaN;
   }
