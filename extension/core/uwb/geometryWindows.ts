@@ -44,20 +44,23 @@ export interface GeometryInterval {
 /** Result of {@link geometryWindows}. */
 export interface GeometryWindowsResult {
   window_s: number;
+  /** Series abscissa: centres of the windows holding events, plus one point inside each run of empty windows. */
   center_s: Float64Array;
+  /** Anchors with a position heard, per series point. */
   heard: Float64Array;
+  /** PDOP per series point (NaN where undefined or empty). */
   dop: Float64Array;
+  /** State code per window holding events (WINDOW_*). */
   state: Uint8Array;
   summary: { windows: number; median?: number; max?: number; undefined: number; tooFewAnchors: number; singular: number; aboveThreshold: number; noPosition: number };
   intervals: GeometryInterval[];
 }
 
-/** Most windows: beyond it the window is widened so that a long log keeps a bounded cost. */
-const MAX_WINDOWS = 2_000_000;
-
 /**
  * DOP per window. `positionAt` gives positions at the window centres (NaN where unknown); `maxDop` is the
- * high-dop threshold.
+ * high-dop threshold. Only windows holding at least one event are evaluated; the empty windows between them are
+ * counted as too-few-anchors windows (0 anchors heard) without being materialised, so a stray time stamp far from
+ * the rest cannot blow up the cost. The series carry one NaN point inside each run of empty windows.
  */
 export function geometryWindows(
   events: readonly LinkEvents[],
@@ -69,37 +72,35 @@ export function geometryWindows(
   maxDop: number,
 ): GeometryWindowsResult | undefined {
   let t0 = Infinity;
-  let t1 = -Infinity;
   for (const e of events) {
     for (let k = 0; k < e.length; k++) {
       const t = e.t_s[k];
-      if (!Number.isFinite(t) || e.link[k] < 0) continue;
-      if (t < t0) t0 = t;
-      if (t > t1) t1 = t;
+      if (Number.isFinite(t) && e.link[k] >= 0 && t < t0) t0 = t;
     }
   }
-  if (!(t1 >= t0)) return undefined;
-  let w = window_s > 0 ? window_s : 1;
-  if ((t1 - t0) / w + 1 > MAX_WINDOWS) w = (t1 - t0) / (MAX_WINDOWS - 1);
-  const nb = Math.floor((t1 - t0) / w) + 1;
+  if (!Number.isFinite(t0)) return undefined;
+  const w = window_s > 0 ? window_s : 1;
   const nA = positions.length;
   const words = Math.max(1, Math.ceil(nA / 32));
-  const bits = new Uint32Array(nb * words);
-  const mark = (bin: number, a: number): void => {
-    if (a >= 0) bits[bin * words + (a >>> 5)] |= 1 << (a & 31);
-  };
+  const occupied = new Map<number, Uint32Array>();
   for (const e of events) {
     for (let k = 0; k < e.length; k++) {
       const L = e.link[k];
       const t = e.t_s[k];
       if (L < 0 || !Number.isFinite(t)) continue;
-      const bin = Math.min(nb - 1, Math.floor((t - t0) / w));
-      mark(bin, links.a[L]);
-      mark(bin, links.b[L]);
+      const bin = Math.floor((t - t0) / w);
+      let bits = occupied.get(bin);
+      if (!bits) {
+        bits = new Uint32Array(words);
+        occupied.set(bin, bits);
+      }
+      for (const a of [links.a[L], links.b[L]]) if (a >= 0) bits[a >>> 5] |= 1 << (a & 31);
     }
   }
+  const bins = [...occupied.keys()].sort((x, y) => x - y);
+  const nb = bins.length;
   const center = new Float64Array(nb);
-  for (let b = 0; b < nb; b++) center[b] = t0 + (b + 0.5) * w;
+  for (let k = 0; k < nb; k++) center[k] = t0 + (bins[k] + 0.5) * w;
   const pos = positionAt(center);
   const heard = new Float64Array(nb);
   const dop = new Float64Array(nb).fill(NaN);
@@ -110,40 +111,45 @@ export function geometryWindows(
   let singular = 0;
   let noPosition = 0;
   let above = 0;
-  for (let b = 0; b < nb; b++) {
+  for (let k = 0; k < nb; k++) {
+    const bits = occupied.get(bins[k]) as Uint32Array;
     const seen: Vec3_m[] = [];
     for (let a = 0; a < nA; a++) {
-      if (bits[b * words + (a >>> 5)] & (1 << (a & 31))) {
+      if (bits[a >>> 5] & (1 << (a & 31))) {
         const p = positions[a];
         if (p) seen.push(p);
       }
     }
-    heard[b] = seen.length;
-    const p: Vec3_m = [pos.x[b], pos.y[b], pos.z[b]];
+    heard[k] = seen.length;
+    const p: Vec3_m = [pos.x[k], pos.y[k], pos.z[k]];
     if (seen.length < need) {
-      state[b] = WINDOW_TOO_FEW;
+      state[k] = WINDOW_TOO_FEW;
       tooFew++;
       continue;
     }
     if (!p.every(Number.isFinite)) {
-      state[b] = WINDOW_NO_POSITION;
+      state[k] = WINDOW_NO_POSITION;
       noPosition++;
       continue;
     }
     const d = model === 'tdoa' ? tdoaDop(seen, p) : rangeDop(seen, p);
     if (!d) {
-      state[b] = WINDOW_SINGULAR;
+      state[k] = WINDOW_SINGULAR;
       singular++;
       continue;
     }
-    dop[b] = d.pdop;
+    dop[k] = d.pdop;
     values.push(d.pdop);
     if (d.pdop > maxDop) above++;
   }
+  // Empty windows between occupied ones: 0 anchors heard.
+  let empty = 0;
+  for (let k = 1; k < nb; k++) empty += bins[k] - bins[k - 1] - 1;
+  tooFew += empty;
   values.sort((x, y) => x - y);
   const n = values.length;
   const summary: GeometryWindowsResult['summary'] = {
-    windows: nb,
+    windows: nb + empty,
     undefined: tooFew + singular,
     tooFewAnchors: tooFew,
     singular,
@@ -154,25 +160,46 @@ export function geometryWindows(
     summary.median = n % 2 ? values[(n - 1) / 2] : 0.5 * (values[n / 2 - 1] + values[n / 2]);
     summary.max = values[n - 1];
   }
-  // Merge consecutive windows into intervals: too few anchors; DOP above the threshold or singular.
+  // Merge consecutive windows (occupied, and the empty runs between them) into intervals.
   const intervals: GeometryInterval[] = [];
   let open: GeometryInterval | undefined;
-  for (let b = 0; b < nb; b++) {
-    const kind: GeometryInterval['kind'] | undefined =
-      state[b] === WINDOW_TOO_FEW ? 'too-few-anchors' : state[b] === WINDOW_SINGULAR || (state[b] === WINDOW_OK && dop[b] > maxDop) ? 'high-dop' : undefined;
+  const visit = (kind: GeometryInterval['kind'] | undefined, tStart: number, tEnd: number, heardHere: number, dopHere: number, isSingular: boolean): void => {
     if (open && open.kind !== kind) {
       intervals.push(open);
       open = undefined;
     }
-    if (!kind) continue;
-    const tStart = t0 + b * w;
-    const tEnd = Math.min(t1, t0 + (b + 1) * w);
-    if (!open) open = { kind, t_s: Math.max(t0, tStart), tEnd_s: tEnd, minHeard: heard[b], singular: 0 };
+    if (!kind) return;
+    if (!open) open = { kind, t_s: tStart, tEnd_s: tEnd, minHeard: heardHere, singular: 0 };
     open.tEnd_s = tEnd;
-    open.minHeard = Math.min(open.minHeard, heard[b]);
-    if (state[b] === WINDOW_SINGULAR) open.singular++;
-    else if (Number.isFinite(dop[b])) open.maxDop = Math.max(open.maxDop ?? 0, dop[b]);
+    open.minHeard = Math.min(open.minHeard, heardHere);
+    if (isSingular) open.singular++;
+    else if (Number.isFinite(dopHere)) open.maxDop = Math.max(open.maxDop ?? 0, dopHere);
+  };
+  const seriesX: number[] = [];
+  const seriesDop: number[] = [];
+  const seriesHeard: number[] = [];
+  for (let k = 0; k < nb; k++) {
+    if (k > 0 && bins[k] - bins[k - 1] > 1) {
+      visit('too-few-anchors', t0 + (bins[k - 1] + 1) * w, t0 + bins[k] * w, 0, NaN, false);
+      seriesX.push(t0 + 0.5 * (bins[k - 1] + 1 + bins[k]) * w);
+      seriesDop.push(NaN);
+      seriesHeard.push(0);
+    }
+    const kind: GeometryInterval['kind'] | undefined =
+      state[k] === WINDOW_TOO_FEW ? 'too-few-anchors' : state[k] === WINDOW_SINGULAR || (state[k] === WINDOW_OK && dop[k] > maxDop) ? 'high-dop' : undefined;
+    visit(kind, t0 + bins[k] * w, t0 + (bins[k] + 1) * w, heard[k], dop[k], state[k] === WINDOW_SINGULAR);
+    seriesX.push(center[k]);
+    seriesDop.push(dop[k]);
+    seriesHeard.push(heard[k]);
   }
   if (open) intervals.push(open);
-  return { window_s: w, center_s: center, heard, dop, state, summary, intervals };
+  return {
+    window_s: w,
+    center_s: Float64Array.from(seriesX),
+    heard: Float64Array.from(seriesHeard),
+    dop: Float64Array.from(seriesDop),
+    state,
+    summary,
+    intervals,
+  };
 }

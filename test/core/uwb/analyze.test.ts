@@ -138,6 +138,22 @@ describe('geometry', () => {
     expect(out.block!.dop.tooFewAnchors).toBe(5);
     expect(out.block!.dop.undefined).toBe(5);
   });
+  it('a 5 s silence of every anchor is one too-few-anchors finding over the gap, and the DOP series breaks there', () => {
+    const log = simulateUwb({ seed: 6, duration_s: 60 });
+    const t = log.channels[0].t_s; // shared with the raw TDOA stream
+    for (let k = 0; k < log.channels[0].length; k++) if (t[k] >= 40 && t[k] < 45) t[k] = NaN;
+    const out = analyzeUwb(log, DEFAULT_SETTINGS);
+    const f = out.findings.filter((x) => x.kind === 'too-few-anchors');
+    expect(f.length).toBe(1);
+    expect(f[0].t!).toBeGreaterThanOrEqual(39.9);
+    expect(f[0].t!).toBeLessThanOrEqual(40.1);
+    expect(f[0].tEnd!).toBeGreaterThanOrEqual(44.9);
+    expect(f[0].tEnd!).toBeLessThanOrEqual(45.1);
+    expect(out.block!.dop.tooFewAnchors).toBe(5);
+    const dop = out.series.find((s) => s.key === 'uwb/dop')!;
+    const inGap = Array.from(dop.x).findIndex((x) => x > 40 && x < 45);
+    expect(Number.isNaN(dop.y[inGap])).toBe(true);
+  });
   it('the DOP series equals the TOA-with-offset PDOP of the heard anchors at the estimate', () => {
     const log = simulateUwb({ seed: 9 });
     const out = analyzeUwb(log, DEFAULT_SETTINGS);
