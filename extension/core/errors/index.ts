@@ -471,7 +471,15 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
   }
   if (track.joint) {
     const s = neesSummary(track.joint.nees, track.joint.dof, settings.confidence, w0, w1);
-    if (s.count > 0) block.joint = { ...s, states: track.joint.states };
+    if (s.count > 0) {
+      block.joint = { ...s, states: track.joint.states };
+      const x = t_s.slice(w0, w1);
+      series.push({
+        key: 'nees/joint', group: 'errors', label: `joint NEES (${track.joint.dof} dof: ${track.joint.states.join(' ')})`,
+        unit: '1', x, y: track.joint.nees.slice(w0, w1), line: track.line.slice(w0, w1),
+        lo: new Float64Array(x.length).fill(s.bounds95[0]), hi: new Float64Array(x.length).fill(s.bounds95[1]),
+      });
+    }
   }
 
   // segments and convergence

@@ -165,6 +165,7 @@ describe('lever arm and full covariance', () => {
       meanPos += (multiply(ep, multiply(Ppos, ep)) as unknown as number) / N;
     }
     expect(b?.joint?.dof).toBe(6);
+    expect(analyzeErrors(navLog(s), resolveSettings({})).series.some((x) => x.key === 'nees/joint')).toBe(true);
     expect(b?.joint?.mean).toBeCloseTo(mean, 9);
     expect(b?.position?.nees?.mean).toBeCloseTo(meanPos, 9);
     expect(b?.within3Sigma.position?.length).toBe(3);
