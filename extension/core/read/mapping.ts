@@ -104,7 +104,13 @@ function validate(value: JsonValue): ErrorObject[] {
 
 /** Keep the most useful ajv errors: drop `oneOf` wrappers when a branch error explains more. */
 function usefulErrors(errors: ErrorObject[]): ErrorObject[] {
-  const specific = errors.filter((e) => e.keyword !== 'oneOf' && e.keyword !== 'if');
+  let specific = errors.filter((e) => e.keyword !== 'oneOf' && e.keyword !== 'if');
+  // A value that fails every branch of a oneOf gets one error per branch; when a branch of the right type failed
+  // deeper or on a keyword other than type, the other branches' "must be <type>" errors only confuse.
+  specific = specific.filter((e) => !(e.keyword === 'type' && e.schemaPath.includes('/oneOf/')
+    && specific.some((o) => o !== e && o.keyword !== 'type' && o.instancePath.startsWith(e.instancePath))));
+  specific = specific.filter((e) => !(e.keyword === 'const' && e.schemaPath.includes('/oneOf/')
+    && specific.some((o) => o !== e && o.instancePath === e.instancePath && o.keyword !== 'const')));
   return specific.length > 0 ? specific : errors;
 }
 
