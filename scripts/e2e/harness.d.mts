@@ -59,6 +59,8 @@ export declare function launchBrowser(chromium: string): Promise<{ context: Brow
 export declare function openWorkbench(page: Page, workbenchUrl: string): Promise<void>;
 /** Runs a command from the palette by its title, with retries. */
 export declare function runCommand(page: Page, title: string, opts?: { attempts?: number }): Promise<void>;
+/** Switches the colour theme through the palette. */
+export declare function pickColorTheme(page: Page, themeLabel: string): Promise<void>;
 /** The panel's inner document. */
 export declare function webviewFrame(page: Page): FrameLocator;
 /** Waits for and parses the in-host self test result. */

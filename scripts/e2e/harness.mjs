@@ -281,6 +281,34 @@ export async function runCommand(page, title, { attempts = 6 } = {}) {
 }
 
 /**
+ * Switches the colour theme through the palette ("Preferences: Color Theme"), as a user would.
+ * @param {import('playwright-core').Page} page
+ * @param {string} themeLabel  e.g. THEMES.dark
+ */
+export async function pickColorTheme(page, themeLabel) {
+  let lastError;
+  for (let i = 0; i < 4; i++) {
+    try {
+      await runCommand(page, 'Preferences: Color Theme');
+      const widget = page.locator('.quick-input-widget');
+      const input = widget.locator('input.input');
+      await input.waitFor({ state: 'visible', timeout: 5000 });
+      await input.fill(themeLabel);
+      const row = widget.locator('.monaco-list-row').filter({ hasText: themeLabel }).first();
+      await row.waitFor({ state: 'visible', timeout: 5000 });
+      await row.click();
+      await widget.waitFor({ state: 'hidden', timeout: 5000 });
+      return;
+    } catch (e) {
+      lastError = e;
+      await page.keyboard.press('Escape').catch(() => undefined);
+      await page.waitForTimeout(1000);
+    }
+  }
+  throw new Error(`could not pick the colour theme "${themeLabel}": ${lastError?.message ?? lastError}`);
+}
+
+/**
  * The Residuum panel's document: the webview is an iframe inside an iframe.
  * @param {import('playwright-core').Page} page
  */
