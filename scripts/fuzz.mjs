@@ -17,6 +17,10 @@ let status = 0;
 if (!args.includes('--growth-only')) {
   const r = spawnSync(process.execPath, [harness, ...args.filter((a) => !a.startsWith('--growth') && a !== '--no-growth')], { stdio: 'inherit' });
   status = r.status ?? 2;
+  if (r.status !== 0 && r.status !== 1) {
+    process.stdout.write(`\nThe fuzz process died (${r.signal ?? `exit ${r.status}`}): a fatal error no property can catch. ` +
+      'The input being read is in bench-output/fuzz-last-case.bin (its name and mapping text in fuzz-last-case.json).\n');
+  }
 }
 
 if (!args.includes('--no-growth')) {

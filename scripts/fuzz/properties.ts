@@ -241,10 +241,26 @@ const chunking = fc.oneof(fc.constant<number[]>([]), fc.array(fc.integer({ min: 
 
 // ---------------------------------------------------------------------------------------------- properties
 
+/** Observer of every read (the fuzz script records the case before it runs, so a fatal crash leaves it on disk). */
+export interface CaseRecorder {
+  before(name: string, bytes: Uint8Array, mapText?: string): void;
+  after(name: string, bytes: Uint8Array, seconds: number): void;
+}
+
+let recorder: CaseRecorder | undefined;
+
+/** Install (or remove) the case recorder. */
+export function setCaseRecorder(r: CaseRecorder | undefined): void {
+  recorder = r;
+}
+
 async function readChecked(name: string, bytes: Uint8Array, chunks: number[], map?: { text: string; name: string }): Promise<NavLog> {
   let log: NavLog;
   try {
+    recorder?.before(name, bytes, map?.text);
+    const t0 = performance.now();
     log = await readRun(byteSource(name, bytes, chunks), map ? { map } : {});
+    recorder?.after(name, bytes, (performance.now() - t0) / 1000);
   } catch (e) {
     throw new Error(`readRun threw on ${name}: ${(e as Error).stack ?? String(e)}`);
   }

@@ -219,6 +219,13 @@ describe('bad-log corpus: what each file must give', () => {
     expect(log.diagnostics.some((d) => d.kind === 'time-backwards' && d.line === 4)).toBe(true);
   });
 
+  it('huge-component-index.csv: an absurd component index does not make a 301-component channel; line 1 says why', async () => {
+    const log = await read('huge-component-index.csv');
+    expect(log.channels.every((c) => c.dof <= 100)).toBe(true);
+    expect(log.diagnostics.some((d) => d.line === 1 && /300/.test(d.message))).toBe(true);
+    expect(col(log, 'p_x')).toEqual([1, 1.1]);
+  });
+
   it('decimal-comma.csv: semicolon-separated decimal commas read as numbers, or each named', async () => {
     const log = await read('decimal-comma.csv');
     const ok = col(log, 'p_x').join() === '1.5,1.6';
