@@ -1,8 +1,10 @@
 import { describe, expect, it } from 'vitest';
-import { analyzeChannels } from '../../../extension/core/consistency/index';
+import {
+  analyzeChannels, averageAcrossRuns, monteCarloInsideShare, monteCarloNisBounds,
+} from '../../../extension/core/consistency/index';
 import { resolveSettings } from '../../../extension/core/settings';
 import { chi2MeanInterval } from '../../../extension/core/stats/chi2';
-import { makeLog } from './makeLog';
+import { makeChannel, makeLog } from './makeLog';
 import { simulateChannel } from './simulate';
 
 const settings = resolveSettings();
@@ -91,13 +93,18 @@ describe('family-wise false-finding rate over many consistent runs', () => {
     // 200 consistent runs of 60 s at 10 Hz. If the true rate were exactly 1%, the count of runs with a false
     // `inconsistent` finding is Binomial(200, 0.01): mean 2, P(X >= 7) = 0.0045. So more than 6 means the
     // correction does not hold; with the Bonferroni bound the expected count is below 2.
-    let flagged = 0;
+    // The same bound holds for the other family-corrected findings, `not-white` and `innovation-bias`.
+    const flagged = { inconsistent: 0, 'not-white': 0, 'innovation-bias': 0 };
     for (let seed = 1000; seed < 1200; seed++) {
-      const ch = simulateChannel({ seed, duration_s: 60, rate_hz: 10 });
+      const ch = simulateChannel({ seed, duration_s: 60, rate_hz: 10, dof: seed % 2 === 0 ? 1 : 2 });
       const out = analyzeChannels(makeLog([ch]), settings);
-      if (out.findings.some((f) => f.kind === 'inconsistent')) flagged++;
+      for (const kind of Object.keys(flagged) as (keyof typeof flagged)[]) {
+        if (out.findings.some((f) => f.kind === kind)) flagged[kind]++;
+      }
     }
-    expect(flagged).toBeLessThanOrEqual(6);
+    expect(flagged.inconsistent).toBeLessThanOrEqual(6);
+    expect(flagged['not-white']).toBeLessThanOrEqual(6);
+    expect(flagged['innovation-bias']).toBeLessThanOrEqual(6);
   });
 
   it('the correction is calibrated, not vacuous: familyAlpha 0.2 flags about 20% of consistent runs', () => {
@@ -146,6 +153,32 @@ describe('whiteness and bias (constructed)', () => {
     const mean = out.block?.[0].innovationMean ?? [];
     expect(mean.length).toBe(2);
     expect(Math.abs(mean[0] ?? 1)).toBeLessThan(0.1);
+  });
+});
+
+describe('angle components and Monte Carlo helpers', () => {
+  it('an angle innovation near +-pi is wrapped in the NIS and in the innovation series', () => {
+    // Constructed: heading innovations that cross pi; wrapped they are +-0.1 rad with S = 0.01 (NIS 1 each).
+    const ch = makeChannel({
+      name: 'yaw', t_s: [0, 1, 2], nu: [2 * Math.PI - 0.1, -2 * Math.PI + 0.1, 0.1], S: [0.01, 0.01, 0.01],
+      angleComponents: [true],
+    });
+    const out = analyzeChannels(makeLog([ch]), settings);
+    expect(Array.from(out.nisByChannel.get('yaw') ?? []).map((v) => Math.round(v * 1e9) / 1e9)).toEqual([1, 1, 1]);
+    const inn = out.series.find((s) => s.key === 'innovation/yaw/0');
+    expect(inn?.unit).toBe('rad');
+    expect(inn?.y[0]).toBeCloseTo(-0.1, 12);
+    expect(inn?.y[1]).toBeCloseTo(0.1, 12);
+  });
+
+  it('N-run average bounds are chi2(N n)/N and the inside share counts steps', () => {
+    // Source: reference-checks.md sec 2.2, average NIS n_z 1, N 50: [0.6471, 1.4284], tol 1e-4.
+    const [lo, hi] = monteCarloNisBounds(0.95, 1, 50);
+    expect(Math.abs(lo - 0.6471)).toBeLessThanOrEqual(1e-4);
+    expect(Math.abs(hi - 1.4284)).toBeLessThanOrEqual(1e-4);
+    const avg = averageAcrossRuns([Float64Array.of(1, 2, NaN, 0.2), Float64Array.of(1, 2, 1)]);
+    expect(Array.from(avg)).toEqual([1, 2, NaN]);
+    expect(monteCarloInsideShare(avg, [0.6, 1.5])).toBeCloseTo(0.5, 15);
   });
 });
 
