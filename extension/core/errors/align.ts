@@ -22,15 +22,16 @@ export const ALIGN_IN_GAP = 2;
 
 /** Median of the positive steps of an ascending time column (NaN with fewer than two samples). */
 export function medianStep(t_s: Float64Array, length: number): number {
-  const steps: number[] = [];
+  const steps = new Float64Array(Math.max(0, length - 1));
+  let n = 0;
   for (let i = 1; i < length; i++) {
     const d = t_s[i] - t_s[i - 1];
-    if (d > 0 && Number.isFinite(d)) steps.push(d);
+    if (d > 0 && Number.isFinite(d)) steps[n++] = d;
   }
-  if (steps.length === 0) return NaN;
-  steps.sort((a, b) => a - b);
-  const m = steps.length >> 1;
-  return steps.length % 2 ? steps[m] : (steps[m - 1] + steps[m]) / 2;
+  if (n === 0) return NaN;
+  const s = steps.subarray(0, n).sort();
+  const m = n >> 1;
+  return n % 2 ? s[m] : (s[m - 1] + s[m]) / 2;
 }
 
 /** Per-epoch bracket of a reference: rows `left`/`right` and fraction `f` in [0, 1], or a status. */

@@ -30,6 +30,9 @@ import { chi2Cdf, chi2Interval, chi2Quantile, chi2Sf } from '../stats/chi2';
 /** Largest autocorrelation lag used for the effective sample size. */
 export const MAX_ACF_LAG = 500;
 
+/** Most epochs (the last ones of a segment) used to estimate the autocorrelation. */
+export const ACF_MAX_EPOCHS = 100_000;
+
 /** Covariance of one block per epoch: either 1-sigma columns (diagonal) or indices into a full logged P. */
 export interface BlockCovariance {
   /** 1-sigma per component (same units as the error), NaN where absent. */
@@ -90,7 +93,9 @@ export function componentSigma(cov: BlockCovariance, i: number, length: number):
  * components: the sum is truncated at the first lag where the component-averaged r(k) is no longer positive
  * (at most MAX_ACF_LAG, and a quarter of the series).
  */
-export function errorAutocorrelations(z: Float64Array[], i0: number, i1: number): Float64Array[] {
+export function errorAutocorrelations(z: Float64Array[], i0In: number, i1: number): Float64Array[] {
+  // Long segments: the last ACF_MAX_EPOCHS epochs (after any transient) are plenty for the estimate.
+  const i0 = Math.max(i0In, i1 - ACF_MAX_EPOCHS);
   const m = i1 - i0;
   const maxLag = Math.min(MAX_ACF_LAG, Math.floor(m / 4));
   const out: number[][] = z.map(() => []);
@@ -147,14 +152,14 @@ export function effectiveSampleSize(K: number, rho: Float64Array): number {
   return Math.max(1, Math.min(K, nEff));
 }
 
-/** Largest window (epochs) for which tr(C^3) is computed exactly; beyond it the band-sum approximation is used. */
-const EXACT_TRACE_MAX = 256;
+/** Largest cost K (2L + 1)^2 for which tr(C^3) is computed exactly; beyond it the band-sum approximation is used. */
+const EXACT_TRACE_COST = 4_000_000;
 
 /**
  * Second and third cumulants of Q = sum over a window of K epochs of sum_i z_i^2, for stationary Gaussian
  * components with autocorrelations r_i: kappa2 = 2 sum_i tr(C_i^2), kappa3 = 8 sum_i tr(C_i^3), with C_i the K x K
- * Toeplitz correlation matrix (r_i(0) = 1). tr(C^2) = K + 2 sum_k (K - k) r_k^2 exactly; tr(C^3) exactly up to
- * K = 256, else K sum_{a,b} r_|a| r_|b| r_|a+b| (edges ignored).
+ * Toeplitz correlation matrix (r_i(0) = 1). tr(C^2) = K + 2 sum_k (K - k) r_k^2 exactly; tr(C^3) exactly while
+ * K (2L + 1)^2 <= 4e6, else K sum_{a,b} r_|a| r_|b| r_|a+b| (edges ignored, which over-states the skew: conservative).
  */
 export function windowCumulants(K: number, rs: Float64Array[]): { kappa1: number; kappa2: number; kappa3: number } {
   let k2 = 0, k3 = 0;
@@ -165,7 +170,7 @@ export function windowCumulants(K: number, rs: Float64Array[]): { kappa1: number
     for (let k = 1; k <= L; k++) t2 += 2 * (K - k) * r[k - 1] * r[k - 1];
     let t3 = 0;
     if (L === 0) t3 = K;
-    else if (K <= EXACT_TRACE_MAX) {
+    else if (K * (2 * L + 1) * (2 * L + 1) <= EXACT_TRACE_COST) {
       // tr(C^3) = sum_i sum_j sum_l c_ij c_jl c_li, band-limited
       for (let i = 0; i < K; i++) {
         for (let j = Math.max(0, i - L); j <= Math.min(K - 1, i + L); j++) {

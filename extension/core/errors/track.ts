@@ -117,6 +117,13 @@ function quatColumns(s: StateStream, prefix: string): Float64Array[] | undefined
   return out;
 }
 
+/** t + offset for the first `length` stamps. */
+function shiftedTimes(t_s: Float64Array, length: number, offset: number): Float64Array {
+  const out = new Float64Array(length);
+  for (let i = 0; i < length; i++) out[i] = t_s[i] + offset;
+  return out;
+}
+
 /** Index range [w0, w1) of epochs with t in the window (the whole log without one). */
 function windowRange(t_s: Float64Array, length: number, window?: [number, number]): [number, number] {
   if (!window) return [0, length];
@@ -173,7 +180,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     const rs = speedProfile(ref.t_s, ref.length, refPos.p, allDefined(refV) ? refV : []);
     const span = state.t_s[n - 1] - state.t_s[0];
     const maxLag = Math.min(60, Math.max(1, span / 10));
-    const shifted = ref.t_s.map((t) => t + offset);
+    const shifted = shiftedTimes(ref.t_s, ref.length, offset);
     const est = estimateTimeOffset(state.t_s, es, n, shifted, rs, ref.length, maxLag);
     if (Number.isFinite(est)) { offset += est; offsetEstimated = true; } else notes.push('time offset could not be estimated (speeds do not overlap or do not vary); the given offset is used');
   } else if (!ref && settings.timeOffset_s !== 0) {
@@ -371,10 +378,10 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   let refOwn: ErrorTrack['refOwn'];
   if (ref && refPos && refPos.p[0] && refPos.p[1]) {
     const px = refPos.p[0], py = refPos.p[1], pz = refPos.p[2];
-    const shiftT = ref.t_s.map((t) => t + offset);
+    const shiftT = shiftedTimes(ref.t_s, ref.length, offset);
     const p = [px.slice(0, ref.length), py.slice(0, ref.length), ...(pz ? [pz.slice(0, ref.length)] : [])];
     if (off) for (let c = 0; c < p.length; c++) for (let i = 0; i < ref.length; i++) p[c][i] += off[c];
-    refOwn = { t_s: shiftT.slice(0, ref.length), line: ref.line.slice(0, ref.length), p };
+    refOwn = { t_s: shiftT, line: ref.line.slice(0, ref.length), p };
   }
 
   const status = br.status;

@@ -229,3 +229,16 @@ describe('report rules', () => {
     expect(() => analyzeErrors(empty, resolveSettings({}))).not.toThrow();
   });
 });
+
+describe('the errors block inside a whole report', () => {
+  it('validates against the report JSON Schema (analyzeLog on a simulated run with a reset)', async () => {
+    const { analyzeLog } = await import('../../../extension/core/analyze');
+    const { reportProblems } = await import('../../helpers/reportSchema');
+    const log = simulateRun({ seed: 8, scaled: { t0: 300, t1: 360, factor: 0.5 } });
+    log.resets = [400];
+    const { report } = analyzeLog(log, resolveSettings({}));
+    expect(reportProblems(report)).toEqual([]);
+    expect(report.errors?.excluded).toBe(0);
+    expect(report.findings.some((f) => f.kind === 'inconsistent' && f.channel === 'position')).toBe(true);
+  });
+});
