@@ -50,8 +50,8 @@ describe('constructed 3-D case', () => {
     if (!a) throw new Error('no alignment');
     const Rq = matFromQuat(new Float64Array(9), [0.9515485246, 0.0381345765, 0.1893078574, 0.2392983377]);
     expectClose(a.R, Rq, 1e-9);
-    expect(Math.abs(a.scale - 2)).toBeLessThan(1e-8); // the y values are given to 9 decimals
-    expectClose(a.t, [1, -2, 3], 1e-8);
+    expect(Math.abs(a.scale - 2)).toBeLessThan(1e-9);
+    expectClose(a.t, [1, -2, 3], 1e-9);
     expect(a.meanSquaredError).toBeLessThan(1e-16);
   });
   it('rigid fit of a rigidly moved noisy cloud recovers the motion (seeded)', () => {
