@@ -6,14 +6,16 @@
  * - Bias columns are `bg_x bg_y bg_z` (rad/s) and `ba_x ba_y ba_z` (m/s^2) of the state stream, with optional
  *   `sigma_bg_x ...` 1-sigma columns (log-conventions.md). Axis 0, 1, 2 = x, y, z of the body frame.
  * - Times in the report are the log's own time base; `settleTime` is seconds from the first state record.
- * - Increments are differences of consecutive finite bias values; exact zeros (epochs without a bias update) are left
- *   out, so the increments are the estimator's corrections. In a consistent filter a correction is gain times a white
- *   innovation, so the increments are close to white: that is what makes CUSUM on them meaningful.
- * - Noise normalisation: z = (d - median) / (1.4826 MAD), with median and MAD of the last half of the increments
- *   (taken as settled).
+ * - Increments are differences of consecutive finite bias values. When at least 30% are exact zeros (a log that
+ *   repeats the estimate between updates) the zeros are left out, so the increments are the estimator's corrections;
+ *   an increment over a time step longer than the median step (a gap) is divided by sqrt(step / median step).
+ *   In a consistent filter a correction is gain times a white innovation, so the increments are close to white:
+ *   that is what makes CUSUM on them meaningful.
+ * - Noise normalisation: z = (d - median) / scale, with the median and the robust scale (`robustScale`: MAD, then the
+ *   RMS within 5 scales) of the last half of the increments (taken as settled).
  * - Settling: the first place where two consecutive windows of W increments (W = n/200 within [10, 100]) each have an
- *   RMS about the reference median of at most 1.25 times the reference scale and a mean within 4 standard errors of
- *   it. Before it the estimate is converging (large gain, corrections of one sign); steps are sought only after it.
+ *   RMS about the reference median of at most 1.25 times the reference scale and a mean within 4 standard errors.
+ *   Before it the estimate is converging (large gain, corrections of one sign); steps are sought only after it.
  * - Steps: two-sided CUSUM (cusum.ts) with k = 0.5 and h chosen so that the in-control ARL is n / alpha over the n
  *   settled increments: a clean axis raises a false step with probability about alpha (default 0.01) per axis.
  * - Drift: over non-overlapping windows of T in {settled span, 3600 s, 600 s, 60 s}, the change of the smoothed bias
@@ -103,6 +105,31 @@ function madScale(values: ArrayLike<number>, center: number): number {
   const dev = new Float64Array(values.length);
   for (let i = 0; i < values.length; i++) dev[i] = Math.abs(values[i] - center);
   return 1.4826 * median(dev);
+}
+
+/**
+ * Robust scale of values around `center`: start from 1.4826 MAD (or 1.2533 x the mean absolute deviation when the
+ * MAD is zero), then twice the RMS of the values within 5 scales. The RMS step keeps the estimate right for coarsely
+ * rounded logs, where the MAD of a few distinct values is off by tens of percent; the 5-scale cut keeps it robust.
+ */
+export function robustScale(values: ArrayLike<number>, center: number): number {
+  let s = madScale(values, center);
+  if (!(s > 0)) {
+    let acc = 0;
+    for (let i = 0; i < values.length; i++) acc += Math.abs(values[i] - center);
+    s = 1.2533 * (acc / values.length);
+  }
+  if (!(s > 0)) return 0;
+  for (let it = 0; it < 2; it++) {
+    let ss = 0;
+    let c = 0;
+    for (let i = 0; i < values.length; i++) {
+      const v = values[i] - center;
+      if (Math.abs(v) <= 5 * s) { ss += v * v; c++; }
+    }
+    if (c > 0 && ss > 0) s = Math.sqrt(ss / c);
+  }
+  return s;
 }
 
 /** Theil-Sen slope of (x, y) points (median of pairwise slopes). */
@@ -214,11 +241,24 @@ function analyzeAxis(
   const series: Series[] = [s];
 
   // increments (non-zero: epochs with a bias correction); pos[j] = position in idx of the increment's end sample
+  // corrections: increments between consecutive finite samples. When at least 30% of them are exact zeros the log
+  // repeats the estimate between updates, and zeros are left out; otherwise (a few zeros, e.g. from rounding in the
+  // written log) they are kept. An increment over a longer step than usual (a gap) is divided by sqrt(dt / dt_median):
+  // a random-walk-like estimate moves by sqrt(time) over a gap.
+  let zeros = 0;
+  for (let j = 1; j < idx.length; j++) if (ys[j] === ys[j - 1]) zeros++;
+  const dropZeros = zeros >= 0.3 * (idx.length - 1);
+  const steps: number[] = [];
+  for (let j = 1; j < idx.length; j += Math.max(1, Math.floor(idx.length / 20000))) steps.push(xs[j] - xs[j - 1]);
+  const dtMedian = median(steps);
   const d: number[] = [];
   const pos: number[] = [];
   for (let j = 1; j < idx.length; j++) {
     const v = ys[j] - ys[j - 1];
-    if (v !== 0) { d.push(v); pos.push(j); }
+    if (dropZeros && v === 0) continue;
+    const r = dtMedian > 0 ? Math.max(1, (xs[j] - xs[j - 1]) / dtMedian) : 1;
+    d.push(r > 1 ? v / Math.sqrt(r) : v);
+    pos.push(j);
   }
   const result: AxisResult = {
     final: last, totalChange: last - first, driftPerHour: NaN, settleTime: xs[0] - t0, sigmaFinal, steps: [], h: NaN, series,
@@ -229,12 +269,7 @@ function analyzeAxis(
   }
   const ref = d.slice(d.length >> 1);
   const med = median(ref);
-  let scale = madScale(ref, med);
-  if (!(scale > 0)) {
-    let acc = 0;
-    for (const v of ref) acc += Math.abs(v - med);
-    scale = 1.2533 * (acc / ref.length); // mean absolute deviation of a normal, scaled to sigma
-  }
+  const scale = robustScale(ref, med);
   if (!(scale > 0)) {
     result.driftPerHour = driftRate(xs, ys, 0);
     return result;
@@ -269,11 +304,11 @@ function analyzeAxis(
   const bounds = changes.map((c) => ({ p0: pos[settleInc + c.onset] - 1, p1: pos[settleInc + c.end], c }));
   for (let k = 0; k < bounds.length; k++) {
     const { p0, p1, c } = bounds[k];
-    // level before: the Wb samples up to the onset; level after: Wb samples starting one step-duration after the
+    // level before: the Wb samples up to the onset; level after: Wb samples starting two step-durations after the
     // detected end (the estimate is still converging to the new level when the sum peaks), both clipped by neighbours
     const beforeLo = Math.max(k > 0 ? bounds[k - 1].p1 : settlePos, p0 - Wb);
     const limit = k + 1 < bounds.length ? bounds[k + 1].p0 : idx.length - 1;
-    const afterLo = Math.min(limit, p1 + (p1 - p0));
+    const afterLo = Math.min(limit, p1 + 2 * (p1 - p0));
     const afterHi = Math.min(limit, afterLo + Wb);
     const before = median(ys.subarray(beforeLo, p0 + 1));
     const after = median(ys.subarray(afterLo, afterHi + 1));

@@ -61,6 +61,26 @@ describe('bias step detection', () => {
   });
 });
 
+describe('logs with held values and gaps', () => {
+  it('a bias held between updates (every 5th epoch) gives no false step, and the step is still found', () => {
+    for (const [seed, step] of [[71, false], [72, true]] as const) {
+      const log = simulateBiasLog({ seed, step: step ? { sensor: 'gyro', axis: 0, t_s: 150, size: 0.02 } : undefined });
+      for (const col of log.state.columns.values()) for (let i = 0; i < col.length; i++) col[i] = col[i - (i % 5)];
+      const found = analyzeBias(log, resolveSettings()).findings.filter((f) => f.kind === 'bias-step');
+      expect(found.map((f) => f.axis)).toEqual(step ? [0] : []);
+    }
+  });
+  it('a 3 s gap in the records is not a step', () => {
+    const log = simulateBiasLog({ seed: 73 });
+    const keep = (i: number): boolean => i < 20000 || i >= 20300;
+    const n = log.state.length - 300;
+    const cut = (a: Float64Array): Float64Array => Float64Array.from(Array.from(a).filter((_, i) => keep(i)));
+    log.state = { ...log.state, t_s: cut(log.state.t_s), line: cut(log.state.line), length: n,
+      columns: new Map([...log.state.columns].map(([k, v]) => [k, cut(v)])) };
+    expect(analyzeBias(log, resolveSettings()).findings.filter((f) => f.kind === 'bias-step')).toEqual([]);
+  });
+});
+
 describe('bias summary figures', () => {
   it('final, total change and drift per hour', () => {
     const rate = 1e-4; // rad/s per s = 0.36 rad/s per hour
