@@ -66,8 +66,8 @@ const XY_HEIGHT_PX = 360;
 export interface TimeChartOptions {
   label: string;
   unit: string;
-  /** 'time': linked cursor, zoom and pan; 'loglog': Allan deviation, static. */
-  kind: 'time' | 'loglog';
+  /** 'time': linked cursor, zoom and pan; 'loglog': Allan deviation; 'plain': another abscissa (lags, bins). */
+  kind: 'time' | 'loglog' | 'plain';
   band: boolean;
   /** Full x extent [x0, x1] of the series. */
   extent: [number, number];
@@ -139,6 +139,7 @@ export class TimeChart {
   private makePlot(data: uPlot.AlignedData): uPlot {
     const { options, theme } = this;
     const isTime = options.kind === 'time';
+    const isLog = options.kind === 'loglog';
     const series: uPlot.Series[] = [
       {},
       { label: options.label, stroke: () => theme().line, width: 1, points: { show: false }, spanGaps: false },
@@ -158,10 +159,10 @@ export class TimeChart {
       series,
       bands,
       scales: {
-        x: isTime ? { time: false, auto: false, min: this.window[0], max: this.window[1] } : { time: false, distr: 3, log: 10, range: safeRange(true) },
-        y: isTime ? { auto: true, range: safeRange(false) } : { distr: 3, log: 10, range: safeRange(true) },
+        x: isTime ? { time: false, auto: false, min: this.window[0], max: this.window[1] } : isLog ? { time: false, distr: 3, log: 10, range: safeRange(true) } : { time: false, range: safeRange(false) },
+        y: isLog ? { distr: 3, log: 10, range: safeRange(true) } : { auto: true, range: safeRange(false) },
       },
-      axes: [axis(theme, isTime ? 't [s]' : 'tau [s]', !isTime), axis(theme, unit ? unit.trim() : options.label.slice(0, 24), !isTime)],
+      axes: [axis(theme, isTime ? 't [s]' : isLog ? 'tau [s]' : '', isLog), axis(theme, unit ? unit.trim() : options.label.slice(0, 24), isLog)],
       legend: { show: true, live: isTime },
       cursor: isTime
         ? {
@@ -181,7 +182,11 @@ export class TimeChart {
           (u, key) => {
             if (key !== 'x' || this.programmatic || !isTime) return;
             const { min, max } = u.scales.x;
-            if (min === undefined || max === undefined || !(max > min)) return;
+            if (min == null || max == null || !(max > min)) return;
+            // uPlot commits scale changes in a microtask, so our own setScale calls arrive here too: a window equal
+            // to the one we set is not a user's zoom (answering it would re-query forever).
+            const tol = 1e-9 * (max - min);
+            if (Math.abs(min - this.window[0]) <= tol && Math.abs(max - this.window[1]) <= tol) return;
             this.window = [min, max];
             options.onWindow?.(min, max);
           },

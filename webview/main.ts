@@ -32,6 +32,7 @@ import {
   flattenBlock,
   groupViews,
   markersFor,
+  ownChart,
   nextWindow,
   runSummary,
   tableRows,
@@ -266,8 +267,10 @@ function chartSection(key: string, label: string, unit: string): { section: HTML
   return { section, plot, tableHost, details };
 }
 
-function buildGroup(host: HTMLElement, id: string, series: readonly SeriesInfo[], message: InitMessage, width: number): void {
+function buildGroup(host: HTMLElement, id: string, all: readonly SeriesInfo[], message: InitMessage, width: number): void {
   const report = message.report;
+  const histogramKeys = new Set(message.histograms.map((h) => h.key));
+  const series = all.filter((s) => ownChart(s, histogramKeys));
   const xy = series.filter((s) => chartKind(s) === 'xy');
   const anchors = message.series.find((s) => s.key === 'uwb/anchors');
   if (id === 'trajectory' && xy.length) {
@@ -285,7 +288,7 @@ function buildGroup(host: HTMLElement, id: string, series: readonly SeriesInfo[]
       if (h) addHistogram(host, h, width);
     }
   }
-  const block = id === 'errors' ? report.errors : id === 'bias' ? report.bias : id === 'uwb' ? report.uwb : id === 'allan' ? allanFigures(report.bias) : undefined;
+  const block = id === 'errors' ? report.errors : id === 'bias' ? report.bias : id === 'uwb' ? report.uwb : id === 'allan' ? report.imu ?? allanFigures(report.bias) : undefined;
   if (id === 'uwb') {
     const rows = anchorRows(report);
     if (rows.length) {
@@ -314,7 +317,7 @@ function allanFigures(bias: unknown): unknown {
   return Object.keys(out).length ? out : undefined;
 }
 
-function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglog', report: InitMessage['report'], width: number): void {
+function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglog' | 'plain', report: InitMessage['report'], width: number): void {
   const { section, plot, tableHost, details } = chartSection(info.key, info.label, info.unit);
   host.append(section);
   const ownExtent: [number, number] = kind === 'time' ? extent : [info.x0, info.x1];
@@ -386,8 +389,9 @@ function requestAll(): void {
   }
 }
 
-function chartKindOf(e: TimeEntry): 'time' | 'loglog' {
-  return e.info.logLog ? 'loglog' : 'time';
+function chartKindOf(e: TimeEntry): 'time' | 'loglog' | 'plain' {
+  const k = chartKind(e.info);
+  return k === 'xy' ? 'plain' : k;
 }
 
 function requeryTimeCharts(): void {
@@ -559,10 +563,13 @@ function start(): void {
     }
   });
   let resizeTimer: ReturnType<typeof setTimeout> | undefined;
+  let lastWidth = chartWidth();
   window.addEventListener('resize', () => {
     if (resizeTimer) clearTimeout(resizeTimer);
     resizeTimer = setTimeout(() => {
       const w = chartWidth();
+      if (w === lastWidth) return; // e.g. a scrollbar came or went: nothing to redraw
+      lastWidth = w;
       for (const e of entries) e.chart.resize(w);
       requeryTimeCharts();
     }, 150);

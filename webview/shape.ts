@@ -76,12 +76,28 @@ export function groupViews(series: readonly SeriesInfo[], report: Pick<Report, '
   return out;
 }
 
-/** How a series is drawn. */
-export type ChartKind = 'time' | 'loglog' | 'xy';
+/** How a series is drawn: over time (linked), log-log, planar, or over another abscissa ('plain': lags, NIS bins). */
+export type ChartKind = 'time' | 'loglog' | 'xy' | 'plain';
+
+/** Key prefixes whose x is not time (autocorrelation lags, histogram bins). */
+const NON_TIME_PREFIXES = ['acf', 'nisHistogram', 'nisPdf', 'neesHistogram', 'neesPdf', 'histogram', 'pdf'];
 
 /** The kind of chart for a series. */
-export function chartKind(info: Pick<SeriesInfo, 'logLog' | 'xy'>): ChartKind {
-  return info.logLog ? 'loglog' : info.xy ? 'xy' : 'time';
+export function chartKind(info: Pick<SeriesInfo, 'key' | 'logLog' | 'xy'>): ChartKind {
+  if (info.logLog) return 'loglog';
+  if (info.xy) return 'xy';
+  return NON_TIME_PREFIXES.includes(info.key.split('/')[0]) ? 'plain' : 'time';
+}
+
+/**
+ * Whether a series gets a chart of its own: step series (`.../steps`) are drawn as markers on their parent, and the
+ * core's NIS histogram/density pair is replaced by the host's histogram chart when one exists for the channel.
+ */
+export function ownChart(info: Pick<SeriesInfo, 'key'>, histogramKeys: ReadonlySet<string>): boolean {
+  const parts = info.key.split('/');
+  if (parts[parts.length - 1] === 'steps' && parts.length > 2) return false;
+  if ((parts[0] === 'nisHistogram' || parts[0] === 'nisPdf') && histogramKeys.has(`nis/${parts.slice(1).join('/')}`)) return false;
+  return true;
 }
 
 /** Replace NaN (and infinities) by null: uPlot treats only null/undefined as gaps. */
@@ -333,9 +349,10 @@ export function tableRows(
 
 /**
  * A report block (any JSON) flattened to `[path, value]` rows for a generic table, so blocks this panel does not
- * know still show. Arrays of numbers are joined; nesting deeper than `maxDepth` or beyond `maxRows` is cut.
+ * know still show. Short arrays of numbers are joined (longer ones are counted: the charts show them); nesting
+ * deeper than `maxDepth` or beyond `maxRows` is cut.
  */
-export function flattenBlock(value: unknown, maxRows = 200, maxDepth = 4): [string, string][] {
+export function flattenBlock(value: unknown, maxRows = 200, maxDepth = 4, maxArray = 8): [string, string][] {
   const out: [string, string][] = [];
   const walk = (v: unknown, path: string, depth: number): void => {
     if (out.length >= maxRows) return;
@@ -343,7 +360,9 @@ export function flattenBlock(value: unknown, maxRows = 200, maxDepth = 4): [stri
     if (typeof v === 'number') out.push([path, formatNumber(v, 4)]);
     else if (typeof v === 'string' || typeof v === 'boolean') out.push([path, String(v)]);
     else if (Array.isArray(v)) {
-      if (v.every((e) => typeof e === 'number' || e === null)) out.push([path, `[${v.map((e) => formatNumber(e, 4)).join(', ')}]`]);
+      if (v.every((e) => typeof e === 'number' || e === null)) {
+        out.push([path, v.length > maxArray ? `(${v.length} values)` : `[${v.map((e) => formatNumber(e, 4)).join(', ')}]`]);
+      }
       else if (depth < maxDepth) v.forEach((e, i) => walk(e, `${path}[${i}]`, depth + 1));
     } else if (isRecord(v) && depth < maxDepth) {
       for (const [k, e] of Object.entries(v)) walk(e, path ? `${path}.${k}` : k, depth + 1);

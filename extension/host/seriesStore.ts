@@ -9,9 +9,13 @@ import { envelope, isAscending, stride, type Envelope } from '../core/envelope';
 import type { Series } from '../core/series';
 import type { SeriesInfo, SeriesRequestMessage, SeriesResponseMessage } from '../protocol';
 
-/** Keys and groups drawn as planar (x, y) paths rather than over time. */
+/**
+ * Series drawn as planar (x, y) paths rather than over time: the trajectory seen from above, anchor positions, and
+ * anything whose x is not ascending (a group name alone does not decide: `uwb/fix/x` is in the trajectory group
+ * but runs over time).
+ */
 function isPlanar(series: Series): boolean {
-  return series.group === 'trajectory' || series.key.startsWith('trajectory/') || series.key === 'uwb/anchors' || !isAscending(series.x, Math.min(series.x.length, series.y.length));
+  return series.key.startsWith('trajectory/') || series.key === 'uwb/anchors' || !isAscending(series.x, Math.min(series.x.length, series.y.length));
 }
 
 function finiteRange(x: Float64Array, n: number): [number, number] {

@@ -7,7 +7,7 @@ import type { Report } from '../../../extension/core/report';
 import type { Series } from '../../../extension/core/series';
 import { nisHistogram } from '../../../extension/host/histogram';
 import { SeriesStore } from '../../../extension/host/seriesStore';
-import type { HostToWebviewMessage, InitMessage, WebviewToHostMessage } from '../../../extension/protocol';
+import type { HostToWebviewMessage, InitMessage, SeriesResponseMessage, WebviewToHostMessage } from '../../../extension/protocol';
 
 /** The browser globals used here, typed locally (this file is also type-checked by the Node tsconfig, without DOM). */
 const page = globalThis as unknown as {
@@ -75,7 +75,28 @@ function deliver(m: HostToWebviewMessage): void {
   setTimeout(() => page.dispatchEvent(new page.MessageEvent('message', { data: m })), 0);
 }
 
+/** With `?real=1` the page asks run.mjs, which holds the real analysis of a log (realHost.ts). */
+const real = new URLSearchParams(page.location.search).get('real') === '1';
+type JsonColumns = Record<'x' | 'y' | 'lo' | 'hi' | 'line', (number | null)[] | undefined>;
+const toBuffer = (a: (number | null)[] | undefined): ArrayBuffer | undefined => (a ? new Float64Array(a.map((v) => (v === null ? NaN : v))).buffer : undefined);
+
 listeners.push((m) => {
+  if (!real) return;
+  sent.push(m);
+  if (m.type === 'ready') void fetch('/real/init').then((r) => r.json() as Promise<InitMessage>).then((init) => deliver(init));
+  else if (m.type === 'series/request') {
+    void fetch('/real/series', { method: 'POST', body: JSON.stringify(m) })
+      .then((r) => r.json() as Promise<Omit<SeriesResponseMessage, 'x' | 'y' | 'lo' | 'hi' | 'line'> & JsonColumns>)
+      .then((a) => {
+        const out: SeriesResponseMessage = { ...a, x: toBuffer(a.x) ?? new ArrayBuffer(0), y: toBuffer(a.y) ?? new ArrayBuffer(0), lo: toBuffer(a.lo), hi: toBuffer(a.hi), line: toBuffer(a.line) };
+        for (const k of ['lo', 'hi', 'line'] as const) if (out[k] === undefined) delete out[k];
+        deliver(out);
+      });
+  }
+});
+
+listeners.push((m) => {
+  if (real) return;
   sent.push(m);
   if (m.type === 'ready') {
     const init: InitMessage = {

@@ -1,6 +1,7 @@
 // Drives the webview harness in headless Chromium: bundles fakeHost.ts, serves a page with the real CSP shape and
 // dist/webview.js, checks the DOM hooks and that no CSP violation or page error occurs, and saves screenshots.
-// Usage: node test/webview/harness/run.mjs [--n 200000] [--theme dark|light|hc]   (after node scripts/build.mjs)
+// Usage: node test/webview/harness/run.mjs [--n 200000 | --log demo/warehouse-flight.csv] [--theme dark|light|hc]
+// (after node scripts/build.mjs)
 import * as esbuild from 'esbuild';
 import { createServer } from 'node:http';
 import { readFileSync, mkdirSync } from 'node:fs';
@@ -8,6 +9,14 @@ import { chromium } from 'playwright-core';
 
 const arg = (name, d) => { const i = process.argv.indexOf(`--${name}`); return i > 0 ? process.argv[i + 1] : d; };
 const n = arg('n', '200000');
+const logPath = arg('log', '');
+let real;
+if (logPath) {
+  const built = await esbuild.build({ entryPoints: ['test/webview/harness/realHost.ts'], bundle: true, write: false, format: 'cjs', platform: 'node', target: 'node20' });
+  const mod = { exports: {} };
+  new Function('module', 'exports', 'require', built.outputFiles[0].text)(mod, mod.exports, (await import('node:module')).createRequire(import.meta.url));
+  real = await mod.exports.realHost(logPath);
+}
 const themeKind = arg('theme', 'dark');
 const out = 'test-output/webview-harness';
 mkdirSync(out, { recursive: true });
@@ -20,7 +29,7 @@ const themes = {
 const th = themes[themeKind];
 const nonce = 'harness0nonce';
 const page = `<!DOCTYPE html><html><head>
-<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src 'self' data:; style-src 'self' 'unsafe-inline'; font-src 'self'; script-src 'nonce-${nonce}';">
+<meta http-equiv="Content-Security-Policy" content="default-src 'none'; img-src 'self' data:; style-src 'self' 'unsafe-inline'; font-src 'self'; script-src 'nonce-${nonce}'; connect-src 'self';">
 <meta charset="UTF-8"><link rel="stylesheet" href="/uPlot.min.css"><link rel="stylesheet" href="/webview.css">
 <style nonce="${nonce}">body{--vscode-editor-background:${th.bg};--vscode-editor-foreground:${th.fg};--vscode-charts-blue:#3794ff;--vscode-charts-red:#f14c4c;--vscode-charts-green:#89d185;--vscode-charts-orange:#d18616;--vscode-charts-purple:#b180d7;--vscode-charts-yellow:#cca700;--vscode-font-family:sans-serif;--vscode-font-size:13px}</style>
 </head><body class="${th.cls}"><main id="app" data-state="loading"></main>
@@ -28,13 +37,20 @@ const page = `<!DOCTYPE html><html><head>
 const files = { '/': ['text/html', page], '/fake.js': ['text/javascript', fake.outputFiles[0].text] };
 for (const f of ['webview.js', 'webview.css', 'uPlot.min.css']) files[`/${f}`] = [f.endsWith('.js') ? 'text/javascript' : 'text/css', readFileSync(`dist/${f}`)];
 const server = createServer((req, res) => {
+  if (real && req.url === '/real/init') { res.writeHead(200, { 'content-type': 'application/json' }); res.end(JSON.stringify(real.init)); return; }
+  if (real && req.url === '/real/series') {
+    let body = '';
+    req.on('data', (c) => (body += c));
+    req.on('end', () => { res.writeHead(200, { 'content-type': 'application/json' }); res.end(JSON.stringify(real.answer(JSON.parse(body)))); });
+    return;
+  }
   const f = files[req.url.split('?')[0]];
   if (!f) { res.writeHead(req.url === '/favicon.ico' ? 204 : 404); res.end(); return; }
   res.writeHead(200, { 'content-type': f[0] });
   res.end(f[1]);
 }).listen(0, '127.0.0.1');
 await new Promise((r) => server.once('listening', r));
-const url = `http://127.0.0.1:${server.address().port}/?n=${n}`;
+const url = `http://127.0.0.1:${server.address().port}/?n=${n}${real ? '&real=1' : ''}`;
 const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', headless: true, args: ['--no-sandbox', '--disable-gpu', '--disable-dev-shm-usage'] });
 const problems = [];
 try {
@@ -43,7 +59,16 @@ try {
   p.on('pageerror', (e) => problems.push(`pageerror: ${e.stack}`));
   p.on('dialog', (d) => { problems.push(`dialog opened: ${d.message()}`); void d.dismiss(); });
   await p.goto(url);
-  await p.waitForFunction(() => document.body.dataset.chartsRendered !== undefined, null, { timeout: 30000 });
+  try {
+    await p.waitForFunction(() => document.body.dataset.chartsRendered !== undefined, null, { timeout: 30000 });
+  } catch (e) {
+    console.log('charts not rendered:', await p.evaluate(() => [...document.querySelectorAll('section.chart')].filter((s) => s.getAttribute('data-points') === '0').map((s) => s.getAttribute('data-series')).join(' ')));
+    console.log(problems.join('\n'));
+    console.log(await p.evaluate(() => JSON.stringify({ sent: globalThis.harness.sent.map((m) => m.type), state: document.getElementById('app')?.dataset.state, html: document.getElementById('app')?.textContent?.slice(0, 300) })));
+    throw e;
+  }
+  const logs = await p.evaluate(() => globalThis.harness.sent.filter((m) => m.type === 'log/write'));
+  if (logs.length) problems.push(...logs.map((l) => `panel log: ${l.level} ${l.message}`));
   const facts = await p.evaluate(() => ({
     state: document.getElementById('app')?.dataset.state,
     chartsRendered: document.body.dataset.chartsRendered,
@@ -54,13 +79,22 @@ try {
     injected: document.querySelectorAll('img').length,
   }));
   console.log(JSON.stringify(facts, null, 1));
+  const reqs = () => p.evaluate(() => globalThis.harness.sent.filter((m) => m.type === 'series/request').length);
+  console.log('requests after first render', await reqs(), 'charts', facts.charts.length);
+  await p.waitForTimeout(500);
+  console.log('requests 0.5 s later (must not grow)', await reqs());
   await p.screenshot({ path: `${out}/overview-${themeKind}.png`, fullPage: true });
   await p.click('[data-testid="worst-list"] button');
+  await p.waitForTimeout(300);
+  console.log('requests after the worst click', await reqs());
   const sent = await p.evaluate(() => globalThis.harness.sent.filter((m) => m.type === 'reveal/line'));
   console.log('reveal messages', JSON.stringify(sent));
-  for (const [i, name] of [[1, 'innovations'], [2, 'errors'], [3, 'trajectory'], [4, 'bias'], [5, 'allan'], [6, 'uwb']]) {
+  const tabCount = await p.evaluate(() => document.querySelectorAll('vscode-panel-tab').length);
+  for (let i = 1; i < tabCount; i++) {
+    const name = await p.evaluate((k) => document.querySelectorAll('.view')[k]?.getAttribute('data-view'), i);
     await p.click(`#tab-${i}`);
     await p.waitForTimeout(300);
+    if (i === 1) console.log('requests after the first tab click', await reqs(), await p.evaluate(() => [innerWidth, document.documentElement.clientWidth]));
     await p.screenshot({ path: `${out}/${name}-${themeKind}.png`, fullPage: true });
   }
   // zoom with the keyboard on the first time chart and check the envelope was re-queried
