@@ -65,10 +65,19 @@ export function bracketTimes(
   const status = new Uint8Array(estLength);
   const rows: number[] = [];
   for (let i = 0; i < refLength; i++) if (valid[i] === 1 && Number.isFinite(refT_s[i])) rows.push(i);
+  // Reference stamps going backwards (a time-backwards finding elsewhere) are put in time order here.
+  for (let m = 1; m < rows.length; m++) {
+    if (refT_s[rows[m]] < refT_s[rows[m - 1]]) { rows.sort((a, b) => refT_s[a] - refT_s[b]); break; }
+  }
   const n = rows.length;
   // The span is that of the whole reference (usable or not): an epoch next to dropped rows at the ends is in a gap.
-  const first = refLength > 0 ? refT_s[0] + offset_s : NaN;
-  const last = refLength > 0 ? refT_s[refLength - 1] + offset_s : NaN;
+  let first = Infinity, last = -Infinity;
+  for (let i = 0; i < refLength; i++) {
+    const t = refT_s[i];
+    if (t < first) first = t;
+    if (t > last) last = t;
+  }
+  first += offset_s; last += offset_s;
   const tv = (m: number): number => refT_s[rows[m]] + offset_s;
   let j = 0;
   for (let k = 0; k < estLength; k++) {

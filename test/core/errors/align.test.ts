@@ -108,3 +108,14 @@ describe('analyzeErrors with a separate reference at another rate', () => {
     expect(Number.isNaN(estimateTimeOffset(Float64Array.of(0, 1), Float64Array.of(1, 1), 2, Float64Array.of(0, 1), Float64Array.of(1, 1), 2, 1))).toBe(true);
   });
 });
+
+describe('reference stamps out of order', () => {
+  it('are put in time order before interpolation', () => {
+    // [CONSTRUCTED] the same 1 Hz samples as above, with two rows swapped
+    const t = Float64Array.of(0, 1, 3, 2, 4);
+    const x = Float64Array.from(t, (s) => 10 * s);
+    const br = bracketTimes(Float64Array.of(2.5, 3.5), 2, t, 5, 0, new Uint8Array(5).fill(1), 5);
+    expect(Array.from(br.status)).toEqual([ALIGN_OK, ALIGN_OK]);
+    expectClose(interpolateColumn(x, br, new Float64Array(2)), [25, 35], 1e-15);
+  });
+});
