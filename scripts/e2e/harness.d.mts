@@ -58,7 +58,9 @@ export declare function launchBrowser(chromium: string): Promise<{ context: Brow
 /** Opens the workbench and waits for it. */
 export declare function openWorkbench(page: Page, workbenchUrl: string): Promise<void>;
 /** Runs a command from the palette by its title, with retries. */
-export declare function runCommand(page: Page, title: string, opts?: { attempts?: number }): Promise<void>;
+export declare function runCommand(page: Page, title: string, opts?: { attempts?: number; opensQuickInput?: boolean }): Promise<void>;
+/** Runs "Residuum: Open Log Analysis" and answers its file dialog with an absolute path. */
+export declare function openLogViaDialog(page: Page, file: string): Promise<void>;
 /** Switches the colour theme through the palette. */
 export declare function pickColorTheme(page: Page, themeLabel: string): Promise<void>;
 /** The panel's inner document. */

@@ -19,11 +19,17 @@ export const CHROMIUM_ARGS = [
   '--no-first-run',
 ];
 
-/** Theme ids of VS Code 1.100's built-in themes, by kind. */
+/** Theme ids (the `workbench.colorTheme` values) of VS Code 1.100's built-in themes, by kind. */
 export const THEMES = {
   light: 'Default Light Modern',
   dark: 'Default Dark Modern',
   'high-contrast': 'Default High Contrast',
+};
+/** The labels the theme picker shows for THEMES (it filters on labels, the ids are descriptions). */
+const THEME_LABELS = {
+  'Default Light Modern': 'Light Modern',
+  'Default Dark Modern': 'Dark Modern',
+  'Default High Contrast': 'Dark High Contrast',
 };
 
 /** User settings every run starts from: no start page, no telemetry, no update checks. */
@@ -249,7 +255,7 @@ export async function openWorkbench(page, workbenchUrl) {
  * @param {string} title  e.g. "Residuum: Open Demo Log"
  * @param {{attempts?: number}} [opts]
  */
-export async function runCommand(page, title, { attempts = 6 } = {}) {
+export async function runCommand(page, title, { attempts = 6, opensQuickInput = false } = {}) {
   const widget = page.locator('.quick-input-widget');
   let lastError;
   for (let i = 0; i < attempts; i++) {
@@ -269,7 +275,12 @@ export async function runCommand(page, title, { attempts = 6 } = {}) {
       const label = (await row.getAttribute('aria-label')) ?? '';
       if (!label.toLowerCase().startsWith(title.toLowerCase())) throw new Error(`palette row is "${label}"`);
       await row.click();
-      await widget.waitFor({ state: 'hidden', timeout: 5000 });
+      if (opensQuickInput) {
+        // The command shows its own quick input in the same widget: wait for the palette's text to go.
+        await page.waitForFunction((sel) => !document.querySelector(sel)?.value?.startsWith('>'), '.quick-input-widget input.input', { timeout: 5000 });
+      } else {
+        await widget.waitFor({ state: 'hidden', timeout: 5000 });
+      }
       return;
     } catch (e) {
       lastError = e;
@@ -281,19 +292,55 @@ export async function runCommand(page, title, { attempts = 6 } = {}) {
 }
 
 /**
+ * Runs "Residuum: Open Log Analysis" and answers its open dialog (code-server shows VS Code's simple file dialog,
+ * a quick input holding a path) with `file`.
+ * @param {import('playwright-core').Page} page
+ * @param {string} file  absolute path
+ */
+export async function openLogViaDialog(page, file) {
+  let lastError;
+  for (let i = 0; i < 3; i++) {
+    try {
+      await runCommand(page, 'Residuum: Open Log Analysis', { opensQuickInput: true });
+      const widget = page.locator('.quick-input-widget');
+      const input = widget.locator('input.input');
+      await input.waitFor({ state: 'visible', timeout: 10_000 });
+      // Wait until the dialog has filled in its starting folder, or it would overwrite the path typed below.
+      await page.waitForFunction((sel) => document.querySelector(sel)?.value?.startsWith('/'), '.quick-input-widget input.input', { timeout: 10_000 });
+      await input.fill(file);
+      // The dialog completes the path as it is typed; wait for it to settle on the file, then accept.
+      await page.waitForFunction(
+        ([sel, want]) => document.querySelector(sel)?.value === want,
+        ['.quick-input-widget input.input', file],
+        { timeout: 10_000 },
+      );
+      await input.press('Enter');
+      await widget.waitFor({ state: 'hidden', timeout: 10_000 });
+      return;
+    } catch (e) {
+      lastError = e;
+      await page.keyboard.press('Escape').catch(() => undefined);
+      await page.waitForTimeout(1000);
+    }
+  }
+  throw new Error(`could not open ${file} through "Residuum: Open Log Analysis": ${lastError?.message ?? lastError}`);
+}
+
+/**
  * Switches the colour theme through the palette ("Preferences: Color Theme"), as a user would.
  * @param {import('playwright-core').Page} page
- * @param {string} themeLabel  e.g. THEMES.dark
+ * @param {string} themeLabel  a theme id, e.g. THEMES.dark
  */
 export async function pickColorTheme(page, themeLabel) {
   let lastError;
   for (let i = 0; i < 4; i++) {
     try {
-      await runCommand(page, 'Preferences: Color Theme');
+      await runCommand(page, 'Preferences: Color Theme', { opensQuickInput: true });
       const widget = page.locator('.quick-input-widget');
       const input = widget.locator('input.input');
       await input.waitFor({ state: 'visible', timeout: 5000 });
-      await input.fill(themeLabel);
+      const label = THEME_LABELS[themeLabel] ?? themeLabel;
+      await input.fill(label);
       const row = widget.locator('.monaco-list-row').filter({ hasText: themeLabel }).first();
       await row.waitFor({ state: 'visible', timeout: 5000 });
       await row.click();

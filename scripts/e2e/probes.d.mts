@@ -19,5 +19,7 @@ export declare function inspectForInjection(): {
 export declare function injectInlineScript(): number | null;
 /** `window.__pwned` or null. */
 export declare function pwnedFlag(): unknown;
-/** Milliseconds until `data-points` is next written, or -1. */
-export declare function nextPointsWrite(args: [unknown, number]): Promise<number>;
+/** Arms a keydown -> data-points watch on a chart section (Locator.evaluate passes the element first). */
+export declare function armPointsWatch(section: unknown, timeout_ms: number): boolean;
+/** The armed watch's result. */
+export declare function readPointsWatch(): Promise<{ ms: number; points: string | null; envelopeMs?: string | null }>;

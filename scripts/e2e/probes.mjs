@@ -53,21 +53,32 @@ export function pwnedFlag() {
 }
 
 /**
- * Resolves with the milliseconds from now until `section`'s `data-points` attribute is next written
- * (a chart answered a series request), or -1 after `timeout_ms`.
+ * Arms a one-shot watch on `section`: the time from its next keydown to the next write of its `data-points`
+ * attribute (the chart answered the series request the key caused). Read it with {@link readPointsWatch}.
  */
-export function nextPointsWrite([section, timeout_ms]) {
-  return new Promise((resolve) => {
-    const t0 = performance.now();
-    const timer = setTimeout(() => {
-      obs.disconnect();
-      resolve(-1);
-    }, timeout_ms);
-    const obs = new MutationObserver(() => {
+export function armPointsWatch(section, timeout_ms) {
+  window.__residuumWatch = new Promise((resolve) => {
+    let tKey = -1;
+    const onKey = () => {
+      if (tKey < 0) tKey = performance.now();
+    };
+    section.addEventListener('keydown', onKey, { capture: true });
+    const done = (v) => {
       clearTimeout(timer);
       obs.disconnect();
-      resolve(performance.now() - t0);
+      section.removeEventListener('keydown', onKey, { capture: true });
+      resolve(v);
+    };
+    const timer = setTimeout(() => done({ ms: -1, points: section.getAttribute('data-points') }), timeout_ms);
+    const obs = new MutationObserver(() => {
+      if (tKey >= 0) done({ ms: performance.now() - tKey, points: section.getAttribute('data-points'), envelopeMs: section.getAttribute('data-last-envelope-ms') });
     });
     obs.observe(section, { attributes: true, attributeFilter: ['data-points'] });
   });
+  return true;
+}
+
+/** The result of the armed watch: `{ ms, points, envelopeMs }`, `ms` -1 on timeout. */
+export function readPointsWatch() {
+  return window.__residuumWatch;
 }
