@@ -165,7 +165,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
         message:
           `Average NIS ${formatNumber(r.mean)} over ${r.count} updates lies ${over ? 'above' : 'below'} the corrected ` +
           `bound ${formatNumber(r.bound)} for ${dof} dof between t = ${formatNumber(tC[r.first])} s and ` +
-          `${formatNumber(tC[r.last])} s (${r.windows} of ${test.tests} ${windowText} windows; bounds corrected to a ` +
+          `${formatNumber(tC[r.last])} s (${r.windows} of ${test.tests} windows of ${windowText}; bounds corrected to a ` +
           `${formatPercent(settings.familyAlpha)} false-finding chance per channel): the filter is ` +
           (over ? 'overconfident here (S too small for the innovations)' : 'pessimistic here (S too large for the innovations)'),
       });

@@ -1,10 +1,12 @@
 /**
  * Health of the logged innovation covariances S: symmetric (relative asymmetry at most ASYMMETRY_TOLERANCE) and
  * positive definite (a Cholesky factorisation succeeds) at every update, checked in one allocation-free pass.
- * Eigen-figures (smallest eigenvalue, condition number) come from mathjs `eigs` on a small sample of updates only
- * (evenly strided plus the caller's picks, e.g. the largest NIS), keeping eigen-decompositions off the hot path.
+ * Eigen-figures (smallest eigenvalue, condition number) come from ml-matrix's symmetric eigenvalue decomposition on a
+ * small sample of updates only (evenly strided plus the caller's picks, e.g. the largest NIS), keeping
+ * eigen-decompositions off the hot path. (ml-matrix rather than mathjs `eigs`: same answers, but mathjs builds its
+ * typed dispatch on first use, and the core already depends on ml-matrix.)
  */
-import { eigs } from 'mathjs';
+import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import type { Channel } from '../model';
 import { asymmetry, choleskyFactor } from '../linalg/cholesky';
 
@@ -116,7 +118,7 @@ export function covarianceHealth(channel: Channel, extra: number[] = []): Covari
       rows.push(row);
     }
     try {
-      const values = eigs(rows, { eigenvectors: false }).values as unknown as number[];
+      const values = new EigenvalueDecomposition(new Matrix(rows), { assumeSymmetric: true }).realEigenvalues;
       let lo = Infinity;
       let hi = -Infinity;
       for (const v of values) { if (v < lo) lo = v; if (v > hi) hi = v; }
@@ -124,7 +126,7 @@ export function covarianceHealth(channel: Channel, extra: number[] = []): Covari
       if (lo > 0 && hi / lo > maxCond) maxCond = hi / lo;
       out.eigenSampled++;
     } catch {
-      // mathjs did not converge on this matrix: leave it out of the sample.
+      // The decomposition failed on this matrix: leave it out of the sample.
     }
   }
   if (Number.isFinite(minEig)) out.minEigenvalue = minEig;

@@ -8,6 +8,8 @@ import { REPORT_SCHEMA } from '../../../extension/core/report';
 import { reportProblems } from '../../helpers/reportSchema';
 import { jStat } from '../stats/references';
 import { makeChannel, makeLog } from './makeLog';
+import { eigs } from 'mathjs';
+import { makeRng, randomSpd } from './rng';
 
 // Constructed channels with S = identity, so each NIS is |nu|^2 by hand.
 function handLog() {
@@ -129,6 +131,19 @@ describe('bad covariances', () => {
     const cov = analyzeChannels(makeLog([ch]), resolveSettings()).block?.[0].covariance as { minEigenvalue: number; maxCondition: number };
     expect(cov.minEigenvalue).toBeCloseTo(0.5, 10);
     expect(cov.maxCondition).toBeCloseTo(8, 10);
+  });
+});
+
+describe('eigen-figures against mathjs eigs', () => {
+  it('smallest eigenvalue and condition number of one random SPD S', () => {
+    const S = randomSpd(makeRng(314), 4);
+    const ch = makeChannel({ name: 'F', dof: 4, t_s: [0], nu: [0.1, 0.2, 0.3, 0.4], S });
+    const cov = analyzeChannels(makeLog([ch]), resolveSettings()).block?.[0].covariance as { minEigenvalue: number; maxCondition: number };
+    const rows = [0, 1, 2, 3].map((r) => Array.from(S.subarray(r * 4, r * 4 + 4)));
+    // Source: mathjs 15 eigs (general-purpose reference library).
+    const values = (eigs(rows).values as unknown as number[]).slice().sort((a, b) => a - b);
+    expect(cov.minEigenvalue).toBeCloseTo(values[0], 10);
+    expect(cov.maxCondition / (values[3] / values[0])).toBeCloseTo(1, 10);
   });
 });
 
