@@ -218,6 +218,11 @@ function within3Sigma(b: BlockTrack, i0: number, i1: number): (number | null)[] 
 
 const AXES = ['x', 'y', 'z'];
 
+/** A number for a message: 4 significant digits, no exponent for ordinary magnitudes. */
+function fmt(v: number): string {
+  return Math.abs(v) >= 1e-3 && Math.abs(v) < 1e7 ? String(Number(v.toPrecision(4))) : v.toExponential(3);
+}
+
 /** Windowed NEES test of one block across all segments; fills findings and returns the windows. */
 function windowedTest(
   track: ErrorTrack, b: BlockTrack, segs: number[], settings: AnalysisSettings, findings: Finding[],
@@ -248,6 +253,7 @@ function windowedTest(
     correlationFactor = 1 + (2 * sum) / Math.max(1, perSeg[longest].rs.length);
   }
   const alpha = settings.familyAlpha / Math.max(1, total);
+  const totalWindows = total;
   const windows: NeesWindow[] = [];
   for (const seg of perSeg) {
     const ws = neesWindows(track.t_s, nees, dof, seg.bounds, seg.rs, settings.confidence, alpha);
@@ -259,14 +265,17 @@ function windowedTest(
       let s = 0, c = 0, pMin = 1;
       for (const w of run) { s += w.mean * w.count; c += w.count; pMin = Math.min(pMin, w.p); }
       const mean = s / c;
-      const bound = first.side === 'overconfident' ? Math.max(...run.map((w) => w.bounds[1])) : Math.min(...run.map((w) => w.bounds[0]));
+      const over = first.side === 'overconfident';
+      const bound = over ? Math.max(...run.map((w) => w.correctedBounds[1])) : Math.min(...run.map((w) => w.correctedBounds[0]));
+      const i0 = track.t_s.indexOf(first.t);
       findings.push({
-        kind: 'inconsistent', t: first.t, tEnd: last.tEnd, channel: b.name, side: first.side,
-        score: mean, p: pMin, severity: 'warning',
-        message: `${b.name} NEES averages ${mean.toPrecision(4)} over ${first.t.toFixed(2)}-${last.tEnd.toFixed(2)} s, ` +
-          `${first.side === 'overconfident' ? 'above' : 'below'} what ${dof} dof allows (95% bound ${bound.toPrecision(4)}, ` +
-          `family-corrected p ${(pMin * 1).toExponential(2)} < ${alpha.toExponential(2)}): the covariance is ` +
-          `${first.side === 'overconfident' ? 'too small (overconfident)' : 'too large (pessimistic)'}`,
+        kind: 'inconsistent', t: first.t, tEnd: last.tEnd, ...(i0 >= 0 ? { line: track.line[i0] } : {}), file: track.file,
+        channel: b.name, side: first.side, score: mean, p: pMin, severity: 'warning',
+        message: `Average ${b.name} NEES ${fmt(mean)} over ${c} epochs lies ${over ? 'above' : 'below'} the corrected ` +
+          `bound ${fmt(bound)} for ${dof} dof between t = ${fmt(first.t)} s and ${fmt(last.tEnd)} s (${run.length} of ` +
+          `${totalWindows} windows; bounds use the errors' autocorrelation and are corrected to a ` +
+          `${fmt(settings.familyAlpha * 100)}% false-finding chance per block): the covariance is ` +
+          (over ? 'too small for the errors here (overconfident)' : 'too large for the errors here (pessimistic)'),
       });
       run = [];
     };

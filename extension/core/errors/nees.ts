@@ -215,6 +215,8 @@ export interface NeesWindow {
   nEff: number;
   /** `confidence` interval of the mean. */
   bounds: [number, number];
+  /** Family-corrected interval of the mean (two-sided level `alphaPerWindow`). */
+  correctedBounds: [number, number];
   /** Two-sided p of the mean. */
   p: number;
   /** Outside the family-corrected interval. */
@@ -282,8 +284,11 @@ export function neesWindows(
     const lo = (ap.g * chi2Quantile(half, ap.h)) / cnt;
     const hi = (ap.a * chi2Quantile(1 - half, ap.nu) + ap.b) / cnt;
     const flagged = p < alphaPerWindow;
+    const cLo = (ap.g * chi2Quantile(alphaPerWindow / 2, ap.h)) / cnt;
+    const cHi = (ap.a * chi2Quantile(1 - alphaPerWindow / 2, ap.nu) + ap.b) / cnt;
     out.push({
-      t: t_s[a0], tEnd: t_s[b0 - 1], count: cnt, mean, nEff: ap.nEff, bounds: [Math.max(0, lo), hi], p, flagged,
+      t: t_s[a0], tEnd: t_s[b0 - 1], count: cnt, mean, nEff: ap.nEff, bounds: [Math.max(0, lo), hi],
+      correctedBounds: [Math.max(0, cLo), cHi], p, flagged,
       ...(flagged ? { side: mean > dof ? 'overconfident' as const : 'pessimistic' as const } : {}),
     });
   }

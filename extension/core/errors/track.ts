@@ -46,6 +46,8 @@ export interface BlockTrack {
 export interface ErrorTrack {
   t_s: Float64Array;
   line: Float64Array;
+  /** File of the state records. */
+  file: string;
   length: number;
   /** Epoch indices inside the settings' time window: [w0, w1). */
   w0: number;
@@ -390,7 +392,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     if (refPos?.origin) notes.push('frame not given in the log: geodetic reference converted to ENU');
   }
   return {
-    t_s: state.t_s, line: state.line, length: n, w0, w1, status, source: ref ? 'reference' : 'state', frame, frameAssumed,
+    t_s: state.t_s, line: state.line, file: state.file, length: n, w0, w1, status, source: ref ? 'reference' : 'state', frame, frameAssumed,
     timeOffset_s: offset, timeOffsetEstimated: offsetEstimated, origin: refPos?.origin, blocks, joint,
     estP, refP, estR: hasAtt ? estR : undefined, refR: hasAtt ? refR : undefined, refOwn, notes,
   };
