@@ -12,6 +12,7 @@ import { existsSync, mkdirSync, readFileSync, statSync, unlinkSync, writeFileSyn
 import { dirname, resolve, relative } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parseArgs } from 'node:util';
+import { loadavg, cpus } from 'node:os';
 import * as esbuild from 'esbuild';
 import { ensureBundle, newestSource } from './bench/bundle.mjs';
 import { measure, measureOnce, peakMethod } from './bench/measure.mjs';
@@ -35,6 +36,7 @@ const BIG_RUNS = Math.max(1, Number(opt['big-runs']));
 const ALLAN_N = Number(opt.allan);
 const NODE = process.execPath;
 const notes = [];
+const loadStart = loadavg()[0];
 const log = (s) => process.stderr.write(s + '\n');
 
 // ---------------------------------------------------------------- tools
@@ -229,6 +231,10 @@ if (profile) {
   lines.push(`Stage profile of one \`analyze --profile\` run on the ${fmtInt(csv.rows)}-row CSV: ${profile.split(/\s+/).join(', ')}.`);
 }
 if (csv.gen_s !== undefined) lines.push('', `Generating the ${fmtInt(csv.rows)}-row CSV took ${csv.gen_s.toFixed(1)} s (${fmtInt(csv.rows / csv.gen_s)} rows/s).`);
+const loadEnd = loadavg()[0];
+if (Math.max(loadStart, loadEnd) > cpus().length) {
+  notes.push(`The machine was busy: load average ${loadStart.toFixed(1)} at the start and ${loadEnd.toFixed(1)} at the end on ${cpus().length} cores, so wall times are inflated; ratios measured in the same run are the figures to trust.`);
+}
 if (notes.length) {
   lines.push('');
   for (const n of notes) lines.push(`- ${n}`);
