@@ -90,6 +90,12 @@ class BoundsCache {
   upper(count: number): number { return this.hi[count]; }
 }
 
+/** The first finite value of `t[0..n)`, NaN when there is none. */
+function firstFinite(t: Float64Array, n: number): number {
+  for (let i = 0; i < n; i++) if (Number.isFinite(t[i])) return t[i];
+  return NaN;
+}
+
 /** Prefix sums P[i] = sum of values[0..i). */
 export function prefixSums(values: Float64Array, n: number): Float64Array {
   const p = new Float64Array(n + 1);
@@ -116,7 +122,7 @@ export function slidingAverage(
   let full = 0;
   let fullInside95 = 0;
   let j = 0;
-  const t0 = n > 0 ? t_s[0] : 0;
+  const t0 = firstFinite(t_s, n);
   for (let i = 0; i < n; i++) {
     let isFull: boolean;
     if (byUpdates) {
@@ -167,16 +173,19 @@ export function windowTest(
     } else {
       const w = spec.size;
       const h = w / 2;
-      const t0 = t_s[0];
+      const t0 = firstFinite(t_s, n);
       let a = 0;
       let b = 0;
       let k = 0;
-      for (;;) {
+      // Each update lies in at most three windows and empty stretches are jumped over, so there are at most 3n
+      // windows; the cap only stops a window so small against the time stamps that t0 + k h stops moving.
+      for (let guard = 0; Number.isFinite(t0) && guard < 4 * n + 16; guard++) {
         const s = t0 + k * h;
-        while (a < n && t_s[a] < s) a++;
+        // `!(t >= s)` also steps over NaN times, which no window can place.
+        while (a < n && !(t_s[a] >= s)) a++;
         if (a >= n) break;
         if (b < a) b = a;
-        while (b < n && t_s[b] < s + w) b++;
+        while (b < n && !(t_s[b] >= s + w)) b++;
         if (b > a) {
           starts.push(a);
           ends.push(b);
@@ -184,7 +193,9 @@ export function windowTest(
           k++;
         } else {
           // Empty window (a gap in the log): jump to the first window that contains update a.
-          k = Math.max(k + 1, Math.floor((t_s[a] - w - t0) / h) + 1);
+          const next = Math.floor((t_s[a] - w - t0) / h) + 1;
+          if (!Number.isFinite(next)) break; // an infinite time stamp: nothing after it can be placed
+          k = Math.max(k + 1, next);
         }
       }
     }

@@ -176,6 +176,22 @@ describe('edge cases never throw and stay finite', () => {
   });
 });
 
+describe('hostile time stamps end the window scan', () => {
+  it('NaN and infinite times, and a window far below the time resolution', () => {
+    const v = Float64Array.from([1, 1, 1, 1, 1]);
+    const r1 = windowTest(Float64Array.from([NaN, 0, 1, NaN, 2]), v, 5, 1, { kind: 'seconds', size: 5 }, 0.01);
+    expect(r1.tests).toBe(1);
+    const r2 = windowTest(Float64Array.from([0, 1, Infinity, 3, 4]), v, 5, 1, { kind: 'seconds', size: 1 }, 0.01);
+    expect(r2.tests).toBeGreaterThanOrEqual(1);
+    const abs = Float64Array.from([1.7e9, 1.7e9 + 1, 1.7e9 + 2, 1.7e9 + 3, 1.7e9 + 4]);
+    const r3 = windowTest(abs, v, 5, 1, { kind: 'seconds', size: 1e-9 }, 0.01);
+    expect(r3.tests).toBeLessThanOrEqual(4 * 5 + 16);
+    const s = slidingAverage(Float64Array.from([NaN, NaN]), Float64Array.from([1, 2]), 2, 1, { kind: 'seconds', size: 1 }, 0.95);
+    expect(s.full).toBe(0);
+    expect(windowTest(Float64Array.from([NaN, NaN]), Float64Array.from([1, 2]), 2, 1, { kind: 'seconds', size: 1 }, 0.01).tests).toBe(0);
+  });
+});
+
 describe('window arithmetic (constructed)', () => {
   it('sliding averages by hand and half-overlapping tested windows', () => {
     const t = Float64Array.from([0, 1, 2, 3, 4, 5]);
