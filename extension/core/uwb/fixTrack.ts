@@ -6,6 +6,13 @@
  * Epochs: records sorted by time; an epoch opens at a record and takes every record within half the typical
  * update period of one link (the median over links of their median interval) after it; a link seen twice in an
  * epoch keeps its last value. TDOA and range records form separate epochs.
+ *
+ * Consistency passes (common practice for redundant fixes): with the typical residual RMS taken as the median over
+ * all fixes, an epoch whose RMS exceeds 3 times it (and {@link OUTLIER_FLOOR_M}) and that has at least 5
+ * measurements is solved again leaving out each measurement in turn; the best of these replaces it when its RMS is
+ * back under that limit (one gross error, which in a least-squares fit spreads over the other residuals and hides).
+ * A fix whose RMS still exceeds {@link OUTLIER_FACTOR} times the typical one is not kept (several gross errors, or
+ * a wrong local minimum); such fixes are counted in `rejected`.
  */
 import type { LinkTable, RawColumns } from './collect';
 import { rangeFix, type RangeObservation } from './rangeFix';
@@ -24,7 +31,16 @@ export interface FixTrack {
   rms_m: Float64Array;
   /** Epochs formed (fixes attempted). */
   epochs: number;
+  /** Epochs solved again without one gross error (leave-one-out). */
+  refitted: number;
+  /** Converged fixes left out for a residual RMS far above the others'. */
+  rejected: number;
 }
+
+/** A fix whose residual RMS exceeds this many times the typical one is not kept. */
+export const OUTLIER_FACTOR = 5;
+/** RMS below this never counts as inconsistent, metres (keeps noise-free epochs untouched). */
+export const OUTLIER_FLOOR_M = 0.05;
 
 /** A previous fix older than this is not used as the prior, seconds. */
 const PRIOR_MAX_AGE_S = 2;
@@ -44,6 +60,15 @@ export function typicalLinkPeriod_s(t_s: Float64Array, perLink: readonly number[
   return periods.length > 0 ? median(periods) : NaN;
 }
 
+/** One solved epoch (before the consistency passes). */
+interface Solved {
+  t: number;
+  p: Vec3_m;
+  rms: number;
+  tdoa?: TdoaObservation[];
+  range?: RangeObservation[];
+}
+
 /**
  * Solve every epoch of raw records. `perLink` lists the raw record indices per link (ascending time);
  * `estimateAt` gives the estimate at a time (undefined where unknown).
@@ -57,7 +82,7 @@ export function fixTrack(
 ): FixTrack {
   const period = typicalLinkPeriod_s(raw.t_s, perLink);
   const span = Number.isFinite(period) ? 0.5 * period : 0.05;
-  const out = { t: [] as number[], x: [] as number[], y: [] as number[], z: [] as number[], rms: [] as number[] };
+  const solved: Solved[] = [];
   let epochs = 0;
   for (const kind of [0, 1]) {
     const idx: number[] = [];
@@ -77,32 +102,71 @@ export function fixTrack(
       const tEpoch = tSum / (e - s);
       s = e;
       const prior = last && tEpoch - last.t <= PRIOR_MAX_AGE_S ? last.p : estimateAt(tEpoch);
-      let fix: { p: Vec3_m; rms_m: number } | undefined;
+      let entry: Solved | undefined;
       if (kind === 0) {
         const obs: TdoaObservation[] = [];
         for (const [L, k] of latest) obs.push({ i: links.a[L], j: links.b[L], d_m: raw.value_m[k] });
         if (countAnchors(obs) < 4) continue;
         epochs++;
-        fix = tdoaFix(positions, obs, prior);
+        const fix = tdoaFix(positions, obs, prior);
+        if (fix) entry = { t: tEpoch, p: fix.p, rms: fix.rms_m, tdoa: obs };
       } else {
         const obs: RangeObservation[] = [];
         for (const [L, k] of latest) obs.push({ anchor: links.a[L], r_m: raw.value_m[k] });
         if (obs.length < 4) continue;
         epochs++;
-        fix = rangeFix(positions, obs, prior);
+        const fix = rangeFix(positions, obs, prior);
+        if (fix) entry = { t: tEpoch, p: fix.p, rms: fix.rms_m, range: obs };
       }
-      if (!fix) continue;
-      last = { t: tEpoch, p: fix.p };
-      out.t.push(tEpoch);
-      out.x.push(fix.p[0]);
-      out.y.push(fix.p[1]);
-      out.z.push(fix.p[2]);
-      out.rms.push(fix.rms_m);
+      if (!entry) continue;
+      last = { t: entry.t, p: entry.p };
+      solved.push(entry);
     }
   }
-  const order = out.t.map((_, k) => k).sort((p, q) => out.t[p] - out.t[q] || p - q);
-  const pick = (a: number[]): Float64Array => Float64Array.from(order, (k) => a[k]);
-  return { length: order.length, t_s: pick(out.t), x: pick(out.x), y: pick(out.y), z: pick(out.z), rms_m: pick(out.rms), epochs };
+
+  // Second pass: an epoch whose residual RMS is well above the typical one, and which becomes typical when one
+  // measurement is left out, is solved without it (leave-one-out keeps one gross error from hiding by spreading
+  // over the other residuals).
+  const typical = median(solved.map((x) => x.rms));
+  const suspectLimit = Math.max(OUTLIER_FLOOR_M, 3 * typical);
+  let refitted = 0;
+  for (const x of solved) {
+    if (!(x.rms > suspectLimit)) continue;
+    let best: { p: Vec3_m; rms: number; tdoa?: TdoaObservation[]; range?: RangeObservation[] } | undefined;
+    const m = x.tdoa?.length ?? x.range?.length ?? 0;
+    if (m < 5) continue;
+    for (let drop = 0; drop < m; drop++) {
+      if (x.tdoa) {
+        const rest = x.tdoa.filter((_, k) => k !== drop);
+        if (countAnchors(rest) < 4) continue;
+        const fix = tdoaFix(positions, rest, x.p);
+        if (fix && (!best || fix.rms_m < best.rms)) best = { p: fix.p, rms: fix.rms_m, tdoa: rest };
+      } else if (x.range) {
+        const rest = x.range.filter((_, k) => k !== drop);
+        const fix = rangeFix(positions, rest, x.p);
+        if (fix && (!best || fix.rms_m < best.rms)) best = { p: fix.p, rms: fix.rms_m, range: rest };
+      }
+    }
+    if (best && best.rms <= suspectLimit) {
+      x.p = best.p;
+      x.rms = best.rms;
+      refitted++;
+    }
+  }
+  const rmsLimit = Math.max(OUTLIER_FLOOR_M, OUTLIER_FACTOR * typical);
+  const kept = solved.filter((x) => !(x.rms > rmsLimit)).sort((a, b) => a.t - b.t);
+  const col = (f: (x: Solved) => number): Float64Array => Float64Array.from(kept, f);
+  return {
+    length: kept.length,
+    t_s: col((x) => x.t),
+    x: col((x) => x.p[0]),
+    y: col((x) => x.p[1]),
+    z: col((x) => x.p[2]),
+    rms_m: col((x) => x.rms),
+    epochs,
+    refitted,
+    rejected: solved.length - kept.length,
+  };
 }
 
 function countAnchors(obs: readonly TdoaObservation[]): number {
@@ -113,3 +177,4 @@ function countAnchors(obs: readonly TdoaObservation[]): number {
   }
   return s.size;
 }
+

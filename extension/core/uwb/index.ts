@@ -140,9 +140,15 @@ export interface UwbBlock {
   multilateration: {
     epochs: number;
     fixes: number;
+    /** Epochs solved again without one gross error (fixTrack.ts). */
+    refitted: number;
+    /** Converged fixes left out because their residual RMS is far above the others' (fixTrack.ts). */
+    rejected: number;
     rmseVsTruth?: number;
     rmse2dVsTruth?: number;
     rmseVsEstimate?: number;
+    /** Median 3-D distance to the truth (robust to the rare fix thrown far by weak vertical geometry), metres. */
+    medianErrorVsTruth?: number;
     /** Median RMS of the fixes' own measurement residuals, metres. */
     medianResidual?: number;
   };
@@ -550,7 +556,7 @@ export function analyzeUwb(
     const p: Vec3_m = [q.x[0], q.y[0], q.z[0]];
     return p.every(Number.isFinite) ? p : undefined;
   });
-  const multilateration: UwbBlock['multilateration'] = { epochs: fixes.epochs, fixes: fixes.length };
+  const multilateration: UwbBlock['multilateration'] = { epochs: fixes.epochs, fixes: fixes.length, refitted: fixes.refitted, rejected: fixes.rejected };
   if (fixes.length > 0) {
     multilateration.medianResidual = median(fixes.rms_m);
     const rmse = (ref: ReturnType<typeof truthAt>, dims: number): number | undefined => {
@@ -583,7 +589,10 @@ export function analyzeUwb(
     if (atTruth) {
       const err = new Float64Array(fixes.length);
       for (let k = 0; k < fixes.length; k++) err[k] = Math.hypot(fixes.x[k] - atTruth.x[k], fixes.y[k] - atTruth.y[k], fixes.z[k] - atTruth.z[k]);
+      series.push({ key: 'uwb/fix/rms', group: 'uwb', label: 'UWB fix residual RMS', unit: 'm', x: tq, y: fixes.rms_m });
       series.push({ key: 'uwb/fix/errorVsTruth', group: 'uwb', label: 'UWB fix error against ground truth', unit: 'm', x: tq, y: err });
+      const finiteErr = Array.from(err).filter(Number.isFinite);
+      if (finiteErr.length > 0) multilateration.medianErrorVsTruth = median(finiteErr);
     }
   }
 
