@@ -41,7 +41,7 @@ const { contentSecurityPolicy, panelHtml } = await import('../../extension/host/
 describe('toProblems', () => {
   const log = vscode.Uri.file('/w/run.csv');
   const map = vscode.Uri.file('/w/run.csv.map.json');
-  const resolve = (f: string | undefined): InstanceType<typeof vscode.Uri> => (f === 'run.csv.map.json' ? map : log);
+  const resolve = (f: string | undefined): typeof log => (f === 'run.csv.map.json' ? map : log);
   it('caps findings worst first, with Warning/Information severity, source and code', () => {
     const problems = toProblems(
       [

@@ -1,6 +1,6 @@
 // Pure host modules: settings mapping, finding ranking and stepping, the headline figure, the mapping-file edit,
 // the NIS histogram and the series store. Hand-worked expectations unless a source is named.
-import jStat from 'jstat';
+import { jStat } from '../core/stats/references';
 import { describe, expect, it } from 'vitest';
 import type { Finding } from '../../extension/core/report';
 import type { Series } from '../../extension/core/series';
