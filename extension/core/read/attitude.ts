@@ -17,33 +17,43 @@ export const ATTITUDE_REPAIR_LIMIT = 0.1;
 export type AttitudeStatus = 'ok' | 'repaired' | 'dropped';
 
 /**
- * Check and, where allowed, normalise the quaternion [w, x, y, z] in `q` (in place). Returns the status and the norm
- * defect |norm - 1|. A dropped quaternion is set to NaN.
+ * Defect of the last attitude checked (|norm - 1| of a quaternion, or the matrix defect) in element 0. An array, not
+ * a result object or a module variable, so the per-epoch check allocates nothing (a double stored in a module
+ * variable is boxed).
  */
-export function checkQuaternion(q: Float64Array): { status: AttitudeStatus; defect: number } {
-  const norm = Math.hypot(q[0], q[1], q[2], q[3]);
+export const lastAttitudeDefect = new Float64Array(1);
+
+/**
+ * Check and, where allowed, normalise the quaternion [w, x, y, z] in `q` (in place). Returns the status; the norm
+ * defect |norm - 1| is left in `lastAttitudeDefect[0]`. A dropped quaternion is set to NaN.
+ */
+export function checkQuaternion(q: Float64Array): AttitudeStatus {
+  const norm = Math.sqrt(q[0] * q[0] + q[1] * q[1] + q[2] * q[2] + q[3] * q[3]);
   const defect = Math.abs(norm - 1);
-  if (defect <= ATTITUDE_TOLERANCE) return { status: 'ok', defect };
+  lastAttitudeDefect[0] = defect;
+  if (defect <= ATTITUDE_TOLERANCE) return 'ok';
   if (defect <= ATTITUDE_REPAIR_LIMIT && norm > 0) {
     q[0] /= norm; q[1] /= norm; q[2] /= norm; q[3] /= norm;
-    return { status: 'repaired', defect };
+    return 'repaired';
   }
   q.fill(NaN);
-  return { status: 'dropped', defect: Number.isFinite(defect) ? defect : Infinity };
+  if (!Number.isFinite(defect)) lastAttitudeDefect[0] = Infinity;
+  return 'dropped';
 }
 
 /**
- * Quaternion (into `q`) of the row-major body-to-navigation matrix `m` (r_11..r_33), with its defect. A matrix off by
- * more than the repair limit gives NaN.
+ * Quaternion (into `q`) of the row-major body-to-navigation matrix `m` (r_11..r_33); its defect is left in
+ * `lastAttitudeDefect[0]`. A matrix off by more than the repair limit gives NaN.
  */
-export function quaternionFromMatrix(q: Float64Array, m: Float64Array): { status: AttitudeStatus; defect: number } {
+export function quaternionFromMatrix(q: Float64Array, m: Float64Array): AttitudeStatus {
   const defect = rotationDefect(m);
+  lastAttitudeDefect[0] = defect;
   if (defect > ATTITUDE_REPAIR_LIMIT) {
     q.fill(NaN);
-    return { status: 'dropped', defect };
+    return 'dropped';
   }
   quatFromMat(q, m);
-  return { status: defect > ATTITUDE_TOLERANCE ? 'repaired' : 'ok', defect };
+  return defect > ATTITUDE_TOLERANCE ? 'repaired' : 'ok';
 }
 
 /** Quaternion (into `q`) of ZYX Euler angles in radians: R = Rz(yaw) Ry(pitch) Rx(roll). */

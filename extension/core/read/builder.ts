@@ -8,6 +8,7 @@ import type { Anchor, Channel, ImuStream, RangeStream, StateStream, TdoaStream }
 import { DiagnosticSink } from './diagnostics';
 
 const INITIAL_CAPACITY = 256;
+const TIME_BOX = new Float64Array(1);
 
 /** One column of a stream, `width` values per record. `arr` is replaced when the stream grows. */
 export class Slot {
@@ -49,9 +50,18 @@ export class StreamBuilder {
 
   /** Append a record and return its index. */
   add(t: number, line: number, file: number): number {
+    TIME_BOX[0] = t;
+    return this.addBoxed(TIME_BOX, line, file);
+  }
+
+  /**
+   * Append a record whose time is `tBox[0]`. The hot path passes the time in an array because a double argument
+   * to a call V8 does not inline is boxed in a fresh heap number (garbage on every record).
+   */
+  addBoxed(tBox: Float64Array, line: number, file: number): number {
     if (this.length === this.capacity) this.grow();
     const i = this.length++;
-    this.t[i] = t;
+    this.t[i] = tBox[0];
     this.line[i] = line;
     this.fileIndex[i] = file;
     const seg = this.segments[this.segments.length - 1];

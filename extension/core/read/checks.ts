@@ -11,9 +11,10 @@ export const GAP_FACTOR = 5;
 /** Findings of each kind listed per stream before one summary line. */
 export const TIME_FINDINGS_CAP = 20;
 
-function median(values: Float64Array): number {
+/** Median of `values`, which it sorts in place. */
+function medianInPlace(values: Float64Array): number {
   if (values.length === 0) return NaN;
-  const s = Float64Array.from(values).sort();
+  const s = values.sort();
   const m = s.length >> 1;
   return s.length % 2 ? s[m] : 0.5 * (s[m - 1] + s[m]);
 }
@@ -33,7 +34,7 @@ export function timeChecks(b: StreamBuilder, what: string, files: string[], chan
       const d = t[i] - t[i - 1];
       if (d > 0) steps[ns++] = d;
     }
-    const med = median(steps.subarray(0, ns));
+    const med = medianInPlace(steps.subarray(0, ns));
     let back = 0, gaps = 0;
     const mk = (kind: 'time-backwards' | 'time-gap', i: number, message: string): Diagnostic => {
       const d: Diagnostic = { severity: 'warning', kind, file, line: line[i], t: t[i], message };

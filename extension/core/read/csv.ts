@@ -9,7 +9,7 @@ import Papa from 'papaparse/papaparse.js';
 import { ByteBuffer, LineSplitter } from './bytes';
 import type { FileSpec, Mapping } from './mapping';
 import { compilePlan, CELL_NUM, CELL_SKIP, CELL_STR, CELL_TIME, type FileRole, type RowPlan } from './plan';
-import { NUM_INVALID, NUM_MISSING, NUM_NONFINITE, NUM_OK, numStatus, numStop, parseDecimal, parseNumberText } from './numbers';
+import { NUM_INVALID, NUM_MISSING, NUM_NONFINITE, NUM_OK, numStatus, numStop, numValue, parseDecimal, parseNumberText } from './numbers';
 import type { RunBuilder } from './builder';
 import { charColumn, decodeUtf8 } from './utf8';
 import { parseWallClock } from './wallclock';
@@ -55,6 +55,7 @@ export class CsvFileReader {
   private inRecord = false;
   private recQuotes = 0;
   private dataRows = 0;
+  private readonly idCache = new Map<number, { bytes: Uint8Array; text: string }>();
   private dataBytes = 0;
 
   constructor(private readonly run: RunBuilder, readonly file: string, private readonly opts: CsvFileOptions) {
@@ -296,10 +297,9 @@ export class CsvFileReader {
       const kind = kinds[c];
       const start = p;
       if (kind === CELL_NUM) {
-        const v = parseDecimal(b, p, e, delim);
-        const st = numStatus;
+        const st = parseDecimal(b, p, e, delim);
         p = numStop;
-        if (st === NUM_OK) vals[c] = v * scale[c] + offset[c];
+        if (st === NUM_OK) vals[c] = numValue[0] * scale[c] + offset[c];
         else {
           vals[c] = NaN;
           if (st === NUM_NONFINITE) this.badCell('bad-value', line, charColumn(b, s, start), c, decodeUtf8(b, start, p).trim());
@@ -307,8 +307,8 @@ export class CsvFileReader {
         }
       } else {
         while (p < e && b[p] !== delim) p++;
-        if (kind === CELL_STR) strs[c] = normalizeId(decodeUtf8(b, start, p));
-        else if (kind === CELL_TIME) vals[c] = this.timeCell(b, start, p, c, line, s);
+        if (kind === CELL_STR) strs[c] = this.idCell(b, start, p);
+        else if (kind === CELL_TIME) this.timeCell(b, start, p, c, line, s);
       }
       c++;
       if (p >= e || c === ncols) break;
@@ -324,6 +324,25 @@ export class CsvFileReader {
       if (!(extra === 1 && this.isBlank(b, p + 1, e))) this.ragged(line, ncols + extra, ncols);
     }
     plan.row(vals, strs, line);
+  }
+
+  /**
+   * An id cell as a normalised string. Ids repeat (anchor pairs, satellites), so their strings are cached by the
+   * bytes (FNV-1a hash, bytes compared) instead of decoding and normalising every row.
+   */
+  private idCell(b: Uint8Array, start: number, end: number): string {
+    if (end - start > 64) return normalizeId(decodeUtf8(b, start, end));
+    let h = 0x811c9dc5;
+    for (let k = start; k < end; k++) h = Math.imul(h ^ b[k], 0x01000193);
+    const hit = this.idCache.get(h);
+    if (hit && hit.bytes.length === end - start) {
+      let same = true;
+      for (let k = 0; k < hit.bytes.length; k++) if (hit.bytes[k] !== b[start + k]) { same = false; break; }
+      if (same) return hit.text;
+    }
+    const text = normalizeId(decodeUtf8(b, start, end));
+    if (this.idCache.size < 4096) this.idCache.set(h, { bytes: b.slice(start, end), text });
+    return text;
   }
 
   /** After the first rows, reserve every growing stream in proportion to the file size. */
@@ -344,13 +363,14 @@ export class CsvFileReader {
       { key: `${this.file}:ragged` });
   }
 
-  private timeCell(b: Uint8Array, start: number, end: number, c: number, line: number, lineStart: number): number {
+  /** The time cell into vals[c] (written there, not returned: a returned double would be boxed per row). */
+  private timeCell(b: Uint8Array, start: number, end: number, c: number, line: number, lineStart: number): void {
     const plan = this.plan as RowPlan;
-    const v = parseDecimal(b, start, end, -1);
-    if (numStatus === NUM_OK) return v * plan.scale[c] + plan.offset[c];
-    if (numStatus === NUM_MISSING) return NaN;
+    parseDecimal(b, start, end, -1);
+    if (numStatus === NUM_OK) { this.vals[c] = numValue[0] * plan.scale[c] + plan.offset[c]; return; }
+    if (numStatus === NUM_MISSING) { this.vals[c] = NaN; return; }
     const text = decodeUtf8(b, start, end).trim();
-    return this.timeText(text, c, line, charColumn(b, lineStart, start));
+    this.vals[c] = this.timeText(text, c, line, charColumn(b, lineStart, start));
   }
 
   private timeText(text: string, c: number, line: number, column: number): number {

@@ -7,7 +7,7 @@
  * or NIS for that channel; IMU = any gyro/acc/mag value; TDOA / range = a finite distance).
  */
 import { choleskyFactor } from '../linalg/cholesky';
-import { checkQuaternion, quaternionFromEuler, quaternionFromMatrix, type AttitudeStatus } from './attitude';
+import { checkQuaternion, lastAttitudeDefect, quaternionFromEuler, quaternionFromMatrix, type AttitudeStatus } from './attitude';
 import { ChannelBuilder, RunBuilder, Slot, StreamBuilder } from './builder';
 import type { ColumnSpec, FileSpec, Mapping } from './mapping';
 import { normalizeName, resolveMappedRole, resolveName, type Role } from './names';
@@ -93,6 +93,8 @@ export class RowPlan {
   rowIndex = 0;
   private noTimeNoted = false;
   private readonly q = new Float64Array(4);
+  /** The current row's time (an array: see StreamBuilder.addBoxed). */
+  private readonly tBox = new Float64Array(1);
   private readonly m = new Float64Array(9);
   private scratch = new Float64Array(0);
   private chol = new Float64Array(0);
@@ -131,16 +133,20 @@ export class RowPlan {
       }
     }
     this.rowIndex++;
+    this.tBox[0] = t;
     const fi = this.fileIdx;
 
     // State
-    if (this.stateCols.length > 0) {
+    const stateCols = this.stateCols;
+    if (stateCols.length > 0) {
       let any = false;
-      for (const c of this.stateCols) if (vals[c] === vals[c]) { any = true; break; }
+      for (let k = 0; k < stateCols.length; k++) if (vals[stateCols[k]] === vals[stateCols[k]]) { any = true; break; }
       if (any) {
         const target = this.target;
-        const i = target.add(t, line, fi);
-        for (const s of this.simple) {
+        const i = target.addBoxed(this.tBox, line, fi);
+        const simple = this.simple;
+        for (let k = 0; k < simple.length; k++) {
+          const s = simple[k];
           let v = vals[s.col];
           if (s.variance && v === v) {
             if (v < 0) {
@@ -151,42 +157,48 @@ export class RowPlan {
           }
           s.slot.arr[i] = v;
         }
-        for (const g of this.attitude) this.writeAttitude(g, vals, i, t, line);
+        const att = this.attitude;
+        for (let k = 0; k < att.length; k++) this.writeAttitude(att[k], vals, i, line);
       }
     }
 
     // Channels
-    for (const p of this.channels) {
+    const channels = this.channels;
+    for (let k = 0; k < channels.length; k++) {
+      const p = channels[k];
+      const nu = p.nu;
       let any = p.nis >= 0 && vals[p.nis] === vals[p.nis];
-      if (!any) for (const n of p.nu) if (vals[n.col] === vals[n.col]) { any = true; break; }
+      if (!any) for (let u = 0; u < nu.length; u++) if (vals[nu[u].col] === vals[nu[u].col]) { any = true; break; }
       if (!any) continue;
       const ch = p.ch;
       const d = ch.dof;
-      const i = ch.add(t, line, fi);
-      for (const n of p.nu) if (n.index < d) p.nuSlot.arr[i * d + n.index] = vals[n.col];
+      const i = ch.addBoxed(this.tBox, line, fi);
+      const nuArr = p.nuSlot.arr;
+      for (let u = 0; u < nu.length; u++) if (nu[u].index < d) nuArr[i * d + nu[u].index] = vals[nu[u].col];
       if (p.nisSlot) p.nisSlot.arr[i] = vals[p.nis];
       if (p.id >= 0) {
         const s = strs[p.id];
         if (s !== undefined && s !== '') p.idSlot.arr[i] = ch.ids.id(s);
       }
       if (p.rejSlot) p.rejSlot.arr[i] = vals[p.rejected];
-      if (p.sSlot) this.writeS(p, vals, i, t, line);
+      if (p.sSlot) this.writeS(p, vals, i, line);
     }
 
     // Raw IMU
-    if (this.imu.length > 0) {
+    const imu = this.imu;
+    if (imu.length > 0) {
       let any = false;
-      for (const m of this.imu) if (vals[m.col] === vals[m.col]) { any = true; break; }
+      for (let k = 0; k < imu.length; k++) if (vals[imu[k].col] === vals[imu[k].col]) { any = true; break; }
       if (any) {
-        const i = run.imu.add(t, line, fi);
-        for (const m of this.imu) m.slot.arr[i] = vals[m.col];
+        const i = run.imu.addBoxed(this.tBox, line, fi);
+        for (let k = 0; k < imu.length; k++) imu[k].slot.arr[i] = vals[imu[k].col];
       }
     }
 
     // Raw TDOA
     const td = this.tdoa;
     if (td && vals[td.d] === vals[td.d]) {
-      const i = run.tdoa.add(t, line, fi);
+      const i = run.tdoa.addBoxed(this.tBox, line, fi);
       td.dSlot.arr[i] = vals[td.d];
       const si = td.i >= 0 ? strs[td.i] : undefined;
       const sj = td.j >= 0 ? strs[td.j] : undefined;
@@ -195,17 +207,20 @@ export class RowPlan {
     }
 
     // Ranges
-    for (const r of this.ranges) {
+    const ranges = this.ranges;
+    for (let k = 0; k < ranges.length; k++) {
+      const r = ranges[k];
       const v = vals[r.col];
       if (v !== v) continue;
       const id = r.anchor ?? (r.anchorCol >= 0 ? strs[r.anchorCol] : undefined);
-      const i = run.ranges.add(t, line, fi);
+      const i = run.ranges.addBoxed(this.tBox, line, fi);
       this.rangeSlot.arr[i] = v;
       this.rangeAnchorSlot.arr[i] = id ? run.anchorIds.id(id) : NaN;
     }
 
     // Anchor positions given in columns
-    for (const a of this.anchorPos) {
+    for (let k = 0; k < this.anchorPos.length; k++) {
+      const a = this.anchorPos[k];
       const id = strs[a.anchorCol];
       if (!id) continue;
       const x = vals[a.cols[0]], y = vals[a.cols[1]], z = vals[a.cols[2]];
@@ -225,19 +240,20 @@ export class RowPlan {
       `${what} is off by ${defect.toPrecision(3)} (more than 1e-3); ${fix}.`, { t, key: `${this.file}:rot:${g.prefix}` });
   }
 
-  private writeAttitude(g: AttitudeGroup, vals: Float64Array, i: number, t: number, line: number): void {
+  private writeAttitude(g: AttitudeGroup, vals: Float64Array, i: number, line: number): void {
     const q = this.q;
+    const t = this.tBox[0];
     if (g.quat) {
       for (let k = 0; k < 4; k++) q[k] = vals[g.quat[k]];
       if (q[0] !== q[0] || q[1] !== q[1] || q[2] !== q[2] || q[3] !== q[3]) return;
-      const r = checkQuaternion(q);
-      this.attitudeNote(r.status, r.defect, `The ${g.prefix}quaternion's norm`, t, line, g);
+      const st = checkQuaternion(q);
+      if (st !== 'ok') this.attitudeNote(st, lastAttitudeDefect[0], `The ${g.prefix}quaternion's norm`, t, line, g);
     } else if (g.mat) {
       const m = this.m;
       for (let k = 0; k < 9; k++) m[k] = vals[g.mat[k]];
       for (let k = 0; k < 9; k++) if (m[k] !== m[k]) return;
-      const r = quaternionFromMatrix(q, m);
-      this.attitudeNote(r.status, r.defect, `The ${g.prefix}rotation matrix (largest of |det-1| and |R R^T - I|)`, t, line, g);
+      const st = quaternionFromMatrix(q, m);
+      if (st !== 'ok') this.attitudeNote(st, lastAttitudeDefect[0], `The ${g.prefix}rotation matrix (largest of |det-1| and |R R^T - I|)`, t, line, g);
     } else if (g.euler) {
       const roll = vals[g.euler[0]], pitch = vals[g.euler[1]], yaw = vals[g.euler[2]];
       if (roll !== roll || pitch !== pitch || yaw !== yaw) return;
@@ -246,17 +262,20 @@ export class RowPlan {
     for (let k = 0; k < 4; k++) g.slots[k].arr[i] = q[k];
   }
 
-  private writeS(p: ChannelPlan, vals: Float64Array, i: number, t: number, line: number): void {
+  private writeS(p: ChannelPlan, vals: Float64Array, i: number, line: number): void {
     const d = p.ch.dof;
+    const t = this.tBox[0];
+    const sc = p.s;
     let any = false;
-    for (const s of p.s) if (vals[s.col] === vals[s.col]) { any = true; break; }
+    for (let k = 0; k < sc.length; k++) if (vals[sc[k].col] === vals[sc[k].col]) { any = true; break; }
     if (!any) return;
     const arr = (p.sSlot as Slot).arr;
     const base = i * d * d;
     for (let k = 0; k < d * d; k++) arr[base + k] = 0;
     for (let k = 0; k < d; k++) arr[base + k * d + k] = NaN;
     let asym = 0;
-    for (const s of p.s) {
+    for (let k = 0; k < sc.length; k++) {
+      const s = sc[k];
       const v = vals[s.col];
       if (v !== v) continue;
       if (s.i < 0) {
@@ -285,7 +304,7 @@ export class RowPlan {
     }
     for (let k = 0; k < d; k++) if (arr[base + k * d + k] !== arr[base + k * d + k]) return;
     if (this.chol.length < d * d) { this.chol = new Float64Array(d * d); this.scratch = new Float64Array(d * d); }
-    this.scratch.set(arr.subarray(base, base + d * d));
+    for (let k = 0; k < d * d; k++) this.scratch[k] = arr[base + k];
     if (!choleskyFactor(this.scratch, 0, d, this.chol, 0)) {
       this.run.diagnostics.report('warning', 'bad-covariance', this.file, line,
         `The innovation covariance of channel ${ch} is not positive definite.`, { t, channel: ch });

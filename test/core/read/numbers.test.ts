@@ -2,13 +2,14 @@
 // (round-to-nearest conversion as the language specification defines it), over seeded random decimals.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { NUM_INVALID, NUM_MISSING, NUM_NONFINITE, NUM_OK, numStatus, numStop, parseDecimal, parseNumberText } from '../../../extension/core/read/numbers';
+import { NUM_INVALID, NUM_MISSING, NUM_NONFINITE, NUM_OK, numStatus, numStop, numValue, parseDecimal, parseNumberText } from '../../../extension/core/read/numbers';
 import { encodeUtf8 } from '../../../extension/core/read/utf8';
 
 function parse(text: string): { v: number; status: number; stop: number } {
   const b = encodeUtf8(`${text},`);
-  const v = parseDecimal(b, 0, b.length, 0x2c);
-  return { v, status: numStatus, stop: numStop };
+  const status = parseDecimal(b, 0, b.length, 0x2c);
+  expect(status).toBe(numStatus);
+  return { v: numValue[0], status, stop: numStop };
 }
 
 describe('parseDecimal', () => {
