@@ -19,7 +19,7 @@ import {
 import { buildErrorTrack, type BlockName, type BlockTrack, type ErrorTrack } from './track';
 import { applyAlignmentTo, umeyama } from './umeyama';
 
-export { analyzeMonteCarlo, type MonteCarloBlock } from './montecarlo';
+export { analyzeMonteCarlo, monteCarloSeries, type MonteCarloBlock, type MonteCarloSeries } from './montecarlo';
 export { buildErrorTrack, type ErrorTrack } from './track';
 
 /** Expected share of a Gaussian error inside +-3 sigma. */

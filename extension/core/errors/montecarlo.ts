@@ -8,6 +8,7 @@
  */
 import type { NavLog, Channel } from '../model';
 import type { AnalysisSettings } from '../settings';
+import type { Series } from '../series';
 import { chi2MeanInterval } from '../stats/chi2';
 import { computeNis } from '../consistency/nis';
 import { medianStep } from './align';
@@ -124,4 +125,20 @@ export function analyzeMonteCarlo(runs: NavLog[], settings: AnalysisSettings): M
     block.nis[name] = averageOnGrid(chans[0].t_s.slice(0, chans[0].length), per, dof, settings.confidence);
   }
   return block;
+}
+
+/**
+ * The panel's series of a Monte Carlo block: `montecarlo/nees/<block>` and `montecarlo/nis/<channel>`, the N-run
+ * average per epoch with its chi2(N n)/N interval as `lo`/`hi`.
+ */
+export function monteCarloSeries(block: MonteCarloBlock): Series[] {
+  const out: Series[] = [];
+  const add = (key: string, label: string, m: MonteCarloSeries): void => {
+    out.push({ key, group: 'errors', label, unit: '1', x: m.t, y: m.average, lo: m.lo, hi: m.hi });
+  };
+  for (const [name, m] of Object.entries(block.nees)) {
+    if (m) add(`montecarlo/nees/${name}`, `${name}: average NEES over ${block.runs} runs (${m.dof} dof) with its interval`, m);
+  }
+  for (const [name, m] of Object.entries(block.nis)) add(`montecarlo/nis/${name}`, `${name}: average NIS over ${block.runs} runs (${m.dof} dof) with its interval`, m);
+  return out;
 }

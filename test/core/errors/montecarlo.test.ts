@@ -3,7 +3,7 @@
  * sec 2.2 ([COMPUTED], tol 1e-4); runs are seeded simulations of our own.
  */
 import { describe, expect, it } from 'vitest';
-import { analyzeMonteCarlo } from '../../../extension/core/errors/index';
+import { analyzeMonteCarlo, monteCarloSeries } from '../../../extension/core/errors/index';
 import { resolveSettings } from '../../../extension/core/settings';
 import type { Channel, NavLog } from '../../../extension/core/model';
 import { simulateRun } from './simulate';
@@ -43,6 +43,10 @@ describe('analyzeMonteCarlo', () => {
     expect(Math.abs(r.bounds95[0] - 0.6471)).toBeLessThan(1e-4);
     expect(Math.abs(r.bounds95[1] - 1.4284)).toBeLessThan(1e-4);
     expect(r.inside95 as number).toBeGreaterThan(0.92);
+    const series = monteCarloSeries(mc);
+    const sp = series.find((x) => x.key === 'montecarlo/nees/position');
+    expect(sp?.lo?.[0]).toBeCloseTo(2.3597, 4);
+    expect(series.some((x) => x.key === 'montecarlo/nis/range')).toBe(true);
   });
 
   it('overconfident runs (covariance / 4) fall outside nearly everywhere', () => {
