@@ -61,12 +61,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
   }
   const { nis, source } = computeNisDetailed(channel);
   const nu = wrappedInnovations(channel);
-  const S = channel.S;
-  const dd = dof * dof;
-  const hasS = S !== undefined && S.length >= n * dd;
   const t = channel.t_s;
-  const rej = channel.rejected;
-  const idCol = channel.id;
   const lineCol = channel.line;
   const ids = channel.ids;
   const nIds = ids.length;
@@ -97,13 +92,14 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
   const gateText = `${formatPercent(settings.gate)} gate (${formatNumber(gateValue, 3)}) for ${dof} dof`;
   for (let q = 0; q < outlierIdx.length; q++) {
     const i = outlierIdx[q];
+    const id = idOf(channel, i);
     const f: Finding = {
       kind: 'outlier',
       t: t[i],
-      line: channel.line[i],
+      line: lineCol[i],
       file: channel.file,
       channel: name,
-      ...(idOf(channel, i) !== undefined ? { id: idOf(channel, i) } : {}),
+      ...(id !== undefined ? { id } : {}),
       score: nis[i],
       p: chi2Sf(nis[i], dof),
       severity: 'warning',
@@ -120,7 +116,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
   const worst: WorstEntry[] = best.items.map((i, r) => {
     const id = idOf(channel, i);
     return {
-      t: t[i], line: channel.line[i], channel: name, ...(id !== undefined ? { id } : {}),
+      t: t[i], line: lineCol[i], channel: name, ...(id !== undefined ? { id } : {}),
       score: best.keys[r], p: chi2Sf(best.keys[r], dof),
     };
   });
@@ -155,7 +151,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
         kind: 'inconsistent',
         t: tC[r.first],
         tEnd: tC[r.last],
-        line: channel.line[i0],
+        line: lineCol[i0],
         file: channel.file,
         channel: name,
         side: r.side,
