@@ -91,13 +91,36 @@ const AXES = ['x', 'y', 'z'];
 const UNIT: Record<BiasSensor, string> = { gyro: 'rad/s', accel: 'm/s^2' };
 const SHOW_UNIT: Record<BiasSensor, string> = { gyro: 'deg/h', accel: 'ug' };
 
-/** Median of a numeric array (copy sorted). NaN for empty. */
-function median(values: ArrayLike<number>): number {
-  const v = Float64Array.from(values).sort(); // typed-array sort is numeric
+/** The k-th smallest value of `a` (0-based), partially reordering `a` in place (Hoare's quickselect). */
+function selectInPlace(a: Float64Array, k: number): number {
+  let lo = 0;
+  let hi = a.length - 1;
+  while (hi > lo) {
+    const pivot = a[(lo + hi) >> 1];
+    let i = lo;
+    let j = hi;
+    while (i <= j) {
+      while (a[i] < pivot) i++;
+      while (a[j] > pivot) j--;
+      if (i <= j) { const tmp = a[i]; a[i] = a[j]; a[j] = tmp; i++; j--; }
+    }
+    if (k <= j) hi = j;
+    else if (k >= i) lo = i;
+    else return a[k];
+  }
+  return a[k];
+}
 
+/** Median of finite numbers (a copy is partially reordered: O(n) expected). NaN for empty. */
+export function median(values: ArrayLike<number>): number {
+  const v = Float64Array.from(values);
   if (v.length === 0) return NaN;
   const h = v.length >> 1;
-  return v.length % 2 ? v[h] : (v[h - 1] + v[h]) / 2;
+  const upper = selectInPlace(v, h);
+  if (v.length % 2) return upper;
+  let lower = -Infinity; // the largest value below position h, after the partition
+  for (let i = 0; i < h; i++) if (v[i] > lower) lower = v[i];
+  return (lower + upper) / 2;
 }
 
 /** 1.4826 x median absolute deviation around `center` (consistent for a normal scale). */
@@ -214,12 +237,16 @@ function analyzeAxis(
   const n = state.length;
   const name = `${sensor} bias ${AXES[axis]}`;
   // finite samples with increasing time
-  const idx: number[] = [];
+  const idxAll = new Int32Array(n);
+  let count = 0;
   let lastT = -Infinity;
   for (let i = 0; i < n; i++) {
-    if (Number.isFinite(col[i]) && Number.isFinite(t[i]) && t[i] > lastT) { idx.push(i); lastT = t[i]; }
+    const ti = t[i];
+    const ci = col[i];
+    if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { idxAll[count++] = i; lastT = ti; } // finite, time increasing
   }
-  if (idx.length < 2) return undefined;
+  if (count < 2) return undefined;
+  const idx = idxAll.subarray(0, count);
   const t0 = t[0] <= t[idx[0]] && Number.isFinite(t[0]) ? t[0] : t[idx[0]];
   const first = col[idx[0]];
   const last = col[idx[idx.length - 1]];
@@ -227,10 +254,17 @@ function analyzeAxis(
   if (sigmaCol) for (let i = n - 1; i >= 0; i--) if (Number.isFinite(sigmaCol[i])) { sigmaFinal = sigmaCol[i]; break; }
 
   // series
-  const xs = new Float64Array(idx.length);
-  const ys = new Float64Array(idx.length);
-  const ls = new Float64Array(idx.length);
-  for (let j = 0; j < idx.length; j++) { xs[j] = t[idx[j]]; ys[j] = col[idx[j]]; ls[j] = state.line[idx[j]]; }
+  // the usable samples; when every record is usable, views of the columns (no copy: a long log's copies cost more
+  // than the analysis)
+  let xs: Float64Array;
+  let ys: Float64Array;
+  let ls: Float64Array;
+  if (count === n) {
+    xs = t.subarray(0, n); ys = col.subarray(0, n); ls = state.line.subarray(0, n);
+  } else {
+    xs = new Float64Array(count); ys = new Float64Array(count); ls = new Float64Array(count);
+    for (let j = 0; j < count; j++) { xs[j] = t[idx[j]]; ys[j] = col[idx[j]]; ls[j] = state.line[idx[j]]; }
+  }
   const s: Series = { key: `bias/${sensor}/${AXES[axis]}`, group: 'bias', label: `${sensor} bias ${AXES[axis]}`, unit: UNIT[sensor], x: xs, y: ys, line: ls };
   if (sigmaCol) {
     const lo = new Float64Array(idx.length);
@@ -251,15 +285,18 @@ function analyzeAxis(
   const steps: number[] = [];
   for (let j = 1; j < idx.length; j += Math.max(1, Math.floor(idx.length / 20000))) steps.push(xs[j] - xs[j - 1]);
   const dtMedian = median(steps);
-  const d: number[] = [];
-  const pos: number[] = [];
+  const dAll = new Float64Array(idx.length - 1);
+  const posAll = new Int32Array(idx.length - 1);
+  let nd = 0;
   for (let j = 1; j < idx.length; j++) {
     const v = ys[j] - ys[j - 1];
     if (dropZeros && v === 0) continue;
     const r = dtMedian > 0 ? Math.max(1, (xs[j] - xs[j - 1]) / dtMedian) : 1;
-    d.push(r > 1 ? v / Math.sqrt(r) : v);
-    pos.push(j);
+    dAll[nd] = r > 1 ? v / Math.sqrt(r) : v;
+    posAll[nd++] = j;
   }
+  const d = dAll.subarray(0, nd);
+  const pos = posAll.subarray(0, nd);
   const result: AxisResult = {
     final: last, totalChange: last - first, driftPerHour: NaN, settleTime: xs[0] - t0, sigmaFinal, steps: [], h: NaN, series,
   };
@@ -267,7 +304,7 @@ function analyzeAxis(
     result.driftPerHour = driftRate(xs, ys, 0);
     return result;
   }
-  const ref = d.slice(d.length >> 1);
+  const ref = d.subarray(d.length >> 1);
   const med = median(ref);
   const scale = robustScale(ref, med);
   if (!(scale > 0)) {
@@ -295,8 +332,8 @@ function analyzeAxis(
 
   // steps: two-sided CUSUM on the normalised settled increments
   const nAfter = d.length - settleInc;
-  const z = new Float64Array(nAfter);
-  for (let j = 0; j < nAfter; j++) z[j] = (d[settleInc + j] - med) / scale;
+  const z = d.subarray(settleInc); // normalised in place: the raw corrections are not needed any more
+  for (let j = 0; j < nAfter; j++) z[j] = (z[j] - med) / scale;
   const h = cusumThresholdForArl(Math.max(nAfter, 2) / options.alpha, 0.5);
   result.h = h;
   const changes = detectChanges(z, h, 0.5);

@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { analyzeBias } from '../../../extension/core/imu/index';
-import { plausibleBiasChange, theilSenSlope } from '../../../extension/core/imu/bias';
+import { median, plausibleBiasChange, robustScale, theilSenSlope } from '../../../extension/core/imu/bias';
+import { normalRng } from './rng';
 import { resolveSettings } from '../../../extension/core/settings';
 import { simulateBiasLog } from './simLog';
 
@@ -99,6 +100,30 @@ describe('bias summary figures', () => {
     const y = x.map((v) => 2 * v + 1);
     y[3] = 100;
     expect(theilSenSlope(x, y)).toBe(2);
+  });
+});
+
+describe('robust helpers', () => {
+  it('median by selection equals the median of the sorted values', () => {
+    const rnd = normalRng(91);
+    for (const len of [1, 2, 3, 4, 5, 10, 11, 1000, 1001]) {
+      const v = Array.from({ length: len }, () => Math.round(rnd() * 3) + 0); // many ties (+ 0 turns -0 into 0)
+      const s = [...v].sort((a, b) => a - b);
+      const expected = len % 2 ? s[len >> 1] : (s[len / 2 - 1] + s[len / 2]) / 2;
+      expect(median(v)).toBe(expected);
+    }
+    expect(median([])).toBeNaN();
+  });
+  it('robust scale is the standard deviation for normal data, also when coarsely rounded', () => {
+    const rnd = normalRng(92);
+    const v = Float64Array.from({ length: 20000 }, () => 2.4 * rnd());
+    expect(Math.abs(robustScale(v, 0) / 2.4 - 1)).toBeLessThan(0.03);
+    // rounded to integers (quantum 0.42 sigma): the scale stays within 5% of sqrt(sigma^2 + 1/12)
+    const r = v.map((x) => Math.round(x));
+    expect(Math.abs(robustScale(r, 0) / Math.sqrt(2.4 * 2.4 + 1 / 12) - 1)).toBeLessThan(0.05);
+    // one wild value does not move it
+    r[0] = 1e6;
+    expect(Math.abs(robustScale(r, 0) / Math.sqrt(2.4 * 2.4 + 1 / 12) - 1)).toBeLessThan(0.05);
   });
 });
 
