@@ -35,6 +35,7 @@ import {
 } from './residuals';
 import type { Vec3_m } from './vec3';
 
+/** The channel rule and the per-anchor statistics function, re-exported for callers of the stage. */
 export { isTdoaChannel, isRangeChannel, parsePairId } from './collect';
 export { summarizeValues, type ValueSummary } from './residuals';
 
@@ -290,9 +291,11 @@ export function analyzeUwb(
       if (Number.isFinite(nis)) {
         nisSum += nis;
         nisCount++;
-        for (const x of b >= 0 ? [a, b] : [a]) {
-          anchorNisSum[x] += nis;
-          anchorNisCount[x]++;
+        anchorNisSum[a] += nis;
+        anchorNisCount[a]++;
+        if (b >= 0) {
+          anchorNisSum[b] += nis;
+          anchorNisCount[b]++;
         }
         if (nis > gateNis) {
           linkOutliers[L]++;

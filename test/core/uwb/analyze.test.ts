@@ -164,7 +164,8 @@ describe('geometry', () => {
     const st = log.state;
     const k = Math.floor(tc * 20);
     const w = tc * 20 - k;
-    const p: Vec3_m = ['p_x', 'p_y', 'p_z'].map((c) => st.columns.get(c)![k] * (1 - w) + st.columns.get(c)![k + 1] * w) as unknown as Vec3_m;
+    const at = (c: string): number => st.columns.get(c)![k] * (1 - w) + st.columns.get(c)![k + 1] * w;
+    const p: Vec3_m = [at('p_x'), at('p_y'), at('p_z')];
     expect(Math.abs(dop.y[10] - toaOffsetDop(GREENHOUSE_ANCHORS, p)!.pdop)).toBeLessThan(1e-9);
     expect(out.block!.dop.median!).toBeGreaterThan(1);
     expect(out.block!.dop.max!).toBeGreaterThanOrEqual(out.block!.dop.median!);
