@@ -54,7 +54,11 @@ export class LineSplitter {
   /** Bytes consumed so far (including the BOM and line breaks). */
   bytesRead = 0;
 
-  constructor(private readonly onLine: (b: Uint8Array, start: number, end: number, line: number) => void) {}
+  /**
+   * `onLine` gets each line's range, its number and whether it holds a `"` byte (found in the same pass that looks
+   * for the line break, so the CSV reader need not scan the line again).
+   */
+  constructor(private readonly onLine: (b: Uint8Array, start: number, end: number, line: number, quote: boolean) => void) {}
 
   /** Feed a chunk. */
   push(chunk: Uint8Array): void {
@@ -86,11 +90,17 @@ export class LineSplitter {
       this.pending.clear();
       pos = idx + 1;
     }
-    for (;;) {
-      const idx = indexOfByte(b, sep, pos);
-      if (idx < 0) break;
-      this.emit(b, pos, idx);
-      pos = idx + 1;
+    // One pass finds the line break and notes a quote byte on the way.
+    let i = pos;
+    let quote = false;
+    while (i < n) {
+      const c = b[i];
+      if (c === sep) {
+        this.emitQ(b, pos, i, quote);
+        pos = i + 1;
+        quote = false;
+      } else if (c === 0x22) quote = true;
+      i++;
     }
     if (pos < n) this.pending.append(b, pos, n);
   }
@@ -112,11 +122,17 @@ export class LineSplitter {
   }
 
   private emit(b: Uint8Array, start: number, end: number): void {
+    let quote = false;
+    for (let k = start; k < end; k++) if (b[k] === 0x22) { quote = true; break; }
+    this.emitQ(b, start, end, quote);
+  }
+
+  private emitQ(b: Uint8Array, start: number, end: number, quote: boolean): void {
     let e = end;
     let s = start;
     if (this.mode === 1 && e > s && b[e - 1] === 13) e--;
     if (this.mode === 2 && e > s && b[s] === 10) s++;
-    this.onLine(b, s, e, this.lineNo++);
+    this.onLine(b, s, e, this.lineNo++, quote);
   }
 
   /** End of input: hand out the last line if it has no line break. */

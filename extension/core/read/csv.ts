@@ -59,7 +59,7 @@ export class CsvFileReader {
   private dataBytes = 0;
 
   constructor(private readonly run: RunBuilder, readonly file: string, private readonly opts: CsvFileOptions) {
-    this.splitter = new LineSplitter((b, s, e, line) => this.onLine(b, s, e, line));
+    this.splitter = new LineSplitter((b, s, e, line, quote) => this.onLine(b, s, e, line, quote));
     this.skip = opts.spec?.skipRows ?? 0;
     this.footerMode = opts.spec?.skipFooter;
     if (opts.spec?.delimiter) this.setDelimiter(opts.spec.delimiter);
@@ -101,7 +101,7 @@ export class CsvFileReader {
     }
   }
 
-  private onLine(b: Uint8Array, s: number, e: number, line: number): void {
+  private onLine(b: Uint8Array, s: number, e: number, line: number, hasQuote: boolean): void {
     if (this.inRecord) {
       this.rec.push(10);
       this.rec.append(b, s, e);
@@ -113,8 +113,6 @@ export class CsvFileReader {
       return;
     }
     if (this.skip > 0) { this.skip--; return; }
-    let hasQuote = false;
-    for (let k = s; k < e; k++) if (b[k] === QUOTE) { hasQuote = true; break; }
     if (hasQuote && !(this.plan === undefined && b[s] === 0x23)) {
       const q = countQuotes(b, s, e);
       if ((q & 1) === 1) {
