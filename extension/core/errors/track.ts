@@ -167,8 +167,12 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   const estPos = positionsOf(state, '', frame, refPos?.origin);
   const refQ = quatColumns(refStream, prefix);
   const estQ = quatColumns(state, '');
-  const refV = columnsOf(refStream.columns, prefix, ['v_x', 'v_y', 'v_z']);
-  const estV = columnsOf(state.columns, '', ['v_x', 'v_y', 'v_z']);
+  // velocity: 3-D when both have v_z, else horizontal (v_x, v_y) when both have those
+  const refV3 = columnsOf(refStream.columns, prefix, ['v_x', 'v_y', 'v_z']);
+  const estV3 = columnsOf(state.columns, '', ['v_x', 'v_y', 'v_z']);
+  const velDims = refV3[2] && estV3[2] ? 3 : 2;
+  const refV = refV3.slice(0, velDims);
+  const estV = estV3.slice(0, velDims);
   const hasPos = !!(refPos && estPos);
   const hasVel = allDefined(refV) && allDefined(estV);
   const hasAtt = !!(refQ && estQ);
@@ -293,7 +297,8 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
       for (let k = w0; k < w1; k++) if (inWindow(k)) e[k] = rv[c][k] - p[k];
       return e;
     });
-    const names = ['v_x', 'v_y', 'v_z'];
+    const names = ['v_x', 'v_y', 'v_z'].slice(0, velDims);
+    if (velDims === 2) notes.push('velocity compared in 2-D: no vertical velocity in the estimate or the reference');
     blocks.push({ name: 'velocity', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
   }
 
@@ -320,8 +325,8 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     if (!pos || !att || pos.err.length !== 3 || !estR || !refR) {
       notes.push(`invariant errors (${group}) need 3-D position and attitude in both the estimate and the reference; plain errors are used`);
     } else {
-      const useVel = group === 'SE23' && !!vel;
-      if (group === 'SE23' && !vel) notes.push('SE2(3) errors need velocity in both; SE(3) errors are used');
+      const useVel = group === 'SE23' && !!vel && vel.err.length === 3;
+      if (group === 'SE23' && !useVel) notes.push('SE2(3) errors need 3-D velocity in both; SE(3) errors are used');
       const size = useVel ? 15 : 12;
       const K = useVel ? 2 : 1;
       const Xe = new Float64Array(size), Xt = new Float64Array(size), eta = new Float64Array(size), xi = new Float64Array(3 + 3 * K);

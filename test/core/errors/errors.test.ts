@@ -242,3 +242,14 @@ describe('the errors block inside a whole report', () => {
     expect(report.findings.some((f) => f.kind === 'inconsistent' && f.channel === 'position')).toBe(true);
   });
 });
+
+describe('2-D velocity', () => {
+  it('is compared horizontally when neither side has a vertical velocity', () => {
+    const tt = Float64Array.of(0, 1, 2, 3);
+    const log = navLog(stateStream(tt, { v_x: [1, 1, 1, 1], v_y: [0, 0, 0, 0], gt_v_x: [1.5, 1.5, 1.5, 1.5], gt_v_y: [0, 0, 0, 0], sigma_v_x: [0.5, 0.5, 0.5, 0.5], sigma_v_y: [1, 1, 1, 1] }));
+    const b = analyzeErrors(log, resolveSettings({})).block;
+    expect(b?.velocity?.rmse).toBeCloseTo(0.5, 15);
+    expect(b?.velocity?.nees?.dof).toBe(2);
+    expect(b?.velocity?.nees?.mean).toBeCloseTo(1, 15);
+  });
+});
