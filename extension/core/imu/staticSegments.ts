@@ -7,7 +7,8 @@
  *   min( 9 x (5th percentile of that axis's window variances),  (10 N_spec)^2 / dt ),
  * i.e. at most three times the quietest windows' standard deviation, and never more than ten times the
  * specification's white noise at the sampling rate (N^2 / dt is the variance of white noise of density N sampled
- * every dt; common practice). Adjacent static windows join into segments.
+ * every dt; common practice). An axis without any value (a gyro-only record) takes no part. Adjacent static windows
+ * join into segments.
  */
 import type { ImuStream } from '../model';
 
@@ -105,12 +106,15 @@ export function detectStaticSegments(imu: ImuStream, options: StaticOptions = {}
     options.accNoiseDensity, options.accNoiseDensity, options.accNoiseDensity]
     .map((N) => (N !== undefined && N > 0 ? (10 * N) ** 2 / dt : Infinity));
   const thresholds = variances.map((v, a) => Math.min(9 * quantile(v, 0.05), caps[a]));
+  // an axis with no value at all (e.g. a gyro-only record) takes no part in the test
+  const present = variances.map((v) => v.some((x) => Number.isFinite(x)));
   const segments: StaticSegment[] = [];
   const minSamples = Math.max(2 * W, Math.round((options.minDuration_s ?? 10) / dt));
   let runStart = -1;
   for (let w = 0; w <= windows; w++) {
     let isStatic = w < windows && gapFree[w];
     for (let a = 0; isStatic && a < 6; a++) {
+      if (!present[a]) continue;
       const v = variances[a][w];
       if (!(v <= thresholds[a])) isStatic = false;
     }

@@ -51,6 +51,12 @@ describe('static segments', () => {
     expect(Math.abs(det.segments[1].t_s - 120)).toBeLessThanOrEqual(1.01);
     expect(Math.abs(det.segments[1].tEnd_s - 200)).toBeLessThanOrEqual(1.01);
   });
+  it('works on a gyro-only record (accelerometer columns empty)', () => {
+    const imu = simulateImu(4, 100, 200, [80, 120]);
+    imu.acc_x.fill(NaN); imu.acc_y.fill(NaN); imu.acc_z.fill(NaN);
+    const det = detectStaticSegments(imu, { gyroNoiseDensity: N_G });
+    expect(det.segments.length).toBe(2);
+  });
   it('finds none when the sensor never stands still', () => {
     const imu = simulateImu(6, 100, 60, [0, 60]);
     expect(detectStaticSegments(imu, { gyroNoiseDensity: N_G, accNoiseDensity: N_A }).segments).toEqual([]);
