@@ -218,6 +218,18 @@ function within3Sigma(b: BlockTrack, i0: number, i1: number): (number | null)[] 
 
 const AXES = ['x', 'y', 'z'];
 
+const shared = new WeakMap<ErrorTrack, { x: Float64Array; line: Float64Array }>();
+
+/** Times and lines of the windowed epochs, one copy shared by every series of a track (never the log's arrays). */
+function windowColumns(track: ErrorTrack): { x: Float64Array; line: Float64Array } {
+  let c = shared.get(track);
+  if (!c) {
+    c = { x: track.t_s.slice(track.w0, track.w1), line: track.line.slice(track.w0, track.w1) };
+    shared.set(track, c);
+  }
+  return c;
+}
+
 /** A number for a message: 4 significant digits, no exponent for ordinary magnitudes. */
 function fmt(v: number): string {
   return Math.abs(v) >= 1e-3 && Math.abs(v) < 1e7 ? String(Number(v.toPrecision(4))) : v.toExponential(3);
@@ -297,10 +309,10 @@ function neesFigures(track: ErrorTrack, b: BlockTrack, segs: number[], settings:
   const { windows, alpha, correlationFactor } = windowedTest(track, b, segs, settings, findings);
   const inside = windows.filter((w) => w.mean >= w.bounds[0] && w.mean <= w.bounds[1]).length;
   const [lo, hi] = chi2Interval(settings.confidence, dof);
-  const x = track.t_s.slice(track.w0, track.w1);
+  const { x, line } = windowColumns(track);
   series.push({
     key: `nees/${b.name}`, group: 'errors', label: `${b.name} NEES (${dof} dof) with the per-epoch ${Math.round(settings.confidence * 100)}% band`,
-    unit: '1', x, y: b.nees.slice(track.w0, track.w1), line: track.line.slice(track.w0, track.w1),
+    unit: '1', x, y: b.nees.slice(track.w0, track.w1), line,
     lo: new Float64Array(x.length).fill(lo), hi: new Float64Array(x.length).fill(hi),
   });
   if (windows.length > 0) {
@@ -330,8 +342,7 @@ function errorSeries(track: ErrorTrack, b: BlockTrack, series: Series[]): void {
   const { w0, w1 } = track;
   const scale = b.name === 'orientation' ? RAD2DEG : 1;
   const unit = b.name === 'position' ? 'm' : b.name === 'velocity' ? 'm/s' : 'deg';
-  const x = track.t_s.slice(w0, w1);
-  const line = track.line.slice(w0, w1);
+  const { x, line } = windowColumns(track);
   b.err.forEach((e, c) => {
     const y = scaledSlice(e, w0, w1, scale);
     const s: Series = { key: `error/${b.name}/${AXES[c]}`, group: 'errors', label: `${b.name} error ${AXES[c]} (true minus estimate) with +-3 sigma`, unit, x, y, line };
@@ -404,7 +415,7 @@ function trajectorySeries(track: ErrorTrack, series: Series[]): void {
   const label = 'from above, x = east (m), y = north (m); points in time order, so x is NOT ascending';
   series.push({
     key: 'trajectory/estimate', group: 'trajectory', label: `estimate ${label}`, unit: 'm',
-    x: track.estP[ie].slice(w0, w1), y: track.estP[in_].slice(w0, w1), line: track.line.slice(w0, w1),
+    x: track.estP[ie].slice(w0, w1), y: track.estP[in_].slice(w0, w1), line: windowColumns(track).line,
   });
   if (track.refOwn) {
     const r = track.refOwn;
@@ -414,7 +425,7 @@ function trajectorySeries(track: ErrorTrack, series: Series[]): void {
     while (r1 > r0 && r.t_s[r1 - 1] > t1) r1--;
     series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: r.p[ie].slice(r0, r1), y: r.p[in_].slice(r0, r1), line: r.line.slice(r0, r1) });
   } else {
-    series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: track.refP[ie].slice(w0, w1), y: track.refP[in_].slice(w0, w1), line: track.line.slice(w0, w1) });
+    series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: track.refP[ie].slice(w0, w1), y: track.refP[in_].slice(w0, w1), line: windowColumns(track).line });
   }
 }
 
@@ -489,10 +500,10 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     const s = neesSummary(track.joint.nees, track.joint.dof, settings.confidence, w0, w1);
     if (s.count > 0) {
       block.joint = { ...s, states: track.joint.states };
-      const x = t_s.slice(w0, w1);
+      const { x, line } = windowColumns(track);
       series.push({
         key: 'nees/joint', group: 'errors', label: `joint NEES (${track.joint.dof} dof: ${track.joint.states.join(' ')})`,
-        unit: '1', x, y: track.joint.nees.slice(w0, w1), line: track.line.slice(w0, w1),
+        unit: '1', x, y: track.joint.nees.slice(w0, w1), line,
         lo: new Float64Array(x.length).fill(s.bounds95[0]), hi: new Float64Array(x.length).fill(s.bounds95[1]),
       });
     }
