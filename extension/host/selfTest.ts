@@ -3,7 +3,8 @@
  *
  * Environment variables (given to the `code-server` process; they reach the remote extension host):
  * - `RESIDUUM_SELFTEST_OUT=<file>`: run the checks below and write `<JSON results>\n<N passed, N failed>\n` to the file
- *   (written to `<file>.tmp` first, then renamed, so a reader never sees half a file).
+ *   (written to `<file>.tmp` first, then renamed, so a reader never sees half a file); `<file>.started` is written
+ *   when the checks begin.
  * - `RESIDUUM_SELFTEST_LOG=<file>`: the log the checks open; default `warehouse-flight.csv` in the first workspace folder.
  * - `RESIDUUM_OPEN_ON_START=<file>`: open this log's analysis once the extension is active (used by `npm start`).
  *   Relative paths resolve against the first workspace folder.
@@ -261,6 +262,11 @@ export async function runSelfTestIfRequested(context: vscode.ExtensionContext): 
   if (!out) return;
   const logPath = env('RESIDUUM_SELFTEST_LOG') ?? 'warehouse-flight.csv';
   void (async () => {
+    // A marker so a runner can tell the checks have begun (and must not touch the editor meanwhile).
+    await vscode.workspace.fs.writeFile(vscode.Uri.file(`${out}.started`), new TextEncoder().encode(`${new Date().toISOString()}\n`)).then(
+      () => undefined,
+      () => undefined,
+    );
     let results: CheckResult[];
     try {
       results = await runChecks(context, logPath);

@@ -341,9 +341,10 @@ export async function pickColorTheme(page, themeLabel) {
       await input.waitFor({ state: 'visible', timeout: 5000 });
       const label = THEME_LABELS[themeLabel] ?? themeLabel;
       await input.fill(label);
-      const row = widget.locator('.monaco-list-row').filter({ hasText: themeLabel }).first();
-      await row.waitFor({ state: 'visible', timeout: 5000 });
-      await row.click();
+      // The filtered list previews the focused theme; Enter accepts the focused row once it is ours.
+      const focused = widget.locator('.monaco-list-row.focused').filter({ hasText: themeLabel }).first();
+      await focused.waitFor({ state: 'visible', timeout: 5000 });
+      await input.press('Enter');
       await widget.waitFor({ state: 'hidden', timeout: 5000 });
       return;
     } catch (e) {
