@@ -278,8 +278,10 @@ export function noiseFromSlope(slope: number): PowerLawNoise {
 }
 
 /**
- * Equivalent degrees of freedom of an overlapping Allan variance, the simple approximations of Howe, Allan and Barnes
- * (1981) as tabulated by W. J. Riley, NIST SP 1065 (2008) sec. 5.2 (formulas FROM MEMORY, medium confidence):
+ * Equivalent degrees of freedom of an overlapping Allan variance, the simple approximations tabulated in W. J. Riley,
+ * NIST SP 1065 (2008) Table 5 (after S. Stein 1985). Written from memory, then checked against a public transcription
+ * of that table (the `edf_simple` function of the allantools library); they agree except flicker FM at m = 1, where
+ * the transcription lacks the square. The squared form is kept: it grows with N, as an EDF must.
  * - white PM:   (N+1)(N-2m) / (2(N-m))
  * - flicker PM: exp( sqrt( ln((N-1)/(2m)) ln((2m+1)(N-1)/4) ) )
  * - white FM:   (3(N-1)/(2m) - 2(N-2)/N) * 4m^2/(4m^2+5)
