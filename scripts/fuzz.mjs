@@ -1,5 +1,5 @@
-// `npm run fuzz`: seeded fast-check properties over the readers (CSV, JSON Lines, JSON, mapping, anchors; the notes
-// reader when extension/core/notes exists), at least 100,000 cases, then a linear-growth check: each input kind read
+// `npm run fuzz`: seeded fast-check properties over the readers (CSV, JSON Lines, JSON, mapping, anchors, notes
+// sidecar; scripts/fuzz/properties.ts), at least 100,000 cases, then a linear-growth check: each input kind read
 // at 1x and 10x size in fresh processes, time and peak-memory ratios printed and loosely asserted (time ratio under
 // 20, memory ratio under 12; linear is 10 and memory includes the runtime's fixed share).
 // usage: node scripts/fuzz.mjs [--runs N] [--seed S] [--no-growth] [--growth-only]

@@ -1,5 +1,5 @@
 /**
- * Seeded property tests of the readers (fast-check), shared by `npm run fuzz` (scripts/fuzz.mjs, 100,000+ cases) and
+ * Seeded property tests of the readers (CSV, JSON Lines, JSON, mapping, anchors, notes sidecar) (fast-check), shared by `npm run fuzz` (scripts/fuzz.mjs, 100,000+ cases) and
  * test/robustness/fuzz.test.ts (a few thousand cases in `npm test`).
  *
  * Inputs come from small grammars of what estimator logs look like (canonical and junk names, numbers in many
@@ -14,6 +14,7 @@ import type { Diagnostic, NavLog } from '../../extension/core/model';
 import { readRun, type ByteSource } from '../../extension/core/read/index';
 import { parseMapping } from '../../extension/core/read/mapping';
 import { parseAnchorsText } from '../../extension/core/read/anchors';
+import { parseNotes, serializeNotes, type Note } from '../../extension/core/notes/sidecar';
 
 const encoder = new TextEncoder();
 
@@ -369,6 +370,59 @@ function anchorsRoundTrip() {
   });
 }
 
+/** A valid note (the notes sidecar, extension/core/notes/sidecar.ts). */
+const noteArb: fc.Arbitrary<Note> = fc.record({
+  id: fc.stringMatching(/^n-[0-9a-f]{6,12}$/),
+  t: fc.double({ noNaN: true, noDefaultInfinity: true, min: -1e9, max: 1e9 }),
+  dt: fc.option(fc.double({ noNaN: true, min: 0, max: 1e3 }), { nil: undefined }),
+  channel: fc.option(fc.constantFrom('tdoa', 'mag', 'position', 'gnss vel'), { nil: undefined }),
+  updateId: fc.option(fc.constantFrom('4-5', '0-1', '12'), { nil: undefined }),
+  finding: fc.option(fc.constantFrom('outlier', 'inconsistent', 'bias-step'), { nil: undefined }),
+  text: fc.string({ maxLength: 40, unit: 'grapheme' }),
+  tags: fc.array(fc.string({ maxLength: 8 }), { maxLength: 3 }),
+  status: fc.constantFrom<'open' | 'resolved'>('open', 'resolved'),
+  author: fc.option(fc.string({ maxLength: 10 }), { nil: undefined }),
+}).map(({ dt, ...n }) => {
+  const note: Note = { ...n };
+  if (dt !== undefined && Number.isFinite(n.t + dt)) note.tEnd = n.t + dt;
+  for (const k of Object.keys(note) as (keyof Note)[]) if (note[k] === undefined) delete note[k];
+  return note;
+});
+
+/** Notes sidecars: valid ones, valid ones damaged, or any JSON. */
+const notesText: fc.Arbitrary<string> = fc.oneof(
+  { weight: 2, arbitrary: fc.uniqueArray(noteArb, { selector: (n) => n.id, maxLength: 6 }).map((notes) => serializeNotes(notes)) },
+  { weight: 1, arbitrary: fc.jsonValue({ maxDepth: 3 }).map((v) => JSON.stringify({ format: 'residuum.notes/1', notes: v })) },
+  { weight: 1, arbitrary: fc.jsonValue({ maxDepth: 3 }).map((v) => JSON.stringify(v)) },
+).chain((s) => damaged(encoder.encode(s)).map((b) => new TextDecoder().decode(b)));
+
+/** The notes reader never throws; problems are well formed; a file with problems yields no notes. */
+function notesProperty() {
+  return fc.property(notesText, (text) => {
+    const r = parseNotes(text, 'log.csv.notes.json');
+    const maxLine = lineCount(encoder.encode(text));
+    for (const p of r.problems) {
+      const d: Diagnostic = { severity: 'error', kind: 'parse-error', file: p.file, line: p.line, column: p.column, message: p.message };
+      const problem = diagnosticProblem(d, ['log.csv.notes.json'], maxLine);
+      if (problem) throw new Error(`${problem} (message: ${p.message})`);
+      if (p.line < 1) throw new Error(`notes problem on line ${p.line}`);
+    }
+    if (r.problems.length > 0 && r.notes.length > 0) throw new Error('a notes file with problems still gave notes');
+  });
+}
+
+/** Notes written by serializeNotes read back as the same notes, and writing them again gives the same text. */
+function notesRoundTrip() {
+  return fc.property(fc.uniqueArray(noteArb, { selector: (n) => n.id, maxLength: 8 }), (notes) => {
+    const text = serializeNotes(notes);
+    const r = parseNotes(text, 'log.csv.notes.json');
+    if (r.problems.length > 0) throw new Error(`problems in a serialized file: ${r.problems.map((p) => p.message).join(' | ')}`);
+    if (r.notes.length !== notes.length) throw new Error(`read ${r.notes.length} of ${notes.length} notes`);
+    const again = serializeNotes(r.notes);
+    if (again !== text) throw new Error(`not stable:\n${text}\n${again}`);
+  });
+}
+
 /** A named property and its share of the runs. */
 export interface FuzzTarget {
   name: string;
@@ -410,6 +464,8 @@ export function fuzzTargets(): FuzzTarget[] {
     target('mapping: robust', 15, mappingProperty()),
     target('anchors: robust', 10, anchorsProperty()),
     target('anchors: exact round trip', 5, anchorsRoundTrip()),
+    target('notes: robust', 6, notesProperty()),
+    target('notes: round trip', 4, notesRoundTrip()),
   ];
 }
 
