@@ -45,18 +45,19 @@ export interface RelativeInput {
   refR?: Float64Array;
 }
 
+const de = new Float64Array(3), dr = new Float64Array(3), le = new Float64Array(3), lr = new Float64Array(3);
+
 function pairError(inp: RelativeInput, i: number, j: number): number {
   const d = inp.est.length;
-  const de = [0, 0, 0], dr = [0, 0, 0];
+  de.fill(0); dr.fill(0);
   for (let c = 0; c < d; c++) { de[c] = inp.est[c][j] - inp.est[c][i]; dr[c] = inp.ref[c][j] - inp.ref[c][i]; }
   if (inp.estR && inp.refR && d === 3) {
     const a = inp.estR, b = inp.refR, oa = 9 * i, ob = 9 * i;
-    const le = [0, 0, 0], lr = [0, 0, 0];
     for (let r = 0; r < 3; r++) {
       le[r] = a[oa + r] * de[0] + a[oa + 3 + r] * de[1] + a[oa + 6 + r] * de[2];
       lr[r] = b[ob + r] * dr[0] + b[ob + 3 + r] * dr[1] + b[ob + 6 + r] * dr[2];
     }
-    if (le.every(Number.isFinite) && lr.every(Number.isFinite)) return Math.hypot(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
+    if (Number.isFinite(le[0] + le[1] + le[2] + lr[0] + lr[1] + lr[2])) return Math.hypot(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
   }
   return Math.hypot(de[0] - dr[0], de[1] - dr[1], de[2] - dr[2]);
 }

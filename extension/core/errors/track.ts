@@ -119,6 +119,15 @@ function quatColumns(s: StateStream, prefix: string): Float64Array[] | undefined
   return out;
 }
 
+const scratchA = new Float64Array(9);
+const scratchB = new Float64Array(9);
+
+/** Copy the 3x3 matrix of epoch k (9 values per epoch) into `out` (no view allocated per epoch). */
+function copyMat(out: Float64Array, all: Float64Array, k: number): Float64Array {
+  for (let i = 0; i < 9; i++) out[i] = all[9 * k + i];
+  return out;
+}
+
 /** t + offset for the first `length` stamps. */
 function shiftedTimes(t_s: Float64Array, length: number, offset: number): Float64Array {
   const out = new Float64Array(length);
@@ -254,8 +263,9 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     for (let k = w0; k < w1; k++) {
       for (let c = 0; c < rp.length; c++) { const col = rp[c]; if (col && off) col[k] += off[c]; }
       if (lever) {
-        const R = refR && Number.isFinite(refR[9 * k]) ? refR.subarray(9 * k, 9 * k + 9) : estR && Number.isFinite(estR[9 * k]) ? estR.subarray(9 * k, 9 * k + 9) : undefined;
-        if (!R) continue;
+        const src = refR && Number.isFinite(refR[9 * k]) ? refR : estR && Number.isFinite(estR[9 * k]) ? estR : undefined;
+        if (!src) continue;
+        const R = copyMat(scratchA, src, k);
         l[0] = lever[0]; l[1] = lever[1]; l[2] = lever[2];
         mat3MulVec(lr, R, l);
         for (let c = 0; c < rp.length; c++) { const col = rp[c]; if (col) col[k] += lr[c]; }
@@ -308,7 +318,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     const E = new Float64Array(9), v = new Float64Array(3);
     for (let k = w0; k < w1; k++) {
       if (!inWindow(k) || !Number.isFinite(estR[9 * k]) || !Number.isFinite(refR[9 * k])) continue;
-      const Re = estR.subarray(9 * k, 9 * k + 9), Rt = refR.subarray(9 * k, 9 * k + 9);
+      const Re = copyMat(scratchA, estR, k), Rt = copyMat(scratchB, refR, k);
       if (side === 'body') mat3MultiplyTransposeA(E, Re, Rt); else mat3MultiplyTransposeB(E, Rt, Re);
       so3Log(v, E);
       err[0][k] = v[0]; err[1][k] = v[1]; err[2][k] = v[2];
@@ -336,7 +346,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
       for (let k = w0; k < w1; k++) {
         if (!Number.isFinite(att.err[0][k]) || !Number.isFinite(pos.err[0][k])) continue;
         if (useVel && !Number.isFinite((vel as BlockTrack).err[0][k])) continue;
-        Xe.set(estR.subarray(9 * k, 9 * k + 9), 0); Xt.set(refR.subarray(9 * k, 9 * k + 9), 0);
+        for (let i = 0; i < 9; i++) { Xe[i] = estR[9 * k + i]; Xt[i] = refR[9 * k + i]; }
         for (let c = 0; c < 3; c++) {
           const pe = estP[c][k], pt = refP[c][k];
           if (useVel) {
