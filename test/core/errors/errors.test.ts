@@ -253,3 +253,24 @@ describe('2-D velocity', () => {
     expect(b?.velocity?.nees?.mean).toBeCloseTo(1, 15);
   });
 });
+
+describe('ATE and relative error under a rigid frame change', () => {
+  it('an estimate that is the reference in a rotated, shifted frame has zero ATE and zero relative error, large raw error', () => {
+    // [CONSTRUCTED] est pose = G ∘ true pose with G a constant rigid transform: alignment removes G exactly, and
+    // body-frame displacements between epochs are identical
+    const Gq = quatExp(new Float64Array(4), Float64Array.of(0.1, -0.2, 0.9));
+    const Gt = [3, -4, 0.5];
+    const n = N;
+    const tq = estQ, tp = Array.from({ length: n }, (_, k) => [10 * Math.cos(k / 20), 10 * Math.sin(k / 20), 0.1 * k]);
+    const eq = tq.map((q) => quatMultiply(new Float64Array(4), Gq, q) as Float64Array);
+    const ep = tp.map((p) => { const r = quatRotate(new Float64Array(3), Gq, Float64Array.from(p)); return [r[0] + Gt[0], r[1] + Gt[1], r[2] + Gt[2]]; });
+    const log = navLog(stateStream(t, { ...columns(eq, ep), ...columns(tq, tp, undefined, 'gt_') }));
+    const b = analyzeErrors(log, resolveSettings({ window_s: 2, rpeDistance_m: 3 })).block;
+    expect(b?.position?.rmse as number).toBeGreaterThan(1);
+    expect(b?.position?.ate?.rmse as number).toBeLessThan(1e-9);
+    expect(b?.position?.ate?.rotationDeg as number).toBeCloseTo((2 * Math.atan2(Math.hypot(Gq[1], Gq[2], Gq[3]), Gq[0]) * 180) / Math.PI, 6);
+    expect(b?.position?.rpe?.time?.max as number).toBeLessThan(1e-9);
+    expect(b?.position?.rpe?.distance?.max as number).toBeLessThan(1e-9);
+    expect(b?.position?.rpe?.time?.count as number).toBeGreaterThan(100);
+  });
+});
