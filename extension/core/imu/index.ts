@@ -195,7 +195,8 @@ function analyzeImuNoise(log: NavLog, settings: AnalysisSettings, spec: SpecBloc
     notes.push('the static stretch has no usable time step: no Allan deviation');
     return block;
   }
-  const opts: AllanOptions = { confidence: ALLAN_CONFIDENCE, perOctave: 2 };
+  // two points per octave; octaves only for very long records (each point costs one pass over the samples)
+  const opts: AllanOptions = { confidence: ALLAN_CONFIDENCE, perOctave: best.end - best.start > 2_000_000 ? 1 : 2 };
   const sensors = [
     { name: 'gyro' as const, cols: [imu.gyro_x, imu.gyro_y, imu.gyro_z], unit: 'rad/s', spec: { N: spec.gyroNoiseDensity, B: spec.gyroBiasInstability, K: spec.gyroRateRandomWalk } },
     { name: 'accel' as const, cols: [imu.acc_x, imu.acc_y, imu.acc_z], unit: 'm/s^2', spec: { N: spec.accNoiseDensity, B: spec.accBiasInstability, K: spec.accRateRandomWalk } },
