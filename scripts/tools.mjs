@@ -82,7 +82,7 @@ function ensureDebianPackages() {
   const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
   const upd = spawnSync('apt-get', ['update'], { stdio: 'inherit', env });
   if (upd.status !== 0) throw new Error('apt-get update failed (see output above)');
-  const inst = spawnSync('apt-get', ['install', '-y', '--no-install-recommends', ...missing], { stdio: 'inherit', env });
+  const inst = spawnSync('apt-get', ['install', '-y', ...missing], { stdio: 'inherit', env });
   if (inst.status !== 0) throw new Error(`apt-get install -y ${missing.join(' ')} failed (see output above)`);
 }
 
