@@ -26,7 +26,7 @@ export class MappingFixProvider implements vscode.CodeActionProvider {
       const column = this.columns.get(unknownColumnKey(document.uri, d));
       if (column === undefined) continue;
       const map = this.mapFor(document.uri);
-      const action = new vscode.CodeAction(`Add column "${column}" to ${path.posix.basename(map.path)}`, vscode.CodeActionKind.QuickFix);
+      const action = new vscode.CodeAction(`Map column "${column}" as ignored in ${path.posix.basename(map.path)}`, vscode.CodeActionKind.QuickFix);
       action.diagnostics = [d];
       action.isPreferred = true;
       action.command = { title: action.title, command: ADD_COLUMN_COMMAND, arguments: [map, column] };

@@ -67,14 +67,16 @@ export function toProblems(
     d.code = 'unknown-column';
     const uri = resolve(r.file);
     add(uri, d);
-    const name = r.channel ?? unknownColumnName(r.message);
+    // The quick fix maps a column of the log itself; problems reported on the mapping file, or about JSON keys
+    // and record kinds rather than columns, get no fix.
+    const name = uri.toString() === resolve(undefined).toString() ? r.channel ?? unknownColumnName(r.message) : undefined;
     if (name !== undefined) unknownColumns.set(unknownColumnKey(uri, d), name);
   }
   return { files: out, unknownColumns };
 }
 
-/** The column name an `unknown-column` diagnostic's message names (in quotes or backticks), if any. */
+/** The column an `unknown-column` message is about: it starts `Column "<name>"` (the readers' wording). */
 export function unknownColumnName(message: string): string | undefined {
-  const m = /["'`\u201c]([^"'`\u201d]+)["'`\u201d]/.exec(message);
+  const m = /^Column "([^"]+)"/.exec(message);
   return m ? m[1] : undefined;
 }

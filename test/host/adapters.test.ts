@@ -51,13 +51,19 @@ describe('toProblems', () => {
         { kind: 'not-white', severity: 'info', message: 'lag 1' },
         { kind: 'parse-error', file: 'run.csv.map.json', line: 3, column: 2, p: 1e-40, message: 'bad JSON' },
       ],
-      [{ severity: 'warning', kind: 'unknown-column', file: 'run.csv', line: 1, column: 12, channel: 'temp_c', message: 'Column "temp_c" is not recognised' }],
+      [
+        { severity: 'info', kind: 'unknown-column', file: 'run.csv', line: 1, column: 12, message: 'Column "temp_c" is not a name of the log conventions' },
+        { severity: 'warning', kind: 'unknown-column', file: 'run.csv.map.json', line: 0, message: 'The mapping names column "x", which run.csv does not have' },
+      ],
       4,
       resolve,
     );
     const onLog = problems.files.get(log.toString())?.diagnostics ?? [];
     const onMap = problems.files.get(map.toString())?.diagnostics ?? [];
-    expect(onMap.map((d) => [d.code, d.range.start.line, d.range.start.character, d.severity])).toEqual([['parse-error', 2, 1, vscode.DiagnosticSeverity.Warning]]);
+    expect(onMap.map((d) => [d.code, d.range.start.line, d.range.start.character, d.severity])).toEqual([
+      ['parse-error', 2, 1, vscode.DiagnosticSeverity.Warning],
+      ['unknown-column', 0, 0, vscode.DiagnosticSeverity.Information],
+    ]);
     expect(onLog.map((d) => [d.code, d.source, d.range.start.line, d.severity])).toEqual([
       ['outlier', 'residuum', 2342, vscode.DiagnosticSeverity.Warning],
       ['bad-value', 'residuum', 4, vscode.DiagnosticSeverity.Warning],
@@ -66,10 +72,12 @@ describe('toProblems', () => {
     ]);
     const unknown = onLog[3];
     expect(problems.unknownColumns.get(unknownColumnKey(log, unknown))).toBe('temp_c');
+    // Only the log's own columns get the quick fix.
+    expect([...problems.unknownColumns.values()]).toEqual(['temp_c']);
   });
   it('places whole-file problems on the first line and reads quoted column names', () => {
     expect([lineRange(undefined).start.line, lineRange(0).start.line, lineRange(12, 3).start.character]).toEqual([0, 0, 2]);
-    expect([unknownColumnName('Column "temp_c" is not a known name'), unknownColumnName('no quotes')]).toEqual(['temp_c', undefined]);
+    expect([unknownColumnName('Column "temp_c" is not a known name'), unknownColumnName('Top-level key "x" is ignored'), unknownColumnName('no quotes')]).toEqual(['temp_c', undefined, undefined]);
   });
 });
 
