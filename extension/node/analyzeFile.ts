@@ -12,6 +12,7 @@ import { resolveSettings, type AnalysisSettings } from '../core/settings';
 import { analyzeLog, type StageTimes } from '../core/analyze';
 import { readRun, type ByteSource } from '../core/read/index';
 import { fileByteSource, openRelative } from './fileSource';
+import { notesForReport } from './notesReport';
 
 /** Options of one analysis of a file on disk. */
 export interface AnalyzeFileOptions {
@@ -27,7 +28,7 @@ export interface AnalyzeFileOptions {
   onProgress?: (fraction: number) => void;
   /** Filled with per-stage elapsed milliseconds (read, analyse stages). */
   times?: StageTimes;
-  /** Notes to carry in the report (from the notes sidecar). */
+  /** Notes to carry in the report; default: those of `<log>.notes.json`, anchored to the log (see notesReport.ts). */
   notes?: unknown[];
 }
 
@@ -100,7 +101,9 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
     signal: options.signal,
   });
   if (options.times) options.times.read = performance.now() - t0;
-  const { report, series } = analyzeLog(log, settings, { sha256: hash.digest('hex'), notes: options.notes }, options.times);
+  const sidecar = options.notes === undefined ? notesForReport(logPath, log) : undefined;
+  const { report, series } = analyzeLog(log, settings, { sha256: hash.digest('hex'), notes: options.notes ?? sidecar?.notes }, options.times);
+  if (sidecar?.finding) report.findings.push(sidecar.finding);
   return { report, series, log };
 }
 

@@ -4,9 +4,13 @@
  * apply this writer's pending operations, write the temporary file, and rename only if the sidecar still has the
  * content that was read; if it changed in between, read and merge again. A malformed sidecar is never written over:
  * the save reports the problem and the operations stay pending in memory, as they do when the folder is read-only.
+ *
+ * The compare step cannot close the window between the last read and the rename (no portable compare-and-swap on a
+ * file name), so after the rename the store reads the file back: if another writer renamed over it in that window
+ * and a note this writer added is missing (or one it deleted is back), the store merges and writes again.
  */
 import * as fs from 'node:fs';
-import { applyNoteOps, parseNotes, serializeNotes, type Note, type NoteOp, type NotesProblem } from '../core/notes/sidecar';
+import { applyNoteOps, noteProblem, parseNotes, serializeNotes, type Note, type NoteOp, type NotesProblem } from '../core/notes/sidecar';
 
 /** The file operations the store needs; injectable so tests can simulate crashes and races. */
 export interface NotesFs {
@@ -72,6 +76,7 @@ export interface SaveResult {
 export class NotesStore {
   private pending: NoteOp[] = [];
   private current: Note[] = [];
+  private known: string | undefined;
 
   constructor(
     readonly path: string,
@@ -91,18 +96,40 @@ export class NotesStore {
 
   /** Re-read the file (e.g. after a change on disk); pending edits stay pending. */
   reload(): NotesProblem[] {
-    const r = readNotes(this.path, this.io);
-    if (r.problems.length === 0) this.current = r.notes;
+    let r: NotesRead;
+    try {
+      r = readNotes(this.path, this.io);
+    } catch (e) {
+      return [{ file: this.path, line: 0, message: `cannot read the notes file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})` }];
+    }
+    if (r.problems.length === 0) {
+      this.current = r.notes;
+      this.known = r.text;
+    }
     return r.problems;
   }
 
-  /** Queue an edit (it shows at once in `notes()`); call `save()` to write it. */
-  edit(op: NoteOp): void {
+  /**
+   * Queue an edit (it shows at once in `notes()`); call `save()` to write it. Returns why a `put` was refused
+   * (a note the file could not hold), else undefined.
+   */
+  edit(op: NoteOp): string | undefined {
+    if (op.op === 'put') {
+      const problem = noteProblem(op.note);
+      if (problem) return problem;
+    }
     this.pending.push(op);
+    return undefined;
+  }
+
+  /** The exact text of the sidecar as last read or written by this store (to tell its own writes from others'). */
+  lastText(): string | undefined {
+    return this.known;
   }
 
   /** Write the pending edits with compare-and-retry (see the file comment). Never throws for I/O problems. */
   save(): SaveResult {
+    if (this.pending.length === 0) return { saved: true, notes: this.notes(), attempts: 0 };
     for (let attempt = 1; attempt <= this.maxAttempts; attempt++) {
       let read: NotesRead;
       try {
@@ -114,9 +141,12 @@ export class NotesStore {
         const p = read.problems[0];
         return { saved: false, notes: this.notes(), attempts: attempt, message: `${p.file}:${p.line}${p.column ? ':' + p.column : ''}: ${p.message}; your notes are kept in memory` };
       }
+      // What is on disk now is what the user should see under the pending edits, whatever happens next.
+      this.current = read.notes;
+      this.known = read.text;
       const merged = applyNoteOps(read.notes, this.pending);
       const text = serializeNotes(merged);
-      const tmp = `${this.path}.tmp-${process.pid}-${attempt}`;
+      const tmp = `${this.path}.tmp-${process.pid}-${Math.random().toString(36).slice(2, 10)}`;
       try {
         this.io.writeFile(tmp, text);
         // Compare: rename only if nobody changed the sidecar since we read it.
@@ -134,10 +164,38 @@ export class NotesStore {
         }
         return { saved: false, notes: this.notes(), attempts: attempt, message: `cannot write ${this.path} (${(e as NodeJS.ErrnoException).code ?? (e as Error).message}); the notes are kept in memory and will be saved when possible` };
       }
-      this.current = merged;
+      // Read back: a writer that renamed over ours in the window above must not have lost our notes.
+      let after: NotesRead | undefined;
+      try {
+        after = readNotes(this.path, this.io);
+      } catch {
+        after = undefined;
+      }
+      if (after && after.text !== text && after.problems.length === 0 && !this.reflected(after.notes)) continue;
+      this.current = after && after.problems.length === 0 ? after.notes : merged;
+      this.known = after && after.problems.length === 0 ? after.text : text;
       this.pending = [];
-      return { saved: true, notes: merged, attempts: attempt };
+      return { saved: true, notes: this.current, attempts: attempt };
     }
     return { saved: false, notes: this.notes(), attempts: this.maxAttempts, message: `${this.path} kept changing while saving; the notes are kept in memory` };
+  }
+
+  /** Whether the pending adds and deletes show in `notes` (edits of existing notes may have been superseded). */
+  private reflected(notes: readonly Note[]): boolean {
+    const ids = new Set(notes.map((n) => n.id));
+    const deleted = new Set<string>();
+    const put = new Set<string>();
+    for (const o of this.pending) {
+      if (o.op === 'put') {
+        put.add(o.note.id);
+        deleted.delete(o.note.id);
+      } else if (o.op === 'delete') {
+        deleted.add(o.id);
+        put.delete(o.id);
+      }
+    }
+    for (const id of put) if (!ids.has(id)) return false;
+    for (const id of deleted) if (ids.has(id)) return false;
+    return true;
   }
 }

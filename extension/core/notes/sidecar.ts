@@ -17,6 +17,8 @@
  * race re-reads, re-applies its own operations and writes again: two windows or a git pull never lose a note.
  */
 
+import { parse as parseJsonc, printParseErrorCode, type ParseError } from 'jsonc-parser';
+
 /** The format identifier written into every sidecar. */
 export const NOTES_FORMAT = 'residuum.notes/1';
 
@@ -37,7 +39,15 @@ export interface Note {
   author?: string;
   /** ISO date of creation (written once, never updated). */
   created?: string;
+  /**
+   * Fields this version does not know (written by a newer version): kept as read and written back after the known
+   * fields, so an older editor never drops them.
+   */
+  extra?: Record<string, unknown>;
 }
+
+/** The fields of a note an edit may change (applied to whatever the note is on disk at write time). */
+export type NotePatch = Partial<Pick<Note, 'text' | 'tags' | 'status' | 'tEnd'>>;
 
 /** A problem in a sidecar file: where and a plain sentence. */
 export interface NotesProblem {
@@ -47,10 +57,43 @@ export interface NotesProblem {
   message: string;
 }
 
-/** An edit of the notes: applied to the file's current content at write time. */
-export type NoteOp = { op: 'put'; note: Note } | { op: 'delete'; id: string };
+/**
+ * An edit of the notes, applied to the file's current content at write time: `put` adds or replaces a whole note,
+ * `patch` changes some fields of the note as it is then (so a resolve in one window keeps a text edit made in
+ * another), `delete` removes it.
+ */
+export type NoteOp = { op: 'put'; note: Note } | { op: 'patch'; id: string; set: NotePatch } | { op: 'delete'; id: string };
 
-const KEY_ORDER: (keyof Note)[] = ['id', 't', 'tEnd', 'channel', 'updateId', 'finding', 'text', 'tags', 'status', 'author', 'created'];
+const KEY_ORDER = ['id', 't', 'tEnd', 'channel', 'updateId', 'finding', 'text', 'tags', 'status', 'author', 'created'] as const;
+const KNOWN_KEYS = new Set<string>([...KEY_ORDER, 'extra']);
+
+/** Tags as stored: trimmed, without a leading `#`, no empty ones, no repeats, in the user's order. */
+export function normalizeTags(tags: readonly string[]): string[] {
+  const out: string[] = [];
+  for (const raw of tags) {
+    const t = raw.trim().replace(/^#+/, '').trim();
+    if (t && !out.includes(t)) out.push(t);
+  }
+  return out;
+}
+
+/** Split a typed line into text and `#tags` (a tag is `#` followed by letters, digits, `-`, `_`, `.` or `/`). */
+export function splitTags(input: string): { text: string; tags: string[] } {
+  const tags: string[] = [];
+  const text = input
+    .replace(/(^|\s)#([\p{L}\p{N}_./-]+)/gu, (_m, lead: string, tag: string) => {
+      tags.push(tag);
+      return lead;
+    })
+    .replace(/\s+/g, ' ')
+    .trim();
+  return { text, tags: normalizeTags(tags) };
+}
+
+/** Why a note cannot be stored (undefined when it can): the same rules the parser applies to the file. */
+export function noteProblem(note: Note): string | undefined {
+  return validNote(note);
+}
 
 /** Order notes by time, then id (the file's order). */
 export function compareNotes(a: Note, b: Note): number {
@@ -69,6 +112,7 @@ export function serializeNotes(notes: readonly Note[]): string {
       if (k === 'tags' && Array.isArray(v) && v.length === 0) continue;
       o[k] = v;
     }
+    if (n.extra) for (const k of Object.keys(n.extra).sort()) if (!KNOWN_KEYS.has(k) && n.extra[k] !== undefined) o[k] = n.extra[k];
     return '    ' + JSON.stringify(o);
   });
   return `{\n  "format": "${NOTES_FORMAT}",\n  "notes": [\n${lines.join(',\n')}${lines.length ? '\n' : ''}  ]\n}\n`;
@@ -134,14 +178,22 @@ function validNote(v: unknown): string | undefined {
 export function parseNotes(text: string, file: string): { notes: Note[]; problems: NotesProblem[] } {
   const body = text.charCodeAt(0) === 0xfeff ? text.slice(1) : text;
   if (body.trim() === '') return { notes: [], problems: [] };
+  const conflict = /^(<{7}|={7}|>{7})( |$)/m.exec(body);
+  if (conflict) {
+    const where = lineColumnOf(body, conflict.index + 1);
+    return { notes: [], problems: [{ file, line: where.line, column: 1, message: 'the notes file has unresolved git conflict markers; resolve them (keep the note lines of both sides) and save; it was left untouched' }] };
+  }
   let data: unknown;
   try {
     data = JSON.parse(body);
   } catch (e) {
-    const msg = (e as Error).message;
-    const m = /position (\d+)/.exec(msg);
-    const where = m ? lineColumnOf(body, Number(m[1])) : { line: 1, column: undefined };
-    return { notes: [], problems: [{ file, line: where.line, ...(where.column ? { column: where.column } : {}), message: `the notes file is not valid JSON (${msg.split('\n')[0]}); it was left untouched` }] };
+    // V8 does not always say where; the strict scan of jsonc-parser does (offset of the first error).
+    const errors: ParseError[] = [];
+    parseJsonc(body, errors, { disallowComments: true, allowTrailingComma: false, allowEmptyContent: false });
+    const first = errors[0];
+    const why = first ? printParseErrorCode(first.error) : (e as Error).message.split('\n')[0];
+    const where = first ? lineColumnOf(body, first.offset) : { line: 1, column: undefined };
+    return { notes: [], problems: [{ file, line: where.line, ...(where.column ? { column: where.column } : {}), message: `the notes file is not valid JSON (${why}); it was left untouched` }] };
   }
   if (data === null || typeof data !== 'object' || Array.isArray(data)) {
     return { notes: [], problems: [{ file, line: 1, message: 'the notes file must be an object with "format" and "notes"; it was left untouched' }] };
@@ -168,17 +220,38 @@ export function parseNotes(text: string, file: string): { notes: Note[]; problem
       return;
     }
     seen.add(n.id);
-    notes.push({ ...n, tags: n.tags ?? [], status: n.status ?? 'open' });
+    const note: Note = { id: n.id, t: n.t, text: n.text, tags: n.tags ?? [], status: n.status ?? 'open' };
+    for (const k of ['tEnd', 'channel', 'updateId', 'finding', 'author', 'created'] as const) if (n[k] !== undefined) (note as unknown as Record<string, unknown>)[k] = n[k];
+    const extra: Record<string, unknown> = {};
+    for (const [k, x] of Object.entries(v as Record<string, unknown>)) if (!KNOWN_KEYS.has(k)) extra[k] = x;
+    if (Object.keys(extra).length) note.extra = extra;
+    notes.push(note);
   });
   return problems.length ? { notes: [], problems } : { notes: notes.sort(compareNotes), problems };
 }
 
-/** Apply edit operations to a set of notes (by id; `put` adds or replaces, `delete` removes). */
+/**
+ * Apply edit operations to a set of notes (by id; `put` adds or replaces, `patch` changes fields of a note that
+ * still exists and is dropped for one deleted meanwhile, `delete` removes). A patch that would make the note
+ * invalid (`tEnd` before `t`) is ignored.
+ */
 export function applyNoteOps(notes: readonly Note[], ops: readonly NoteOp[]): Note[] {
   const byId = new Map(notes.map((n) => [n.id, n]));
   for (const o of ops) {
     if (o.op === 'put') byId.set(o.note.id, o.note);
-    else byId.delete(o.id);
+    else if (o.op === 'patch') {
+      const before = byId.get(o.id);
+      if (!before) continue;
+      const after: Note = { ...before };
+      if (o.set.text !== undefined) after.text = o.set.text;
+      if (o.set.tags !== undefined) after.tags = normalizeTags(o.set.tags);
+      if (o.set.status !== undefined) after.status = o.set.status;
+      if ('tEnd' in o.set) {
+        if (o.set.tEnd === undefined) delete after.tEnd;
+        else after.tEnd = o.set.tEnd;
+      }
+      if (validNote(after) === undefined) byId.set(o.id, after);
+    } else byId.delete(o.id);
   }
   return [...byId.values()].sort(compareNotes);
 }
