@@ -200,7 +200,8 @@ export function parseNotes(text: string, file: string): { notes: Note[]; problem
   }
   const obj = data as Record<string, unknown>;
   if (obj.format !== NOTES_FORMAT) {
-    return { notes: [], problems: [{ file, line: 1, message: `unknown notes format ${JSON.stringify(obj.format)} (expected "${NOTES_FORMAT}"); the file was left untouched` }] };
+    const found = typeof obj.format === 'string' ? `unknown notes format "${obj.format}"` : 'the notes file has no "format" field';
+    return { notes: [], problems: [{ file, line: 1, message: `${found} (expected "${NOTES_FORMAT}"); the file was left untouched` }] };
   }
   if (!Array.isArray(obj.notes)) return { notes: [], problems: [{ file, line: 1, message: '"notes" must be a list; the file was left untouched' }] };
   const lines = noteLines(body);
