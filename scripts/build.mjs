@@ -6,7 +6,9 @@ import { existsSync, mkdirSync, copyFileSync, chmodSync } from 'node:fs';
 const production = process.argv.includes('--production');
 const watch = process.argv.includes('--watch');
 
-const common = { bundle: true, sourcemap: !production, minify: production, logLevel: 'warning', legalComments: 'none' };
+// jsonc-parser's `main` is a UMD build whose lazy require('./impl/...') calls esbuild cannot follow: bundle its ESM build.
+const alias = { 'jsonc-parser': './node_modules/jsonc-parser/lib/esm/main.js' };
+const common = { bundle: true, sourcemap: !production, minify: production, logLevel: 'warning', legalComments: 'none', alias };
 
 /** Every artifact: entry, output, platform. */
 const artifacts = [

@@ -4,10 +4,12 @@
  */
 import { readFileSync } from 'node:fs';
 import Ajv from 'ajv';
+import { parse as parseJsonc, printParseErrorCode, type ParseError } from 'jsonc-parser';
 import gateSchema from '../../schema/gate.schema.json';
 import { analyzeFile, assertReadableFile, InputError, type AnalyzeFileOptions } from '../node/analyzeFile';
 import { evaluateGate, compareWithBaseline, hasThresholds, type Gate, type GateResult } from '../core/gate';
-import type { Report } from '../core/report';
+import { REPORT_SCHEMA, type Report } from '../core/report';
+import { withNotes, writeReportExports } from './export';
 import { numberOption, UsageError } from './args';
 import { table } from './summary';
 
@@ -25,20 +27,29 @@ export const CHECK_OPTIONS = {
 /** Read and validate a JSON file; InputError with file and position on failure. */
 export function readJsonFile(file: string, what: string): unknown {
   assertReadableFile(file, what);
-  const text = readFileSync(file, 'utf8');
+  let text: string;
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch (e) {
+    throw new InputError(`${what} cannot be read: ${file} (${(e as NodeJS.ErrnoException).code ?? 'error'})`);
+  }
   try {
     return JSON.parse(text);
   } catch (e) {
-    const m = /position (\d+)/.exec((e as Error).message);
+    // V8 does not always say where; the strict JSON scan of jsonc-parser does (offset of the first error).
+    const errors: ParseError[] = [];
+    parseJsonc(text, errors, { disallowComments: true, allowTrailingComma: false, allowEmptyContent: false });
+    const first = errors[0];
     let where = '';
-    if (m) {
-      const pos = Number(m[1]);
-      const before = text.slice(0, pos);
+    let why = (e as Error).message.split('\n')[0];
+    if (first) {
+      const before = text.slice(0, first.offset);
       const line = before.split('\n').length;
-      const column = pos - before.lastIndexOf('\n');
+      const column = first.offset - before.lastIndexOf('\n');
       where = `:${line}:${column}`;
+      why = printParseErrorCode(first.error);
     }
-    throw new InputError(`${what} ${file}${where} is not valid JSON: ${(e as Error).message.split('\n')[0]}`);
+    throw new InputError(`${what} ${file}${where} is not valid JSON: ${why}`);
   }
 }
 
@@ -60,6 +71,7 @@ export async function runCheck(values: Record<string, unknown>, positionals: str
   if (positionals.length !== 1) throw new UsageError(`check takes exactly one LOG, got ${positionals.length}`);
   const gate: Gate = typeof values.gate === 'string' ? loadGate(values.gate) : {};
   const maxOutliers = numberOption(values, 'max-outliers', [0, Number.MAX_SAFE_INTEGER]);
+  if (maxOutliers !== undefined && !Number.isInteger(maxOutliers)) throw new UsageError(`--max-outliers needs a whole number, got ${maxOutliers}`);
   if (maxOutliers !== undefined) gate.maxOutliers = maxOutliers;
   const minInside = numberOption(values, 'min-inside95', [0, 1]);
   if (minInside !== undefined) gate.minInside95 = minInside;
@@ -75,17 +87,20 @@ export async function runCheck(values: Record<string, unknown>, positionals: str
     throw new UsageError('check needs at least one threshold (--gate FILE, --max-outliers, --min-inside95, --max-rmse, --max-settle-time, or --baseline with --tolerance)');
   }
   const baseline = baselineFile ? (readJsonFile(baselineFile, 'baseline report') as Report) : undefined;
-  if (baseline && (typeof baseline !== 'object' || !Array.isArray(baseline.channels))) {
-    throw new InputError(`baseline report ${baselineFile} is not a residuum report (no channels array)`);
+  if (baseline !== undefined) {
+    const b = baseline as unknown;
+    const isReport = b !== null && typeof b === 'object' && (b as Report).schema === REPORT_SCHEMA && Array.isArray((b as Report).channels);
+    if (!isReport) throw new InputError(`baseline report ${baselineFile} is not a ${REPORT_SCHEMA} report (write one with: residuum analyze LOG --out REPORT.json)`);
   }
 
-  const { report } = await analyzeFile(positionals[0], options);
+  const { report, series } = await analyzeFile(positionals[0], withNotes(options, positionals[0]));
+  writeReportExports(values, report, series);
   const results: GateResult[] = [...evaluateGate(report, gate), ...(baseline ? compareWithBaseline(report, baseline, tolerance ?? 0) : [])];
   const failed = results.filter((r) => !r.pass);
   if (values.json) {
     process.stdout.write(JSON.stringify({ pass: failed.length === 0, results }, null, 2) + '\n');
   } else {
-    process.stdout.write(`residuum check: ${report.source.path}\n`);
+    process.stdout.write(`residuum check: ${report.source.path} (sha256 ${report.source.sha256?.slice(0, 12) ?? '-'})${baseline ? ` against baseline ${baselineFile} (${baseline.source?.path ?? '?'}, tolerance ${tolerance}%)` : ''}\n`);
     process.stdout.write(table(['', 'check'], results.map((r) => [r.pass ? 'PASS' : 'FAIL', r.message])));
     process.stdout.write(`${results.length - failed.length} passed, ${failed.length} failed\n`);
   }

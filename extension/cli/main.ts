@@ -1,25 +1,30 @@
 /**
  * `residuum`: the thin command-line shell around the core (report-contract.md).
- *   residuum analyze LOG [--anchors F] [--map F] [--reference F] [--json] [--out F] [--profile]
+ *   residuum analyze LOG [--anchors F] [--map F] [--reference F] [--json] [--out F] [--html F] [--md F] [--profile]
  *   residuum check LOG [same options] [--gate FILE] [--max-outliers N] [--min-inside95 X] [--max-rmse M]
- *                      [--baseline REPORT --tolerance P]
- *   residuum compare LOG_A LOG_B [LOG_C ...] [same options] [--json]
+ *                      [--max-settle-time S] [--baseline REPORT --tolerance P]
+ *   residuum compare LOG_A LOG_B [LOG_C ...] [same options] [--align time|start] [--align-event KIND] [--json]
  * Exit status: 0 ok; 1 a `check` threshold failed; 2 unreadable input, bad argument, or `check` without threshold.
  * Every failure is one line on stderr, never a stack trace.
  */
-import { writeFileSync, renameSync } from 'node:fs';
 import { analyzeFile, InputError, type AnalyzeFileOptions, type FileAnalysis } from '../node/analyzeFile';
 import { parseVerbArgs, numberOption, UsageError } from './args';
 import { formatSummary } from './summary';
 import { runCheck, CHECK_OPTIONS } from './check';
-import { runCompare } from './compare';
+import { runCompare, COMPARE_OPTIONS } from './compare';
+import { withNotes, writeReportExports } from './export';
+import { WriteError } from '../node/writeAtomic';
 import type { StageTimes } from '../core/analyze';
+import { IMU_PRESETS } from '../core/imu/presets';
 
 const USAGE = `usage:
-  residuum analyze LOG [--anchors F] [--map F] [--reference F] [--json] [--out F] [--profile]
-  residuum check LOG [options] [--gate FILE] [--max-outliers N] [--min-inside95 X] [--max-rmse M] [--baseline REPORT --tolerance P]
-  residuum compare LOG_A LOG_B [LOG_C ...] [options] [--json]
-options: --confidence C  --gate-prob P  --window S  --imu-preset consumer|industrial|tactical  --time-offset S`;
+  residuum analyze LOG [options] [--json] [--out REPORT.json] [--html F] [--md F] [--profile]
+  residuum check LOG [options] [--gate FILE] [--max-outliers N] [--min-inside95 X] [--max-rmse M] [--max-settle-time S]
+                 [--baseline REPORT --tolerance P] [--json] [--out F] [--html F] [--md F]
+  residuum compare LOG_A LOG_B [LOG_C ...] [options] [--align time|start] [--align-event KIND] [--json] [--out F] [--html F] [--md F]
+options: --anchors F  --map F  --reference F  --confidence C  --gate-prob P  --window S
+         --imu-preset consumer|industrial|tactical  --time-offset S
+exit: 0 ok; 1 a check threshold failed; 2 unreadable input, bad argument, or check without threshold`;
 
 /** Analysis options from parsed values. */
 export function analysisOptions(values: Record<string, unknown>, times?: StageTimes): AnalyzeFileOptions {
@@ -32,7 +37,11 @@ export function analysisOptions(values: Record<string, unknown>, times?: StageTi
   if (gateProb !== undefined) settings.gate = gateProb;
   const offset = numberOption(values, 'time-offset');
   if (offset !== undefined) settings.timeOffset_s = offset;
-  if (typeof values['imu-preset'] === 'string') settings.imuPreset = values['imu-preset'];
+  const preset = values['imu-preset'];
+  if (typeof preset === 'string') {
+    if (!Object.hasOwn(IMU_PRESETS, preset)) throw new UsageError(`--imu-preset must be one of ${Object.keys(IMU_PRESETS).join(', ')}, got '${preset}'`);
+    settings.imuPreset = preset;
+  }
   return {
     map: values.map as string | undefined,
     anchors: values.anchors as string | undefined,
@@ -42,12 +51,7 @@ export function analysisOptions(values: Record<string, unknown>, times?: StageTi
   };
 }
 
-/** Write a file atomically (temporary file, then rename), so a crash never leaves half a report. */
-export function writeAtomic(file: string, text: string): void {
-  const tmp = `${file}.tmp-${process.pid}`;
-  writeFileSync(tmp, text);
-  renameSync(tmp, file);
-}
+export { writeAtomic } from '../node/writeAtomic';
 
 async function analyzeVerb(argv: string[]): Promise<number> {
   const { values, positionals } = parseVerbArgs(argv, {});
@@ -58,11 +62,11 @@ async function analyzeVerb(argv: string[]): Promise<number> {
   if (positionals.length !== 1) throw new UsageError(`analyze takes exactly one LOG, got ${positionals.length}`);
   const times: StageTimes = {};
   const t0 = performance.now();
-  const result: FileAnalysis = await analyzeFile(positionals[0], analysisOptions(values, times));
+  const result: FileAnalysis = await analyzeFile(positionals[0], withNotes(analysisOptions(values, times), positionals[0]));
   const t1 = performance.now();
-  const json = JSON.stringify(result.report, null, 2) + '\n';
+  const json = values.json ? JSON.stringify(result.report, null, 2) + '\n' : '';
+  writeReportExports(values, result.report, result.series);
   times.serialize = performance.now() - t1;
-  if (typeof values.out === 'string') writeAtomic(values.out, json);
   if (values.json) process.stdout.write(json);
   else process.stdout.write(formatSummary(result.report));
   if (values.profile) {
@@ -82,10 +86,18 @@ export async function main(argv: string[]): Promise<number> {
         return await analyzeVerb(rest);
       case 'check': {
         const { values, positionals } = parseVerbArgs(rest, CHECK_OPTIONS);
+        if (values.help) {
+          process.stdout.write(USAGE + '\n');
+          return 0;
+        }
         return await runCheck(values, positionals, analysisOptions(values));
       }
       case 'compare': {
-        const { values, positionals } = parseVerbArgs(rest, {});
+        const { values, positionals } = parseVerbArgs(rest, COMPARE_OPTIONS);
+        if (values.help) {
+          process.stdout.write(USAGE + '\n');
+          return 0;
+        }
         return await runCompare(values, positionals, analysisOptions(values));
       }
       case undefined:
@@ -101,7 +113,7 @@ export async function main(argv: string[]): Promise<number> {
         throw new UsageError(`unknown command '${verb}' (expected analyze, check or compare)`);
     }
   } catch (e) {
-    if (e instanceof UsageError || e instanceof InputError) {
+    if (e instanceof UsageError || e instanceof InputError || e instanceof WriteError) {
       process.stderr.write(`residuum: ${e.message}\n`);
       return 2;
     }
@@ -116,6 +128,10 @@ export async function main(argv: string[]): Promise<number> {
 }
 
 if (require.main === module) {
+  // A closed pipe (`residuum ... | head`) ends the output quietly, not with a stack trace.
+  process.stdout.on('error', (e: NodeJS.ErrnoException) => {
+    if (e.code === 'EPIPE') process.exit(process.exitCode ?? 0);
+  });
   main(process.argv.slice(2)).then(
     (code) => {
       process.exitCode = code;

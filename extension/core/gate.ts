@@ -8,6 +8,7 @@
  * `minInside95` is the least share of NIS inside the 95% bounds per channel; `maxRmse_m` the position RMSE.
  */
 import type { Report, ChannelReport } from './report';
+import { settleTime } from './compare';
 
 /** Thresholds of one channel. */
 export interface ChannelGate {
@@ -75,7 +76,7 @@ function num(obj: unknown, ...keys: string[]): number | undefined {
 export function worstSettleTime(r: Report): number | undefined {
   let worst: number | undefined;
   for (const block of ['position', 'velocity', 'orientation']) {
-    const v = num(r.errors, block, 'convergence', 'settleTime');
+    const v = settleTime(r, block) ?? undefined;
     if (v !== undefined) worst = worst === undefined ? v : Math.max(worst, v);
   }
   return worst;
@@ -137,7 +138,12 @@ export function compareWithBaseline(r: Report, baseline: Report, tolerancePercen
   const tol = tolerancePercent / 100;
   for (const f of figures(r)) {
     const b = base.get(f.what);
-    if (!b || b.value === undefined || f.value === undefined) continue;
+    base.delete(f.what);
+    if (!b || b.value === undefined) continue;
+    if (f.value === undefined) {
+      out.push({ what: `${f.what} vs baseline`, limit: b.value, pass: false, message: `${f.what}: not computed now, baseline had ${fmt(b.value)}` });
+      continue;
+    }
     if (f.better === 'lower') {
       const limit = b.value * (1 + tol);
       out.push({
@@ -160,6 +166,10 @@ export function compareWithBaseline(r: Report, baseline: Report, tolerancePercen
         message: `${f.what}: ${fmt(f.value)} vs baseline ${fmt(b.value)} (distance to ${target} may grow at most ${tolerancePercent}% + 0.005: ${fmt(dNow)} <= ${fmt(limit)})`,
       });
     }
+  }
+  for (const b of base.values()) {
+    if (b.value === undefined) continue;
+    out.push({ what: `${b.what} vs baseline`, limit: b.value, pass: false, message: `${b.what}: in the baseline (${fmt(b.value)}) but not in this run` });
   }
   return out;
 }

@@ -1,0 +1,46 @@
+/**
+ * `--out F`, `--html F`, `--md F` of the verbs: the report JSON, the self-contained HTML report and the Markdown
+ * summary, each written atomically. Also loads the notes sidecar (`LOG.notes.json`) so the exports carry the notes.
+ */
+import { existsSync } from 'node:fs';
+import type { Report } from '../core/report';
+import type { Series } from '../core/series';
+import type { Comparison } from '../core/compareRuns';
+import { renderReportHtml, renderComparisonHtml } from '../core/export/html';
+import { renderReportMarkdown, renderComparisonMarkdown } from '../core/export/markdown';
+import { readNotes, notesPathFor } from '../node/notesStore';
+import { writeAtomic } from '../node/writeAtomic';
+import type { AnalyzeFileOptions } from '../node/analyzeFile';
+
+/** The options with the notes of the log's sidecar, when it has one; a malformed sidecar is one warning on stderr. */
+export function withNotes(options: AnalyzeFileOptions, logPath: string): AnalyzeFileOptions {
+  const file = notesPathFor(logPath);
+  if (!existsSync(file)) return options;
+  let read;
+  try {
+    read = readNotes(file);
+  } catch (e) {
+    process.stderr.write(`residuum: warning: notes ${file} cannot be read (${(e as NodeJS.ErrnoException).code ?? 'error'}); exported without notes\n`);
+    return options;
+  }
+  const { notes, problems } = read;
+  if (problems.length > 0) {
+    const p = problems[0];
+    process.stderr.write(`residuum: warning: notes ${p.file}:${p.line}${p.column !== undefined ? `:${p.column}` : ''}: ${p.message} (${problems.length} problem(s); readable notes kept)\n`);
+  }
+  return { ...options, notes };
+}
+
+/** Write the exports a verb was asked for (`--out`, `--html`, `--md`) of one report. */
+export function writeReportExports(values: Record<string, unknown>, report: Report, series: Series[]): void {
+  if (typeof values.out === 'string') writeAtomic(values.out, JSON.stringify(report, null, 2) + '\n');
+  if (typeof values.html === 'string') writeAtomic(values.html, renderReportHtml(report, series, { exportedAt: new Date().toISOString() }));
+  if (typeof values.md === 'string') writeAtomic(values.md, renderReportMarkdown(report));
+}
+
+/** Write the exports of a comparison (`--out` is the comparison JSON). */
+export function writeComparisonExports(values: Record<string, unknown>, comparison: Comparison): void {
+  if (typeof values.out === 'string') writeAtomic(values.out, JSON.stringify(comparison, null, 2) + '\n');
+  if (typeof values.html === 'string') writeAtomic(values.html, renderComparisonHtml(comparison, { exportedAt: new Date().toISOString() }));
+  if (typeof values.md === 'string') writeAtomic(values.md, renderComparisonMarkdown(comparison));
+}
