@@ -9,7 +9,7 @@ import gateSchema from '../../schema/gate.schema.json';
 import { analyzeFile, assertReadableFile, InputError, type AnalyzeFileOptions } from '../node/analyzeFile';
 import { evaluateGate, compareWithBaseline, hasThresholds, type Gate, type GateResult } from '../core/gate';
 import { REPORT_SCHEMA, type Report } from '../core/report';
-import { withNotes, writeReportExports } from './export';
+import { withNotes, writeReportExports, assertAnalysable } from './export';
 import { numberOption, UsageError } from './args';
 import { table } from './summary';
 
@@ -94,6 +94,7 @@ export async function runCheck(values: Record<string, unknown>, positionals: str
   }
 
   const { report, series } = await analyzeFile(positionals[0], withNotes(options, positionals[0]));
+  assertAnalysable(report);
   writeReportExports(values, report, series);
   const results: GateResult[] = [...evaluateGate(report, gate), ...(baseline ? compareWithBaseline(report, baseline, tolerance ?? 0) : [])];
   const failed = results.filter((r) => !r.pass);

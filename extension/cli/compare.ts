@@ -12,7 +12,7 @@ import { winCounts, runLabel, type AlignMode } from '../core/compare';
 import type { FindingKind } from '../core/model';
 import { UsageError } from './args';
 import { table } from './summary';
-import { withNotes, writeComparisonExports } from './export';
+import { withNotes, writeComparisonExports, assertAnalysable } from './export';
 
 /** Options only `compare` takes. */
 export const COMPARE_OPTIONS = {
@@ -50,6 +50,7 @@ export async function runCompare(values: Record<string, unknown>, positionals: s
   for (const p of positionals) {
     const opts = withNotes(options, p);
     const a = await analyzeFile(p, opts);
+    assertAnalysable(a.report);
     runs.push(a);
     settings.push(resolveSettings({ ...opts.settings, ...(typeof a.report.settings.map === 'string' ? { map: a.report.settings.map } : {}) }));
   }

@@ -10,7 +10,19 @@ import { renderReportHtml, renderComparisonHtml } from '../core/export/html';
 import { renderReportMarkdown, renderComparisonMarkdown } from '../core/export/markdown';
 import { readNotes, notesPathFor } from '../node/notesStore';
 import { writeAtomic } from '../node/writeAtomic';
-import type { AnalyzeFileOptions } from '../node/analyzeFile';
+import { InputError, type AnalyzeFileOptions } from '../node/analyzeFile';
+
+/**
+ * Throw InputError when a log gave nothing to analyse (no estimator epoch, no channel update, no IMU or UWB block):
+ * a binary or foreign file must not pass a CI gate with zero outliers. Names the first reader problem.
+ */
+export function assertAnalysable(report: Report): void {
+  const updates = report.channels.reduce((s, c) => s + c.updates, 0);
+  if (report.time.epochs > 0 || updates > 0 || report.imu !== undefined || report.uwb !== undefined) return;
+  const first = report.findings.find((f) => f.kind === 'parse-error' || f.severity === 'error');
+  const where = first ? `${first.file ?? report.source.path}${first.line !== undefined ? `:${first.line}` : ''}${first.column !== undefined ? `:${first.column}` : ''}: ${first.message}` : 'no estimator state, update or IMU records found';
+  throw new InputError(`log ${report.source.path} cannot be read as an estimator log (${where})`);
+}
 
 /** The options with the notes of the log's sidecar, when it has one; a malformed sidecar is one warning on stderr. */
 export function withNotes(options: AnalyzeFileOptions, logPath: string): AnalyzeFileOptions {

@@ -12,7 +12,7 @@ import { parseVerbArgs, numberOption, UsageError } from './args';
 import { formatSummary } from './summary';
 import { runCheck, CHECK_OPTIONS } from './check';
 import { runCompare, COMPARE_OPTIONS } from './compare';
-import { withNotes, writeReportExports } from './export';
+import { withNotes, writeReportExports, assertAnalysable } from './export';
 import { WriteError } from '../node/writeAtomic';
 import type { StageTimes } from '../core/analyze';
 import { IMU_PRESETS } from '../core/imu/presets';
@@ -65,6 +65,7 @@ async function analyzeVerb(argv: string[]): Promise<number> {
   const result: FileAnalysis = await analyzeFile(positionals[0], withNotes(analysisOptions(values, times), positionals[0]));
   const t1 = performance.now();
   const json = values.json ? JSON.stringify(result.report, null, 2) + '\n' : '';
+  assertAnalysable(result.report);
   writeReportExports(values, result.report, result.series);
   times.serialize = performance.now() - t1;
   if (values.json) process.stdout.write(json);

@@ -12,7 +12,7 @@ export function escapeHtml(text: string): string {
 /**
  * Text for Markdown (GitHub-flavoured, as in a pull-request comment), one line: HTML specials as character
  * references (so no tag or entity is formed), Markdown punctuation backslash-escaped (so no emphasis, link, image,
- * heading, list or table cell is formed), line breaks as spaces, and `:` after a word as a character reference (no
+ * heading, table cell or, at the start, list item is formed), line breaks as spaces, and `:` after a word as a character reference (no
  * `scheme:` autolink).
  */
 export function escapeMarkdown(text: string): string {
@@ -22,7 +22,8 @@ export function escapeMarkdown(text: string): string {
     .replace(/&/g, '&amp;')
     .replace(/</g, '&lt;')
     .replace(/>/g, '&gt;')
-    .replace(/[\\`*_{}[\]()#+\-.!|~"']/g, (c) => `\\${c}`)
+    .replace(/[\\`*_{}[\]()#+!|~"]/g, (c) => `\\${c}`)
+    .replace(/^(\s*)(-|\d+\.)/, (_m, sp: string, mark: string) => `${sp}${mark.replace(/^-/, '\\-').replace(/\.$/, '\\.')}`)
     .replace(/([a-z][a-z0-9+]*):/gi, '$1&#58;');
 }
 
