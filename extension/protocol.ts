@@ -119,13 +119,58 @@ export interface LogWriteMessage {
   message: string;
 }
 
+/** Ask for the log's notes (sent after each `init`); answered by `notes/update`. */
+export interface NotesRequestMessage {
+  type: 'notes/request';
+}
+
+/** Add a note on an epoch (`t`), a time range (`t`..`tEnd`), a channel update or a finding. */
+export interface NotesAddMessage {
+  type: 'notes/add';
+  t: number;
+  tEnd?: number;
+  channel?: string;
+  updateId?: string;
+  /** Finding kind the note is about. */
+  finding?: string;
+  text: string;
+  tags: string[];
+}
+
+/** Change a note's text, tags or status (applied to the note as it is on disk when saved). */
+export interface NotesEditMessage {
+  type: 'notes/edit';
+  id: string;
+  text?: string;
+  tags?: string[];
+  status?: 'open' | 'resolved';
+}
+
+/** Delete a note. */
+export interface NotesDeleteMessage {
+  type: 'notes/delete';
+  id: string;
+}
+
+/** Go to the source code that writes a channel or a column of the log. */
+export interface CodeGotoMessage {
+  type: 'code/goto';
+  /** A channel name (`tdoa`) or a column name (`nu_tdoa`). */
+  name: string;
+}
+
 /** Every message the webview may send. */
 export type WebviewToHostMessage =
   | ReadyMessage
   | SeriesRequestMessage
   | RevealLineMessage
   | CursorDidChangeMessage
-  | LogWriteMessage;
+  | LogWriteMessage
+  | NotesRequestMessage
+  | NotesAddMessage
+  | NotesEditMessage
+  | NotesDeleteMessage
+  | CodeGotoMessage;
 
 // ---------------------------------------------------------------------------------------------------------------
 // Host -> webview
@@ -185,8 +230,37 @@ export interface StatusMessage {
   message?: string;
 }
 
+/** A note as the panel shows it: anchored to a log line, or detached (kept, with the reason). Text is plain text. */
+export interface NoteInfo {
+  id: string;
+  t: number;
+  tEnd?: number;
+  channel?: string;
+  updateId?: string;
+  finding?: string;
+  text: string;
+  tags: string[];
+  status: 'open' | 'resolved';
+  /** 1-based line in the main log, when attached and known. */
+  line?: number;
+  detached: boolean;
+  reason?: string;
+}
+
+/** The log's notes (after `notes/request`, and after every change by any window or on disk). */
+export interface NotesUpdateMessage {
+  type: 'notes/update';
+  notes: NoteInfo[];
+  /** Edits not yet on disk (read-only folder, malformed sidecar). */
+  pending: number;
+  /** Why the notes file could not be read or written, one plain sentence. */
+  message?: string;
+  /** Show this channel's view (from a CodeLens in the estimator's source). */
+  focusChannel?: string;
+}
+
 /** Every message the host may send. */
-export type HostToWebviewMessage = InitMessage | SeriesResponseMessage | CursorSetMessage | StatusMessage;
+export type HostToWebviewMessage = InitMessage | SeriesResponseMessage | CursorSetMessage | StatusMessage | NotesUpdateMessage;
 
 // ---------------------------------------------------------------------------------------------------------------
 // Guards
@@ -202,6 +276,19 @@ const MAX_LINE = 2 ** 40;
 const MAX_WIDTH_PX = 16384;
 /** Longest log text accepted from the webview, characters. */
 const MAX_LOG_CHARS = 4000;
+/** Longest note text, characters. */
+const MAX_NOTE_CHARS = 4000;
+/** Most tags on a note, and longest tag. */
+const MAX_TAGS = 32;
+const MAX_TAG_CHARS = 64;
+
+function isTags(value: unknown): value is string[] {
+  return Array.isArray(value) && value.length <= MAX_TAGS && value.every((t) => typeof t === 'string' && t.length <= MAX_TAG_CHARS);
+}
+
+function isShortString(value: unknown, max = 256): value is string {
+  return typeof value === 'string' && value.length > 0 && value.length <= max;
+}
 
 function isRecord(value: unknown): value is Record<string, unknown> {
   return typeof value === 'object' && value !== null && !Array.isArray(value);
@@ -292,6 +379,37 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
       if (typeof message !== 'string') return 'log/write: message is not a string';
       return { type, level, message: message.slice(0, MAX_LOG_CHARS) };
     }
+    case 'notes/request':
+      return { type };
+    case 'notes/add': {
+      const { t, tEnd, channel, updateId, finding, text, tags } = value;
+      if (!isFiniteNumber(t) || !optFinite(tEnd) || (tEnd !== undefined && tEnd < t)) return 'notes/add: bad t or tEnd';
+      if (typeof text !== 'string' || text.length > MAX_NOTE_CHARS) return 'notes/add: text is not a string of at most 4000 characters';
+      if (!isTags(tags)) return 'notes/add: tags is not a list of short strings';
+      for (const f of [channel, updateId, finding]) if (f !== undefined && !isShortString(f)) return 'notes/add: bad channel, updateId or finding';
+      const out: NotesAddMessage = { type, t, text, tags: [...tags] };
+      if (tEnd !== undefined) out.tEnd = tEnd;
+      if (channel !== undefined) out.channel = channel as string;
+      if (updateId !== undefined) out.updateId = updateId as string;
+      if (finding !== undefined) out.finding = finding as string;
+      return out;
+    }
+    case 'notes/edit': {
+      const { id, text, tags, status } = value;
+      if (!isShortString(id, 64)) return 'notes/edit: bad id';
+      if (text !== undefined && (typeof text !== 'string' || text.length > MAX_NOTE_CHARS)) return 'notes/edit: bad text';
+      if (tags !== undefined && !isTags(tags)) return 'notes/edit: bad tags';
+      if (status !== undefined && status !== 'open' && status !== 'resolved') return 'notes/edit: bad status';
+      const out: NotesEditMessage = { type, id };
+      if (text !== undefined) out.text = text;
+      if (tags !== undefined) out.tags = [...tags];
+      if (status !== undefined) out.status = status;
+      return out;
+    }
+    case 'notes/delete':
+      return isShortString(value.id, 64) ? { type, id: value.id } : 'notes/delete: bad id';
+    case 'code/goto':
+      return isShortString(value.name) ? { type, name: value.name } : 'code/goto: bad name';
     default:
       return `unknown message type ${JSON.stringify(typeof type === 'string' ? type.slice(0, 64) : typeof type)}`;
   }
@@ -316,6 +434,8 @@ export function parseHostMessage(value: unknown): HostToWebviewMessage | undefin
       return isFiniteNumber(value.t) ? (value as unknown as CursorSetMessage) : undefined;
     case 'status':
       return value.state === 'loading' || value.state === 'error' ? (value as unknown as StatusMessage) : undefined;
+    case 'notes/update':
+      return Array.isArray(value.notes) && isIndex(value.pending) ? (value as unknown as NotesUpdateMessage) : undefined;
     default:
       return undefined;
   }

@@ -73,6 +73,8 @@ export interface TimeChartOptions {
   extent: [number, number];
   /** x values marked by vertical lines (bias steps, worst updates). */
   markers: number[];
+  /** Times of the log's notes, read at each draw (dotted lines; webview/notes.ts). */
+  noteMarkers?: () => readonly number[];
   /** Cursor sync key shared by the linked charts. */
   syncKey: string;
   /** The user zoomed or panned (time charts): the new window. */
@@ -92,7 +94,7 @@ function axis(theme: () => Theme, label: string, log = false): uPlot.Axis {
 }
 
 /** Vertical lines at `xs` and at the selected x, drawn on the plot after the series. */
-function drawMarkers(u: uPlot, xs: readonly number[], selected: number | undefined, theme: Theme): void {
+function drawMarkers(u: uPlot, xs: readonly number[], selected: number | undefined, theme: Theme, notes: readonly number[] = []): void {
   const { ctx } = u;
   const { top, height } = u.bbox;
   const line = (x: number, color: string, dash: number[]): void => {
@@ -109,6 +111,7 @@ function drawMarkers(u: uPlot, xs: readonly number[], selected: number | undefin
     ctx.restore();
   };
   for (const x of xs) line(x, theme.marker, [4, 3]);
+  for (const x of notes) line(x, theme.points, [1, 2]);
   if (selected !== undefined) line(selected, theme.selected, []);
 }
 
@@ -177,7 +180,7 @@ export class TimeChart {
           }
         : { drag: { x: false, y: false } },
       hooks: {
-        draw: [(u) => drawMarkers(u, options.markers, this.selected, theme())],
+        draw: [(u) => drawMarkers(u, options.markers, this.selected, theme(), isTime ? options.noteMarkers?.() : undefined)],
         setScale: [
           (u, key) => {
             if (key !== 'x' || this.programmatic || !isTime) return;

@@ -40,6 +40,7 @@ import {
   worstOnPath,
   type WindowAction,
 } from './shape';
+import { notesView } from './notes';
 import { button, divider, progressRing, registerUi, tabs } from './ui';
 import { panelApi } from './vscodeApi';
 
@@ -230,12 +231,7 @@ function buildOverview(host: HTMLElement, message: InitMessage): void {
   report.findings.forEach((f) => findings.append(el('li', { class: `finding kind-${safeClass(f.kind)}` }, findingItem(f, message.files))));
   host.append(report.findings.length ? findings : el('p', {}, 'No findings.'));
   host.append(divider());
-  if (report.notes.length) {
-    host.append(el('h2', {}, 'Notes'));
-    const notes = el('ul');
-    for (const n of report.notes) notes.append(el('li', {}, typeof n === 'string' ? n : JSON.stringify(n)));
-    host.append(notes);
-  }
+  notesView.mount(host, message, () => view, (t) => select(t, undefined));
 }
 
 function safeClass(s: string): string {
@@ -330,6 +326,7 @@ function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglo
       band: info.band,
       extent: ownExtent,
       markers: markersFor(info.key, report),
+      noteMarkers: () => notesView.markerTimes(),
       syncKey: 'residuum-time',
       onWindow: (t0, t1) => onUserWindow(t0, t1),
       onPick: (t) => {
@@ -542,6 +539,10 @@ function onMessage(msg: HostToWebviewMessage): void {
       break;
     case 'status':
       showStatus(msg);
+      break;
+    case 'notes/update':
+      notesView.update(msg);
+      for (const e of entries) e.chart.redraw();
       break;
   }
 }

@@ -9,6 +9,7 @@ import type { WorstEntry } from '../core/report';
 import { LOG_VIEW_TYPE, LogViewProvider } from './customEditor';
 import { ADD_COLUMN_COMMAND, MappingFixProvider, addColumnToMappingFile, createMappingFile } from './mappingFix';
 import { PANEL_VIEW_TYPE } from './panel';
+import { NotesController } from './notes';
 import { PanelManager } from './panels';
 import { runSelfTestIfRequested } from './selfTest';
 
@@ -78,6 +79,7 @@ export function activate(context: vscode.ExtensionContext): ResiduumApi {
       { providedCodeActionKinds: MappingFixProvider.providedCodeActionKinds },
     ),
     vscode.workspace.onDidChangeConfiguration((e) => manager.reconfigure(e)),
+    new NotesController(manager, output),
   );
 
   void runSelfTestIfRequested(context);

@@ -21,6 +21,7 @@ import {
 } from '../protocol';
 import { readConfiguration, type EditorConfiguration } from './configuration';
 import { nisHistogram } from './histogram';
+import { notesPanelHooks } from './notesPanelHook';
 import { panelHtml, webviewOptions } from './html';
 import { stepIndex } from './ranking';
 import { AnalysisError, runAnalysis, type AnalysisResult } from './runAnalysis';
@@ -168,6 +169,7 @@ export class AnalysisPanel {
     this.loading?.abort();
     if (this.reloadTimer) clearTimeout(this.reloadTimer);
     this.host.didDispose(this);
+    notesPanelHooks.onDisposed?.(this);
     this.panel.dispose();
     for (const d of this.disposables.splice(0)) d.dispose();
   }
@@ -267,6 +269,7 @@ export class AnalysisPanel {
     this.sendInit(this.notice);
     this.notice = undefined;
     this.host.didUpdate(this);
+    notesPanelHooks.onAnalysed?.(this);
   }
 
   private sendInit(notice: string | undefined): void {
@@ -318,6 +321,13 @@ export class AnalysisPanel {
         break;
       case 'log/write':
         this.host.output[msg.level === 'info' ? 'info' : msg.level === 'warning' ? 'warn' : 'error'](`panel: ${msg.message}`);
+        break;
+      case 'notes/request':
+      case 'notes/add':
+      case 'notes/edit':
+      case 'notes/delete':
+      case 'code/goto':
+        notesPanelHooks.onMessage?.(this, msg);
         break;
       default:
         assertNever(msg);

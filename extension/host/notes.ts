@@ -1,0 +1,446 @@
+/**
+ * Notes in the editor: comment threads on the log's lines (Comments API), the notes of the panel (list and chart
+ * markers, via `notes/*` messages), the commands to add, edit, resolve and delete from each place, and the sidecar
+ * `<log>.notes.json` kept in step with other windows and with git (watched; re-read; merged by the store).
+ *
+ * Placement: notes hold times, never lines. The lines shown here come from a quick index of the log's text
+ * (core/notes/lineIndex.ts, for logs up to 32 MB) or, for bigger logs, from the last analysis (`report.notes`).
+ * Detached notes (their epoch is gone) are kept and shown on the log's first line as "detached".
+ *
+ * Text from notes is never markup: comment bodies are MarkdownStrings built with `appendText` (escaped, not trusted,
+ * no HTML), labels are plain strings, and the panel sets text with `textContent`.
+ */
+import * as fs from 'node:fs';
+import * as path from 'node:path';
+import * as vscode from 'vscode';
+import { anchorNotes, type AnchorLog, type AnchoredNote } from '../core/notes/anchor';
+import { indexLogText, targetAtLine, type LineTarget } from '../core/notes/lineIndex';
+import { newNoteId, normalizeTags, splitTags, type Note, type NoteOp } from '../core/notes/sidecar';
+import { NotesStore, notesPathFor } from '../node/notesStore';
+import type { NoteInfo, NotesUpdateMessage } from '../protocol';
+import { CODELENS_LANGUAGES, CodeLinks, SHOW_CHANNEL_COMMAND } from './codeLinks';
+import { notesPanelHooks, type NotesPanelMessage } from './notesPanelHook';
+import { globEscape, type AnalysisPanel } from './panel';
+import type { PanelManager } from './panels';
+
+/** Comment controller id (menus use it in `commentController == residuum.notes`). */
+const CONTROLLER_ID = 'residuum.notes';
+/** Largest log indexed in the extension host for placing notes, bytes. */
+const MAX_INDEX_BYTES = 32 * 1024 * 1024;
+/** File extensions of logs that take notes. */
+const LOG_EXTENSIONS = ['.csv', '.jsonl', '.ndjson', '.json'];
+
+/** Whether a URI names a log that can carry notes (not a sidecar or mapping file). */
+export function isNotesLog(uri: vscode.Uri): boolean {
+  if (uri.scheme !== 'file') return false;
+  const p = uri.path.toLowerCase();
+  return LOG_EXTENSIONS.some((e) => p.endsWith(e)) && !p.endsWith('.notes.json') && !p.endsWith('.map.json');
+}
+
+/** One comment: the note's text, plain, in a MarkdownString that escapes everything. */
+class NoteComment implements vscode.Comment {
+  body: string | vscode.MarkdownString;
+  mode = vscode.CommentMode.Preview;
+  author: vscode.CommentAuthorInformation;
+  label: string | undefined;
+  contextValue = 'residuum.note';
+  constructor(
+    readonly logKey: string,
+    readonly note: AnchoredNote,
+  ) {
+    this.body = plainBody(note);
+    this.author = { name: note.author ?? 'Note' };
+    this.label = noteLabel(note);
+  }
+  /** The text as the user edits it: the note's text and its #tags. */
+  editable(): string {
+    return [this.note.text, ...this.note.tags.map((t) => `#${t}`)].join(' ').trim();
+  }
+}
+
+function plainBody(n: Note): vscode.MarkdownString {
+  const md = new vscode.MarkdownString(undefined, false);
+  md.isTrusted = false;
+  md.supportHtml = false;
+  md.appendText(n.text === '' ? '(no text)' : n.text);
+  if (n.tags.length) md.appendMarkdown('\n\n').appendText(n.tags.map((t) => `#${t}`).join(' '));
+  return md;
+}
+
+/** A short plain label: where the note is and its state. */
+export function noteLabel(n: AnchoredNote): string {
+  const where = n.tEnd !== undefined ? `t = ${n.t}–${n.tEnd} s` : `t = ${n.t} s`;
+  const on = [n.channel, n.updateId].filter((x) => x !== undefined).join(' ');
+  const parts = [where, on, n.finding ? `on ${n.finding}` : '', n.status === 'resolved' ? 'resolved' : '', n.detached ? `detached: ${n.reason ?? 'its epoch is not in this log'}` : ''];
+  return parts.filter((p) => p !== '').join(' · ');
+}
+
+/** The notes of one log. */
+interface LogNotes {
+  uri: vscode.Uri;
+  store: NotesStore;
+  threads: vscode.CommentThread[];
+  watcher: vscode.FileSystemWatcher;
+  index?: { stamp: string; log: AnchorLog | undefined };
+  /** Why the sidecar cannot be read or written, when it cannot. */
+  message?: string;
+  /** Id of a note to show expanded on the next render. */
+  expand?: string;
+}
+
+/** Notes and code links of the extension (one per window). */
+export class NotesController implements vscode.Disposable {
+  private readonly comments: vscode.CommentController;
+  private readonly logs = new Map<string, LogNotes>();
+  private readonly panels = new Set<AnalysisPanel>();
+  private readonly readyPanels = new WeakSet<AnalysisPanel>();
+  private readonly pendingFocus = new Map<string, string>();
+  private readonly threadOf = new WeakMap<vscode.CommentThread, { key: string; id: string }>();
+  private readonly disposables: vscode.Disposable[] = [];
+  readonly codeLinks: CodeLinks;
+
+  constructor(
+    private readonly manager: PanelManager,
+    private readonly output: vscode.LogOutputChannel,
+  ) {
+    this.codeLinks = new CodeLinks(output);
+    this.comments = vscode.comments.createCommentController(CONTROLLER_ID, 'Residuum notes');
+    this.comments.options = { prompt: 'Add a Residuum note on this epoch', placeHolder: 'What did you find here? Add #tags' };
+    this.comments.commentingRangeProvider = {
+      provideCommentingRanges: (doc) => (isNotesLog(doc.uri) && doc.lineCount > 0 ? [new vscode.Range(0, 0, doc.lineCount - 1, 0)] : []),
+    };
+    notesPanelHooks.onMessage = (panel, msg) => void this.onPanelMessage(panel, msg).catch((e) => this.output.error(`notes: ${(e as Error).message}`));
+    notesPanelHooks.onAnalysed = (panel) => {
+      this.panels.add(panel);
+      void this.codeLinks.analysed(panel.uri, panel.report);
+      void this.refresh(this.entry(panel.uri));
+    };
+    notesPanelHooks.onDisposed = (panel) => {
+      this.panels.delete(panel);
+    };
+    this.disposables.push(
+      this.comments,
+      this.codeLinks,
+      vscode.languages.registerCodeLensProvider(CODELENS_LANGUAGES.map((language) => ({ scheme: 'file', language })), this.codeLinks),
+      vscode.commands.registerCommand('residuum.notes.addAtLine', (arg?: unknown) => this.addAtLine(arg)),
+      vscode.commands.registerCommand('residuum.notes.create', (reply: vscode.CommentReply) => this.createFromReply(reply)),
+      vscode.commands.registerCommand('residuum.notes.edit', (c: NoteComment) => this.startEdit(c)),
+      vscode.commands.registerCommand('residuum.notes.saveEdit', (c: NoteComment) => this.saveEdit(c)),
+      vscode.commands.registerCommand('residuum.notes.cancelEdit', (c: NoteComment) => this.refreshKey(c?.logKey)),
+      vscode.commands.registerCommand('residuum.notes.resolve', (t: vscode.CommentThread) => this.onThread(t, (id) => ({ op: 'patch', id, set: { status: 'resolved' } }))),
+      vscode.commands.registerCommand('residuum.notes.reopen', (t: vscode.CommentThread) => this.onThread(t, (id) => ({ op: 'patch', id, set: { status: 'open' } }))),
+      vscode.commands.registerCommand('residuum.notes.delete', (t: vscode.CommentThread) => this.onThread(t, (id) => ({ op: 'delete', id }))),
+      vscode.commands.registerCommand('residuum.notes.goToCode', (arg?: unknown, name?: unknown) => this.goToCodeCommand(arg, name)),
+      vscode.commands.registerCommand(SHOW_CHANNEL_COMMAND, (uri: unknown, channel: unknown) => this.showChannel(uri, channel)),
+      vscode.workspace.onDidOpenTextDocument((d) => this.onOpened(d)),
+      vscode.workspace.onDidChangeConfiguration((e) => {
+        if (e.affectsConfiguration('residuum.codeLens')) this.codeLinks.refresh();
+      }),
+    );
+    for (const d of vscode.workspace.textDocuments) this.onOpened(d);
+  }
+
+  dispose(): void {
+    notesPanelHooks.onMessage = undefined;
+    notesPanelHooks.onAnalysed = undefined;
+    notesPanelHooks.onDisposed = undefined;
+    for (const l of this.logs.values()) {
+      l.watcher.dispose();
+      for (const t of l.threads) t.dispose();
+    }
+    this.logs.clear();
+    for (const d of this.disposables.splice(0)) d.dispose();
+  }
+
+  /** Notes of a log as placed now (for in-host tests and the self test). */
+  async placedNotes(uri: vscode.Uri): Promise<AnchoredNote[]> {
+    return this.place(this.entry(uri));
+  }
+
+  /** Add a note to a log (for in-host tests and the panel); returns its id, or undefined when refused. */
+  async addNote(uri: vscode.Uri, fields: Omit<Note, 'id' | 'status' | 'created'>, expand = false): Promise<string | undefined> {
+    const entry = this.entry(uri);
+    const note: Note = { ...fields, id: newNoteId(), tags: normalizeTags(fields.tags), status: 'open', created: new Date().toISOString().slice(0, 10) };
+    if (expand) entry.expand = note.id;
+    return (await this.commit(entry, { op: 'put', note })) ? note.id : undefined;
+  }
+
+  private onOpened(doc: vscode.TextDocument): void {
+    if (!isNotesLog(doc.uri)) return;
+    const key = doc.uri.fsPath;
+    if (this.logs.has(key)) return;
+    // Only logs with a sidecar get threads at once; others get them with their first note.
+    if (!fs.existsSync(notesPathFor(key))) return;
+    void this.refresh(this.entry(doc.uri));
+  }
+
+  private entry(uri: vscode.Uri): LogNotes {
+    const key = uri.fsPath;
+    let e = this.logs.get(key);
+    if (e) return e;
+    const store = new NotesStore(notesPathFor(key));
+    const watcher = vscode.workspace.createFileSystemWatcher(new vscode.RelativePattern(vscode.Uri.file(path.dirname(key)), `${globEscape(path.basename(key))}.notes.json`));
+    e = { uri, store, threads: [], watcher };
+    const entry = e;
+    const onDisk = (): void => void this.onSidecarChanged(entry);
+    watcher.onDidChange(onDisk);
+    watcher.onDidCreate(onDisk);
+    watcher.onDidDelete(onDisk);
+    const problems = store.reload();
+    if (problems.length) e.message = `${problems[0].file}:${problems[0].line}${problems[0].column ? `:${problems[0].column}` : ''}: ${problems[0].message}`;
+    this.logs.set(key, e);
+    return e;
+  }
+
+  private async onSidecarChanged(entry: LogNotes): Promise<void> {
+    let text: string | undefined;
+    try {
+      text = fs.readFileSync(entry.store.path, 'utf8');
+    } catch {
+      text = undefined;
+    }
+    if (text !== undefined && text === entry.store.lastText()) return; // our own write
+    const problems = entry.store.reload();
+    entry.message = problems.length ? `${problems[0].file}:${problems[0].line}: ${problems[0].message}` : undefined;
+    if (!problems.length && entry.store.pendingCount() > 0) this.save(entry, false);
+    await this.refresh(entry);
+  }
+
+  /** Apply one edit and save; returns whether the edit was taken (saved or kept pending). */
+  private async commit(entry: LogNotes, op: NoteOp): Promise<boolean> {
+    const refused = entry.store.edit(op);
+    if (refused) {
+      void vscode.window.showErrorMessage(`Residuum: the note was not added: ${refused}.`);
+      return false;
+    }
+    this.save(entry, true);
+    await this.refresh(entry);
+    return true;
+  }
+
+  private save(entry: LogNotes, tell: boolean): void {
+    const r = entry.store.save();
+    entry.message = r.saved ? undefined : r.message;
+    if (r.saved) return;
+    this.output.warn(`notes: ${r.message}`);
+    if (!tell) return;
+    void vscode.window.showWarningMessage(`Residuum: ${r.message}`, 'Retry').then((choice) => {
+      if (choice !== 'Retry') return;
+      this.save(entry, true);
+      void this.refresh(entry);
+    });
+  }
+
+  private async indexOf(entry: LogNotes): Promise<AnchorLog | undefined> {
+    const file = entry.uri.fsPath;
+    let st: fs.Stats;
+    try {
+      st = await fs.promises.stat(file);
+    } catch {
+      return undefined;
+    }
+    const stamp = `${st.size}/${st.mtimeMs}`;
+    if (entry.index?.stamp === stamp) return entry.index.log;
+    let log: AnchorLog | undefined;
+    if (st.size <= MAX_INDEX_BYTES) {
+      try {
+        log = indexLogText(await fs.promises.readFile(file, 'utf8'), file);
+      } catch (e) {
+        this.output.warn(`notes: cannot index ${file}: ${(e as Error).message}`);
+      }
+    }
+    entry.index = { stamp, log };
+    return log;
+  }
+
+  private async place(entry: LogNotes): Promise<AnchoredNote[]> {
+    const notes = entry.store.notes();
+    const index = await this.indexOf(entry);
+    if (index) return anchorNotes(notes, index);
+    // A log too big to index here: the lines of the last analysis, by note id.
+    const reportNotes = (this.manager.find(entry.uri)?.report?.notes ?? []) as Partial<AnchoredNote>[];
+    const byId = new Map(reportNotes.filter((n) => typeof n === 'object' && n !== null && typeof n.id === 'string').map((n) => [n.id as string, n]));
+    return notes.map((n) => {
+      const r = byId.get(n.id);
+      return r && r.t === n.t ? { ...n, line: r.line, file: r.file, detached: r.detached === true, reason: r.reason } : { ...n, detached: false };
+    });
+  }
+
+  private refreshKey(key: string | undefined): void {
+    const e = key ? this.logs.get(key) : undefined;
+    if (e) void this.refresh(e);
+  }
+
+  /** Re-draw the comment threads and tell the log's panels. */
+  private async refresh(entry: LogNotes): Promise<void> {
+    const placed = await this.place(entry);
+    const key = entry.uri.fsPath;
+    for (const t of entry.threads.splice(0)) t.dispose();
+    for (const n of placed) {
+      const line = !n.detached && n.line !== undefined && (n.file === undefined || path.resolve(n.file) === key) ? n.line : undefined;
+      if (line === undefined && !n.detached) continue;
+      const at = line !== undefined ? line - 1 : 0;
+      const comment = new NoteComment(key, n);
+      const thread = this.comments.createCommentThread(entry.uri, new vscode.Range(at, 0, at, 0), [comment]);
+      thread.label = n.detached ? `Detached note (t = ${n.t} s)` : `Residuum note${n.tags.length ? ` · ${n.tags.map((t) => `#${t}`).join(' ')}` : ''}`;
+      thread.canReply = false;
+      thread.contextValue = n.status === 'resolved' ? 'residuum.note.resolved' : 'residuum.note.open';
+      thread.state = n.status === 'resolved' ? vscode.CommentThreadState.Resolved : vscode.CommentThreadState.Unresolved;
+      thread.collapsibleState = entry.expand === n.id ? vscode.CommentThreadCollapsibleState.Expanded : vscode.CommentThreadCollapsibleState.Collapsed;
+      this.threadOf.set(thread, { key, id: n.id });
+      entry.threads.push(thread);
+    }
+    entry.expand = undefined;
+    const message: NotesUpdateMessage = { type: 'notes/update', notes: placed.map(toInfo), pending: entry.store.pendingCount() };
+    if (entry.message) message.message = entry.message;
+    for (const p of this.panels) {
+      if (p.uri.fsPath !== key || !this.readyPanels.has(p)) continue;
+      const focus = this.pendingFocus.get(p.uri.toString());
+      if (focus) {
+        message.focusChannel = focus;
+        this.pendingFocus.delete(p.uri.toString());
+      }
+      void p.panel.webview.postMessage(message);
+      delete message.focusChannel;
+    }
+  }
+
+  private async onPanelMessage(panel: AnalysisPanel, msg: NotesPanelMessage): Promise<void> {
+    this.panels.add(panel);
+    const entry = this.entry(panel.uri);
+    switch (msg.type) {
+      case 'notes/request':
+        this.readyPanels.add(panel);
+        await this.refresh(entry);
+        break;
+      case 'notes/add': {
+        if (msg.text.trim() === '' && msg.tags.length === 0) {
+          void vscode.window.showWarningMessage('Residuum: a note needs a text or a tag.');
+          return;
+        }
+        const fields: Omit<Note, 'id' | 'status' | 'created'> = { t: msg.t, text: msg.text.trim(), tags: msg.tags };
+        if (msg.tEnd !== undefined) fields.tEnd = msg.tEnd;
+        if (msg.channel !== undefined) fields.channel = msg.channel;
+        if (msg.updateId !== undefined) fields.updateId = msg.updateId;
+        if (msg.finding !== undefined) fields.finding = msg.finding;
+        await this.addNote(panel.uri, fields, true);
+        break;
+      }
+      case 'notes/edit': {
+        const set: { text?: string; tags?: string[]; status?: 'open' | 'resolved' } = {};
+        if (msg.text !== undefined) set.text = msg.text;
+        if (msg.tags !== undefined) set.tags = msg.tags;
+        if (msg.status !== undefined) set.status = msg.status;
+        await this.commit(entry, { op: 'patch', id: msg.id, set });
+        break;
+      }
+      case 'notes/delete':
+        await this.commit(entry, { op: 'delete', id: msg.id });
+        break;
+      case 'code/goto':
+        await this.codeLinks.goto(panel.uri, msg.name);
+        break;
+    }
+  }
+
+  private async addAtLine(arg?: unknown): Promise<void> {
+    const editor = vscode.window.activeTextEditor;
+    const uri = arg instanceof vscode.Uri ? arg : editor?.document.uri;
+    if (!uri || !editor || editor.document.uri.toString() !== uri.toString() || !isNotesLog(uri)) {
+      void vscode.window.showInformationMessage('Residuum: put the cursor on a line of a log (CSV or JSON Lines) to add a note there.');
+      return;
+    }
+    const sel = editor.selection;
+    const target = await this.targetOf(uri, sel.start.line + 1, sel.end.line + 1);
+    if (!target) return;
+    const input = await vscode.window.showInputBox({ title: `Residuum: note at t = ${target.t} s`, prompt: 'A short text; words starting with # become tags.', placeHolder: 'anchor 5 blocked by a rack #nlos' });
+    if (input === undefined) return;
+    const { text, tags } = splitTags(input);
+    if (text === '' && tags.length === 0) return;
+    await this.addNote(uri, { ...target, text, tags }, true);
+  }
+
+  private async createFromReply(reply: vscode.CommentReply): Promise<void> {
+    const uri = reply.thread.uri;
+    const line = (reply.thread.range?.start.line ?? 0) + 1;
+    const endLine = (reply.thread.range?.end.line ?? line - 1) + 1;
+    reply.thread.dispose();
+    const target = await this.targetOf(uri, line, endLine);
+    if (!target) return;
+    const { text, tags } = splitTags(reply.text);
+    await this.addNote(uri, { ...target, text, tags }, true);
+  }
+
+  /** The anchor of a note made on lines `line`..`endLine` (a range note when they are different epochs). */
+  private async targetOf(uri: vscode.Uri, line: number, endLine: number): Promise<(LineTarget & { tEnd?: number }) | undefined> {
+    const index = await this.indexOf(this.entry(uri));
+    if (!index) {
+      void vscode.window.showWarningMessage('Residuum: notes on lines need a CSV or JSON Lines log with a time column (of at most 32 MB); add the note from the panel instead.');
+      return undefined;
+    }
+    const target = targetAtLine(index, line);
+    if (!target) {
+      void vscode.window.showInformationMessage(`Residuum: line ${line} is not a record of the log (a header, comment or blank line); put the cursor on a data line.`);
+      return undefined;
+    }
+    if (endLine > line) {
+      const end = targetAtLine(index, endLine);
+      if (end && end.t > target.t) return { t: target.t, tEnd: end.t };
+    }
+    return target;
+  }
+
+  private startEdit(c: NoteComment): void {
+    const found = this.findThread(c);
+    if (!found) return;
+    c.body = c.editable();
+    c.mode = vscode.CommentMode.Editing;
+    found.comments = [c];
+  }
+
+  private async saveEdit(c: NoteComment): Promise<void> {
+    const entry = this.logs.get(c.logKey);
+    if (!entry) return;
+    const raw = typeof c.body === 'string' ? c.body : c.body.value;
+    const { text, tags } = splitTags(raw);
+    await this.commit(entry, { op: 'patch', id: c.note.id, set: { text, tags } });
+  }
+
+  private findThread(c: NoteComment): vscode.CommentThread | undefined {
+    return this.logs.get(c.logKey)?.threads.find((t) => t.comments.includes(c));
+  }
+
+  private async onThread(thread: vscode.CommentThread, op: (id: string) => NoteOp): Promise<void> {
+    const at = this.threadOf.get(thread);
+    const entry = at ? this.logs.get(at.key) : undefined;
+    if (!at || !entry) return;
+    await this.commit(entry, op(at.id));
+  }
+
+  private async goToCodeCommand(arg: unknown, name: unknown): Promise<void> {
+    const log = arg instanceof vscode.Uri ? arg : typeof arg === 'string' ? vscode.Uri.parse(arg) : this.manager.current()?.uri;
+    if (!log) {
+      void vscode.window.showInformationMessage('Residuum: open a log analysis first.');
+      return;
+    }
+    const column = typeof name === 'string' ? name : await vscode.window.showInputBox({ title: 'Residuum: go to the code that writes a column', prompt: 'Channel or column name', placeHolder: 'nu_tdoa' });
+    if (column) await this.codeLinks.goto(log, column);
+  }
+
+  private async showChannel(uriArg: unknown, channel: unknown): Promise<void> {
+    if (typeof uriArg !== 'string' || typeof channel !== 'string') return;
+    const uri = vscode.Uri.parse(uriArg, true);
+    this.pendingFocus.set(uri.toString(), channel);
+    const panel = this.manager.open(uri);
+    await panel.loaded;
+    this.panels.add(panel);
+    // A panel that already asked for its notes gets the focus now; a new one when it asks after its first init.
+    if (this.readyPanels.has(panel)) await this.refresh(this.entry(uri));
+  }
+}
+
+function toInfo(n: AnchoredNote): NoteInfo {
+  const out: NoteInfo = { id: n.id, t: n.t, text: n.text, tags: n.tags, status: n.status, detached: n.detached };
+  for (const k of ['tEnd', 'channel', 'updateId', 'finding', 'line', 'reason'] as const) if (n[k] !== undefined) (out as unknown as Record<string, unknown>)[k] = n[k];
+  return out;
+}
