@@ -14,7 +14,7 @@ import { fileURLToPath } from 'node:url';
 import { parseArgs } from 'node:util';
 import { loadavg, cpus } from 'node:os';
 import * as esbuild from 'esbuild';
-import { ensureBundle, newestSource } from './bench/bundle.mjs';
+import { ALIAS, ensureBundle, newestSource } from './bench/bundle.mjs';
 import { measure, measureOnce, peakMethod } from './bench/measure.mjs';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..');
@@ -53,7 +53,7 @@ async function ensureCli() {
     try {
       await esbuild.build({
         entryPoints: ['extension/cli/main.ts'], outfile: out, bundle: true, platform: 'node', format: 'cjs',
-        target: 'node20', sourcemap: true, logLevel: 'silent', legalComments: 'none', banner: { js: '#!/usr/bin/env node' },
+        target: 'node20', sourcemap: true, logLevel: 'silent', legalComments: 'none', banner: { js: '#!/usr/bin/env node' }, alias: ALIAS,
       });
     } catch (e) {
       const first = (e.errors?.[0] ? `${e.errors[0].text} (${e.errors[0].location?.file ?? ''})` : String(e.message).split('\n')[0]);

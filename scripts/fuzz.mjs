@@ -2,7 +2,7 @@
 // sidecar; scripts/fuzz/properties.ts), at least 100,000 cases, then a linear-growth check: each input kind read
 // at 1x and 10x size in fresh processes, time and peak-memory ratios printed and loosely asserted (time ratio under
 // 20, memory ratio under 12; linear is 10 and memory includes the runtime's fixed share).
-// usage: node scripts/fuzz.mjs [--runs N] [--seed S] [--no-growth] [--growth-only]
+// usage: node scripts/fuzz.mjs [--runs N] [--seed S] [--minutes-per-target M] [--no-growth] [--growth-only]
 import { spawnSync } from 'node:child_process';
 import { dirname, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';

@@ -4,6 +4,12 @@ import * as esbuild from 'esbuild';
 import { existsSync, statSync, readdirSync } from 'node:fs';
 import { join } from 'node:path';
 
+/**
+ * Module aliases shared with scripts/build.mjs: jsonc-parser's `main` is a UMD build whose lazy requires esbuild
+ * cannot follow, so its ESM build is bundled.
+ */
+export const ALIAS = { 'jsonc-parser': './node_modules/jsonc-parser/lib/esm/main.js' };
+
 /** Newest modification time (ms) of the .ts files under the given files or folders. */
 export function newestSource(paths) {
   let newest = 0;
@@ -28,7 +34,7 @@ export async function ensureBundle(entry, outfile, watch) {
   if (existsSync(outfile) && statSync(outfile).mtimeMs >= newestSource([entry, ...watch])) return outfile;
   await esbuild.build({
     entryPoints: [entry], outfile, bundle: true, platform: 'node', format: 'cjs', target: 'node20',
-    sourcemap: true, logLevel: 'warning', legalComments: 'none',
+    sourcemap: true, logLevel: 'warning', legalComments: 'none', alias: ALIAS,
   });
   return outfile;
 }

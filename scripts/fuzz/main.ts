@@ -1,6 +1,7 @@
 /**
  * Entry of `npm run fuzz` (bundled by scripts/fuzz.mjs): the seeded reader properties, then the linear-growth check.
- * usage: node fuzz.js [--runs N=100000] [--seed S=20261202] [--growth-only] [--no-growth]
+ * usage: node fuzz.js [--runs N=100000] [--seed S=20261202] [--minutes-per-target M=10]
+ * Counterexamples are reported as found (no shrinking: one pathologically slow input must not stall the run).
  *        node fuzz.js --growth-case KIND SCALE     (internal: one growth measurement in a fresh process)
  */
 import { parseArgs } from 'node:util';
@@ -13,7 +14,7 @@ async function main(): Promise<number> {
     allowPositionals: true,
     options: {
       runs: { type: 'string', default: '100000' }, seed: { type: 'string', default: '20261202' },
-      'growth-case': { type: 'boolean' },
+      'growth-case': { type: 'boolean' }, 'minutes-per-target': { type: 'string', default: '10' },
     },
   });
   if (values['growth-case']) {
@@ -43,9 +44,10 @@ async function main(): Promise<number> {
   const total = Number(values.runs);
   const seed = Number(values.seed);
   process.stdout.write(`fuzzing the readers: ${total} cases, seed ${seed}\n`);
-  const { runs, failures } = await runFuzz(total, seed, (name, n, s, failure) => {
-    process.stdout.write(`  ${failure ? 'FAIL' : 'ok  '} ${name.padEnd(28)} ${String(n).padStart(7)} cases  ${s.toFixed(1)} s\n`);
-  });
+  const timeLimit_ms = Number(values['minutes-per-target']) * 60_000;
+  const { runs, failures } = await runFuzz(total, seed, (name, n, s, failure, interrupted) => {
+    process.stdout.write(`  ${failure ? 'FAIL' : 'ok  '} ${name.padEnd(28)} ${String(n).padStart(7)} cases  ${s.toFixed(1)} s${interrupted ? '  (stopped by the time limit)' : ''}\n`);
+  }, undefined, { shrink: false, timeLimit_ms });
   process.stdout.write(`${runs} cases run, ${failures.length} failing propert${failures.length === 1 ? 'y' : 'ies'}\n`);
   for (const f of failures) process.stdout.write(`\n${f}\n`);
   process.stdout.write(`${cases} reads; ${slow.length} pathological (over 1 s for under 64 KiB)\n`);

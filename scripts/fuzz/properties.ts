@@ -429,22 +429,35 @@ export interface FuzzTarget {
   /** Relative share of the total number of runs. */
   weight: number;
   /** Run `numRuns` cases from `seed`. */
-  run(numRuns: number, seed: number): Promise<FuzzResult>;
+  run(numRuns: number, seed: number, options?: FuzzRunOptions): Promise<FuzzResult>;
+}
+
+/** How a target runs. */
+export interface FuzzRunOptions {
+  /** Shrink a counterexample (default true; the script turns it off so a pathologically slow reader cannot stall it). */
+  shrink?: boolean;
+  /** Stop the target after this many milliseconds (the cases run so far are reported). */
+  timeLimit_ms?: number;
 }
 
 /** Outcome of one target: cases run, and the shrunk counterexample when one failed. */
 export interface FuzzResult {
   runs: number;
   failure?: string;
+  /** True when the time limit stopped the target early. */
+  interrupted?: boolean;
 }
 
 function target<Ts extends unknown[]>(name: string, weight: number, property: fc.IRawProperty<Ts>): FuzzTarget {
   return {
     name,
     weight,
-    async run(numRuns: number, seed: number): Promise<FuzzResult> {
-      const r = await fc.check(property, { seed, numRuns });
-      if (!r.failed) return { runs: r.numRuns };
+    async run(numRuns: number, seed: number, options: FuzzRunOptions = {}): Promise<FuzzResult> {
+      const r = await fc.check(property, {
+        seed, numRuns, endOnFailure: options.shrink === false,
+        ...(options.timeLimit_ms !== undefined ? { interruptAfterTimeLimit: options.timeLimit_ms, markInterruptAsFailure: false } : {}),
+      });
+      if (!r.failed) return { runs: r.numRuns, interrupted: r.interrupted };
       const err = r.errorInstance instanceof Error ? r.errorInstance.message : String(r.errorInstance);
       return {
         runs: r.numRuns,
@@ -471,8 +484,8 @@ export function fuzzTargets(): FuzzTarget[] {
 
 /** Run every target with `total` cases shared by weight, seeded from `seed`; reports each target as it ends. */
 export async function runFuzz(
-  total: number, seed: number, onTarget?: (name: string, runs: number, seconds: number, failure?: string) => void,
-  targets: FuzzTarget[] = fuzzTargets(),
+  total: number, seed: number, onTarget?: (name: string, runs: number, seconds: number, failure?: string, interrupted?: boolean) => void,
+  targets: FuzzTarget[] = fuzzTargets(), options: FuzzRunOptions = {},
 ): Promise<{ runs: number; failures: string[] }> {
   const weights = targets.reduce((s, t) => s + t.weight, 0);
   let runs = 0;
@@ -480,10 +493,10 @@ export async function runFuzz(
   for (const [k, t] of targets.entries()) {
     const numRuns = Math.max(1, Math.round((total * t.weight) / weights));
     const t0 = performance.now();
-    const r = await t.run(numRuns, seed + k);
+    const r = await t.run(numRuns, seed + k, options);
     runs += r.runs;
     if (r.failure) failures.push(r.failure);
-    onTarget?.(t.name, r.runs, (performance.now() - t0) / 1000, r.failure);
+    onTarget?.(t.name, r.runs, (performance.now() - t0) / 1000, r.failure, r.interrupted);
   }
   return { runs, failures };
 }
