@@ -6,6 +6,7 @@
  */
 import type { Anchor, Channel, ImuStream, RangeStream, StateStream, TdoaStream } from '../model';
 import { DiagnosticSink } from './diagnostics';
+import type { GrowthGuard } from './budget';
 
 const INITIAL_CAPACITY = 256;
 const TIME_BOX = new Float64Array(1);
@@ -40,6 +41,16 @@ export class StreamBuilder {
   readonly slots = new Map<string, Slot>();
   /** Index of the first record of each file segment, in order of reading. */
   readonly segments: { file: number; start: number }[] = [];
+  /** Memory budget (budget.ts): asked before every growth; absent means unbounded. */
+  guard?: GrowthGuard;
+  /** Decimation stride (budget.ts): 1 keeps every record; k keeps every k-th record offered. */
+  keepEvery = 1;
+  /** Records offered since decimation began (counted only while `keepEvery > 1`). */
+  offered = 0;
+  /** Records dropped by decimation. */
+  dropped = 0;
+  /** The free row at `length` holds a dropped record's values (cleared before reuse). */
+  scratchDirty = false;
 
   /** The slot named `name`, created (NaN-filled) on first use. */
   slot(name: string, width = 1): Slot {
@@ -60,6 +71,7 @@ export class StreamBuilder {
    */
   addBoxed(tBox: Float64Array, line: number, file: number): number {
     if (this.length === this.capacity) this.grow();
+    if (this.keepEvery !== 1 && !this.keepNext()) return this.length;
     const i = this.length++;
     this.t[i] = tBox[0];
     this.line[i] = line;
@@ -69,13 +81,32 @@ export class StreamBuilder {
     return i;
   }
 
+  /**
+   * Decimated stream: whether the record being offered is kept. A dropped record is written to the free row at
+   * `length` (the caller writes its values there); that row is cleared before it is used again.
+   */
+  private keepNext(): boolean {
+    if (this.scratchDirty) {
+      const i = this.length;
+      for (const s of this.slots.values()) s.arr.fill(NaN, i * s.width, i * s.width + s.width);
+      this.scratchDirty = false;
+    }
+    if (this.offered++ % this.keepEvery === 0) return true;
+    this.scratchDirty = true;
+    this.dropped++;
+    return false;
+  }
+
   /** Make room for `n` records at least (one allocation instead of repeated doubling when the size is known). */
   reserve(n: number): void {
-    if (n > this.capacity) this.resize(Math.ceil(n));
+    const cap = this.guard ? this.guard.capacityFor(this, Math.ceil(n)) : Math.ceil(n);
+    if (cap > this.capacity) this.resize(cap);
   }
 
   private grow(): void {
-    this.resize(this.capacity * 2);
+    const cap = this.capacity * 2;
+    if (this.guard && this.length >= 2 && this.guard.capacityFor(this, cap) < cap) { this.guard.thin(this); return; }
+    this.resize(cap);
   }
 
   private resize(cap: number): void {
@@ -176,6 +207,8 @@ export class RunBuilder {
   readonly anchorSource = new Map<string, string>();
   readonly resets: number[] = [];
   readonly meta: Record<string, string> = {};
+  /** Memory budget of the run's columns (budget.ts), passed on to channels created later. */
+  guard?: GrowthGuard;
   /** Full covariance of state records: states and per-record matrices (index -> matrix). */
   pStates: string[] | undefined;
   pMatrix: Float64Array | undefined;
@@ -196,7 +229,7 @@ export class RunBuilder {
   /** The builder of channel `name`. */
   channel(name: string): ChannelBuilder {
     let c = this.channels.get(name);
-    if (!c) { c = new ChannelBuilder(name); this.channels.set(name, c); }
+    if (!c) { c = new ChannelBuilder(name); c.guard = this.guard; this.channels.set(name, c); }
     return c;
   }
 

@@ -236,8 +236,9 @@ export class JsonRecordSink {
     });
     const target = plan.target;
     const before = target.length;
+    const droppedBefore = target.dropped;
     plan.row(vals, strs, line);
-    if (P !== undefined) {
+    if (P !== undefined && target.dropped === droppedBefore) {
       if (target.length === before) {
         this.diag('parse-error', line, column, 'A covariance "P" was given in a record with no time or state; skipped.');
       } else this.covariance(P, target.length - 1, line, column, vals[plan.timeCol]);

@@ -45,6 +45,46 @@ function isSpace(b: number): boolean {
  * number) is left in `numValue[0]` and the offset of the delimiter or `end` in {@link numStop}.
  */
 export function parseDecimal(b: Uint8Array, start: number, end: number, delim: number): number {
+  // Lean path for the common plain cell ([-+]digits[.digits] right up to the delimiter); anything else, including
+  // spaces, exponents and long mantissas, takes the general path below.
+  let i = start;
+  let neg = false;
+  let c = i < end ? b[i] : -1;
+  if (c === 0x2d) { neg = true; i++; } else if (c === 0x2b) i++;
+  let m = 0;
+  let digits = 0;
+  while (i < end) {
+    const d = (b[i] - 0x30) >>> 0;
+    if (d > 9) break;
+    m = m * 10 + d;
+    digits++;
+    i++;
+  }
+  let exp10 = 0;
+  if (i < end && b[i] === 0x2e) {
+    i++;
+    const f0 = i;
+    while (i < end) {
+      const d = (b[i] - 0x30) >>> 0;
+      if (d > 9) break;
+      m = m * 10 + d;
+      i++;
+    }
+    digits += i - f0;
+    exp10 = f0 - i;
+  }
+  if (digits > 0 && (i === end || b[i] === delim) && m < TWO53 && exp10 >= -22) {
+    numStop = i;
+    numStatus = NUM_OK;
+    const v = exp10 < 0 ? m / POW10[-exp10] : m;
+    numValue[0] = neg ? -v : v;
+    return NUM_OK;
+  }
+  return parseDecimalGeneral(b, start, end, delim);
+}
+
+/** The general decimal path: spaces around the number, exponents, long mantissas, words. */
+function parseDecimalGeneral(b: Uint8Array, start: number, end: number, delim: number): number {
   let i = start;
   while (i < end && (b[i] === 0x20 || b[i] === 0x09) && b[i] !== delim) i++;
   const s0 = i;

@@ -6,6 +6,7 @@
 import type { Diagnostic, NavLog } from '../model';
 import { parseAnchorsText } from './anchors';
 import { ByteBuffer } from './bytes';
+import { attachBudget, type ColumnBudget } from './budget';
 import { RunBuilder, toAnchors, toChannel, toImu, toRanges, toStateStream, toTdoa } from './builder';
 import { timeChecks, GAP_FACTOR } from './checks';
 import { CsvFileReader } from './csv';
@@ -50,6 +51,8 @@ export interface ReadOptions {
   onProgress?: (bytesRead: number) => void;
   /** A step longer than this many median steps is a `time-gap` (default 5). */
   maxGapSteps?: number;
+  /** Memory budget of the columns, bytes (budget.ts); beyond it streams are decimated and the log marked partial. */
+  memoryBudgetBytes?: number;
 }
 
 /** Options of a {@link LogReader}. */
@@ -62,6 +65,8 @@ export interface LogReaderOptions {
   maxGapSteps?: number;
   /** Size of the main log in bytes, when known (lets the reader reserve its columns once). */
   sizeHint?: number;
+  /** Memory budget of the columns, bytes (budget.ts); beyond it streams are decimated and the log marked partial. */
+  memoryBudgetBytes?: number;
 }
 
 function extFormat(name: string): 'csv' | 'jsonl' | 'json' | undefined {
@@ -156,8 +161,10 @@ export class LogReader {
   private readonly main: FileIngest;
   private finished: NavLog | undefined;
   private readonly extraFiles: string[] = [];
+  private readonly budget: ColumnBudget | undefined;
 
   constructor(readonly name: string, private readonly options: LogReaderOptions = {}) {
+    if (options.memoryBudgetBytes !== undefined && options.memoryBudgetBytes > 0) this.budget = attachBudget(this.run, options.memoryBudgetBytes);
     this.main = new FileIngest(this.run, name, {
       spec: options.mapping, mapping: options.mapping, role: 'estimate', mapName: options.mapName, format: options.format,
       sizeHint: options.sizeHint,
@@ -193,7 +200,9 @@ export class LogReader {
   /** The run so far, without ending the main file. */
   snapshot(): NavLog {
     if (this.finished) return this.finished;
-    return assemble(this.run, this.main.format ?? 'csv', this.name, this.options, this.extraFiles, false);
+    const log = assemble(this.run, this.main.format ?? 'csv', this.name, this.options, this.extraFiles, false);
+    this.budget?.annotate(log);
+    return log;
   }
 
   /** End of the main log: read its last line and return the NavLog. Later calls return the same NavLog. */
@@ -201,6 +210,7 @@ export class LogReader {
     if (this.finished) return this.finished;
     this.main.finish();
     this.finished = assemble(this.run, this.main.format ?? 'csv', this.name, this.options, this.extraFiles, true);
+    this.budget?.annotate(this.finished);
     return this.finished;
   }
 }
@@ -334,7 +344,8 @@ export async function readRun(main: ByteSource, options: ReadOptions = {}): Prom
     early.push(...r.diagnostics);
   }
   early.push(...pre.run.diagnostics.snapshot());
-  const reader = new LogReader(main.name, { mapping, mapName, maxGapSteps: options.maxGapSteps, sizeHint: main.size });
+  const reader = new LogReader(main.name, { mapping, mapName, maxGapSteps: options.maxGapSteps, sizeHint: main.size,
+    memoryBudgetBytes: options.memoryBudgetBytes });
   reader.addDiagnostics(early);
   if (mapName !== undefined) reader.noteFile(mapName);
   await pump(main, reader, reader, options, progress);
