@@ -16,6 +16,7 @@ export const COMMON_OPTIONS = {
   window: { type: 'string' },
   'imu-preset': { type: 'string' },
   'time-offset': { type: 'string' },
+  'memory-budget': { type: 'string' },
   profile: { type: 'boolean' },
   html: { type: 'string' },
   md: { type: 'string' },

@@ -12,7 +12,7 @@ import { parseVerbArgs, numberOption, UsageError } from './args';
 import { formatSummary } from './summary';
 import { runCheck, CHECK_OPTIONS } from './check';
 import { runCompare, COMPARE_OPTIONS } from './compare';
-import { withNotes, writeReportExports, assertAnalysable } from './export';
+import { writeReportExports, assertAnalysable } from './export';
 import { WriteError } from '../node/writeAtomic';
 import type { StageTimes } from '../core/analyze';
 import { IMU_PRESETS } from '../core/imu/presets';
@@ -23,7 +23,7 @@ const USAGE = `usage:
                  [--baseline REPORT --tolerance P] [--json] [--out F] [--html F] [--md F]
   residuum compare LOG_A LOG_B [LOG_C ...] [options] [--align time|start] [--align-event KIND] [--json] [--out F] [--html F] [--md F]
 options: --anchors F  --map F  --reference F  --confidence C  --gate-prob P  --window S
-         --imu-preset consumer|industrial|tactical  --time-offset S
+         --imu-preset consumer|industrial|tactical  --time-offset S  --memory-budget MIB (default 4096)
 exit: 0 ok; 1 a check threshold failed; 2 unreadable input, bad argument, or check without threshold`;
 
 /** Analysis options from parsed values. */
@@ -37,6 +37,8 @@ export function analysisOptions(values: Record<string, unknown>, times?: StageTi
   if (gateProb !== undefined) settings.gate = gateProb;
   const offset = numberOption(values, 'time-offset');
   if (offset !== undefined) settings.timeOffset_s = offset;
+  const budget = numberOption(values, 'memory-budget', [0.01, 1 << 24]);
+  if (budget !== undefined) settings.memoryBudgetBytes = budget * 1024 * 1024;
   const preset = values['imu-preset'];
   if (typeof preset === 'string') {
     if (!Object.hasOwn(IMU_PRESETS, preset)) throw new UsageError(`--imu-preset must be one of ${Object.keys(IMU_PRESETS).join(', ')}, got '${preset}'`);
@@ -62,7 +64,7 @@ async function analyzeVerb(argv: string[]): Promise<number> {
   if (positionals.length !== 1) throw new UsageError(`analyze takes exactly one LOG, got ${positionals.length}`);
   const times: StageTimes = {};
   const t0 = performance.now();
-  const result: FileAnalysis = await analyzeFile(positionals[0], withNotes(analysisOptions(values, times), positionals[0]));
+  const result: FileAnalysis = await analyzeFile(positionals[0], analysisOptions(values, times));
   const t1 = performance.now();
   const json = values.json ? JSON.stringify(result.report, null, 2) + '\n' : '';
   assertAnalysable(result.report);

@@ -88,7 +88,7 @@ export function analyzeLog(log: NavLog, settings: AnalysisSettings, info: Source
       ...(settings.map ? { map: settings.map } : {}),
       timeOffset_s: settings.timeOffset_s,
     },
-    partial: info.partial ?? false,
+    partial: info.partial ?? log.partial ?? false,
     time: timeSummary(log),
     channels: channels.block ?? [],
     ...(errors.block ? { errors: errors.block as Report['errors'] } : {}),

@@ -169,6 +169,8 @@ export interface NavLog {
   /** IMU specification exactly as the mapping file gives it (datasheet numbers with units), for conversion to SI. */
   imuSpecRaw?: ImuSpecRaw;
   diagnostics: Diagnostic[];
+  /** True when the memory budget forced the reader to decimate (read/budget.ts); a diagnostic says what was kept. */
+  partial?: boolean;
 }
 
 /** A datasheet number with its unit as written in a mapping file (e.g. `{ value: 0.007, unit: "deg/s/sqrt(Hz)" }`). */

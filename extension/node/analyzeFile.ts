@@ -99,6 +99,7 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
     reference: options.reference ? fileByteSource(options.reference) : undefined,
     open: (p: string, relativeTo: string) => openRelative(p, relativeTo),
     signal: options.signal,
+    memoryBudgetBytes: settings.memoryBudgetBytes,
   });
   if (options.times) options.times.read = performance.now() - t0;
   const sidecar = options.notes === undefined ? notesForReport(logPath, log) : undefined;
