@@ -401,6 +401,11 @@ export function compilePlan(input: PlanInput): RowPlan {
       if (role.kind === 'range' && cs.anchor !== undefined) role = { kind: 'range', anchor: cs.anchor };
     } else {
       role = resolveName(normNames[c]);
+      if (role?.kind === 'range' && role.anchor !== undefined) {
+        // Keep the anchor id's case as written (names are compared lower-cased).
+        const raw = /^\s*range[._\-\s]+(.+?)\s*$/i.exec(names[c]);
+        if (raw) role = { kind: 'range', anchor: raw[1] };
+      }
       if (role?.kind === 'time') {
         const explicit = /_(s|ms|us|ns)$/.test(normNames[c]);
         scale = explicit ? role.scale : (spec?.time?.unit ? (unitFactor(spec.time.unit) ?? 1) : 1);
