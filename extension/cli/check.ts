@@ -9,7 +9,7 @@ import gateSchema from '../../schema/gate.schema.json';
 import { analyzeFile, assertReadableFile, InputError, type AnalyzeFileOptions } from '../node/analyzeFile';
 import { evaluateGate, compareWithBaseline, hasThresholds, type Gate, type GateResult } from '../core/gate';
 import { REPORT_SCHEMA, type Report } from '../core/report';
-import { withNotes, writeReportExports, assertAnalysable } from './export';
+import { writeReportExports, assertAnalysable } from './export';
 import { numberOption, UsageError } from './args';
 import { table } from './summary';
 
@@ -93,7 +93,7 @@ export async function runCheck(values: Record<string, unknown>, positionals: str
     if (!isReport) throw new InputError(`baseline report ${baselineFile} is not a ${REPORT_SCHEMA} report (write one with: residuum analyze LOG --out REPORT.json)`);
   }
 
-  const { report, series } = await analyzeFile(positionals[0], withNotes(options, positionals[0]));
+  const { report, series } = await analyzeFile(positionals[0], options);
   assertAnalysable(report);
   writeReportExports(values, report, series);
   const results: GateResult[] = [...evaluateGate(report, gate), ...(baseline ? compareWithBaseline(report, baseline, tolerance ?? 0) : [])];

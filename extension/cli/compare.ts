@@ -12,7 +12,7 @@ import { winCounts, runLabel, type AlignMode } from '../core/compare';
 import type { FindingKind } from '../core/model';
 import { UsageError } from './args';
 import { table } from './summary';
-import { withNotes, writeComparisonExports, assertAnalysable } from './export';
+import { writeComparisonExports, assertAnalysable } from './export';
 
 /** Options only `compare` takes. */
 export const COMPARE_OPTIONS = {
@@ -48,7 +48,7 @@ export async function runCompare(values: Record<string, unknown>, positionals: s
   const runs: AnalysedRun[] = [];
   const settings: AnalysisSettings[] = [];
   for (const p of positionals) {
-    const opts = withNotes(options, p);
+    const opts = options;
     const a = await analyzeFile(p, opts);
     assertAnalysable(a.report);
     runs.push(a);

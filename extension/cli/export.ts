@@ -1,16 +1,15 @@
 /**
  * `--out F`, `--html F`, `--md F` of the verbs: the report JSON, the self-contained HTML report and the Markdown
- * summary, each written atomically. Also loads the notes sidecar (`LOG.notes.json`) so the exports carry the notes.
+ * summary, each written atomically. The notes come with the report
+ * (analyzeFile anchors the log's `LOG.notes.json`).
  */
-import { existsSync } from 'node:fs';
 import type { Report } from '../core/report';
 import type { Series } from '../core/series';
 import type { Comparison } from '../core/compareRuns';
 import { renderReportHtml, renderComparisonHtml } from '../core/export/html';
 import { renderReportMarkdown, renderComparisonMarkdown } from '../core/export/markdown';
-import { readNotes, notesPathFor } from '../node/notesStore';
 import { writeAtomic } from '../node/writeAtomic';
-import { InputError, type AnalyzeFileOptions } from '../node/analyzeFile';
+import { InputError } from '../node/analyzeFile';
 
 /**
  * Throw InputError when a log gave nothing to analyse (no estimator epoch, no channel update, no IMU or UWB block):
@@ -22,25 +21,6 @@ export function assertAnalysable(report: Report): void {
   const first = report.findings.find((f) => f.kind === 'parse-error' || f.severity === 'error');
   const where = first ? `${first.file ?? report.source.path}${first.line !== undefined ? `:${first.line}` : ''}${first.column !== undefined ? `:${first.column}` : ''}: ${first.message}` : 'no estimator state, update or IMU records found';
   throw new InputError(`log ${report.source.path} cannot be read as an estimator log (${where})`);
-}
-
-/** The options with the notes of the log's sidecar, when it has one; a malformed sidecar is one warning on stderr. */
-export function withNotes(options: AnalyzeFileOptions, logPath: string): AnalyzeFileOptions {
-  const file = notesPathFor(logPath);
-  if (!existsSync(file)) return options;
-  let read;
-  try {
-    read = readNotes(file);
-  } catch (e) {
-    process.stderr.write(`residuum: warning: notes ${file} cannot be read (${(e as NodeJS.ErrnoException).code ?? 'error'}); exported without notes\n`);
-    return options;
-  }
-  const { notes, problems } = read;
-  if (problems.length > 0) {
-    const p = problems[0];
-    process.stderr.write(`residuum: warning: notes ${p.file}:${p.line}${p.column !== undefined ? `:${p.column}` : ''}: ${p.message} (${problems.length} problem(s); readable notes kept)\n`);
-  }
-  return { ...options, notes };
 }
 
 /** Write the exports a verb was asked for (`--out`, `--html`, `--md`) of one report. */

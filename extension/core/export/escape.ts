@@ -23,7 +23,8 @@ export function escapeMarkdown(text: string): string {
     .replace(/</g, '&lt;')
     .replace(/>/g, '&gt;')
     .replace(/[\\`*_{}[\]()#+!|~"]/g, (c) => `\\${c}`)
-    .replace(/^(\s*)(-|\d+\.)/, (_m, sp: string, mark: string) => `${sp}${mark.replace(/^-/, '\\-').replace(/\.$/, '\\.')}`)
+    .replace(/^(\s*)-/, '$1\\-')
+    .replace(/^(\s*)(\d{1,9})([.)])(?=\s|$)/, '$1$2\\$3')
     .replace(/([a-z][a-z0-9+]*):/gi, '$1&#58;');
 }
 

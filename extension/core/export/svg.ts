@@ -4,7 +4,7 @@
  * NaN/null values break a line. Coordinates: SVG user units, y down; data y up.
  */
 import { envelope, isAscending } from '../envelope';
-import { escapeHtml, fmtNum } from './escape';
+import { escapeHtml } from './escape';
 
 /** One curve. `x` ascending unless the chart is `planar`. */
 export interface ChartLine {
@@ -50,6 +50,12 @@ export function niceTicks(lo: number, hi: number, count = 5): number[] {
   const out: number[] = [];
   for (let v = Math.ceil(lo / step) * step; v <= hi + step * 1e-9; v += step) out.push(Math.abs(v) < step * 1e-9 ? 0 : v);
   return out;
+}
+
+/** A tick value without trailing zeros (ticks are round numbers). */
+export function tickLabel(v: number): string {
+  if (v !== 0 && (Math.abs(v) >= 1e6 || Math.abs(v) < 1e-3)) return v.toExponential(1);
+  return String(Number(v.toPrecision(6)));
 }
 
 /** Reduce a curve to at most about MAX_POINTS points (min/max envelope when x ascends, else a stride). */
@@ -138,11 +144,11 @@ export function svgChart(spec: ChartSpec, width = 760, height = 260): string {
   // Grid and tick labels.
   for (const t of niceTicks(xr[0], xr[1], 8)) {
     parts.push(`<line x1="${r(X(t))}" y1="${m.top}" x2="${r(X(t))}" y2="${m.top + ph}" stroke="#e9ecef"/>`);
-    parts.push(`<text x="${r(X(t))}" y="${m.top + ph + 14}" text-anchor="middle" font-size="10">${escapeHtml(fmtNum(t, 2))}</text>`);
+    parts.push(`<text x="${r(X(t))}" y="${m.top + ph + 14}" text-anchor="middle" font-size="10">${escapeHtml(tickLabel(t))}</text>`);
   }
   for (const t of niceTicks(yr[0], yr[1], 5)) {
     parts.push(`<line x1="${m.left}" y1="${r(Y(t))}" x2="${m.left + pw}" y2="${r(Y(t))}" stroke="#e9ecef"/>`);
-    parts.push(`<text x="${m.left - 4}" y="${r(Y(t) + 3)}" text-anchor="end" font-size="10">${escapeHtml(fmtNum(t, 3))}</text>`);
+    parts.push(`<text x="${m.left - 4}" y="${r(Y(t) + 3)}" text-anchor="end" font-size="10">${escapeHtml(tickLabel(t))}</text>`);
   }
   parts.push(`<text x="${m.left + pw / 2}" y="${height - 6}" text-anchor="middle" font-size="11">${escapeHtml(spec.xLabel)}</text>`);
   parts.push(`<text x="${m.left}" y="16" font-size="12" font-weight="bold">${title}${spec.unit ? ` [${escapeHtml(spec.unit)}]` : ''}</text>`);
