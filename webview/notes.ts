@@ -10,6 +10,7 @@
  * of `<li data-note-id data-line data-status data-detached>`; `[data-testid="note-text"]`, `[data-testid="note-tags"]`,
  * `[data-testid="note-about"]`, `[data-testid="note-add"]`; `document.body.dataset.focusedChannel`.
  */
+import { tagsFromField as parseTagsField } from '../extension/core/notes/sidecar';
 import type { Finding } from '../extension/core/report';
 import type { InitMessage, NoteInfo, NotesUpdateMessage, ViewState } from '../extension/protocol';
 import { el } from './dom';
@@ -22,16 +23,6 @@ let section: HTMLElement | undefined;
 let init: InitMessage | undefined;
 let currentView: () => ViewState = () => ({});
 let selectTime: (t: number) => void = () => undefined;
-
-/** Split a tags field ("nlos, rack #aisle-3") into tags. */
-export function parseTagsField(value: string): string[] {
-  const out: string[] = [];
-  for (const raw of value.split(/[\s,;]+/)) {
-    const t = raw.replace(/^#+/, '').trim();
-    if (t && !out.includes(t) && t.length <= 64) out.push(t);
-  }
-  return out.slice(0, 32);
-}
 
 /** What a note is about, as the form offers it. */
 interface About {

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { parseHostMessage, parseWebviewMessage } from '../../extension/protocol';
-import { parseTagsField } from '../../webview/notes';
+import { tagsFromField } from '../../extension/core/notes/sidecar';
 
 describe('notes messages from the webview are checked field by field', () => {
   it('accepts well-formed messages and keeps only known fields', () => {
@@ -43,7 +43,7 @@ describe('notes messages from the webview are checked field by field', () => {
   });
 
   it('the panel form splits a tags field', () => {
-    expect(parseTagsField('nlos, rack  #aisle-3;nlos')).toEqual(['nlos', 'rack', 'aisle-3']);
-    expect(parseTagsField('   ')).toEqual([]);
+    expect(tagsFromField('nlos, rack  #aisle-3;nlos')).toEqual(['nlos', 'rack', 'aisle-3']);
+    expect(tagsFromField('   ')).toEqual([]);
   });
 });

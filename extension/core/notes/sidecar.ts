@@ -77,6 +77,11 @@ export function normalizeTags(tags: readonly string[]): string[] {
   return out;
 }
 
+/** Tags typed in a field of their own (`nlos, rack #aisle-3`): split at spaces, commas and semicolons; at most 32. */
+export function tagsFromField(value: string): string[] {
+  return normalizeTags(value.split(/[\s,;]+/)).filter((t) => t.length <= 64).slice(0, 32);
+}
+
 /** Split a typed line into text and `#tags` (a tag is `#` followed by letters, digits, `-`, `_`, `.` or `/`). */
 export function splitTags(input: string): { text: string; tags: string[] } {
   const tags: string[] = [];
