@@ -150,12 +150,13 @@ export interface ErrorsBlock {
 }
 
 /** RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean and max norm. */
-function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2):
-  { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; norms: number[] } {
+function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2, withNorms = false):
+  { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; norms?: Float64Array } {
   const d = err.length;
   let s = 0, s2 = 0, mx = 0, cnt = 0;
   const sa = new Array<number>(d).fill(0), ma = new Array<number>(d).fill(0);
-  const norms: number[] = [];
+  // Norms only on request (a typed array, not a growing list of boxed numbers): the orientation mean needs them.
+  const norms = withNorms ? new Float64Array(Math.max(0, i1 - i0)) : undefined;
   for (let k = i0; k < i1; k++) {
     let q = 0, qh = 0, ok = true;
     for (let c = 0; c < d; c++) {
@@ -165,24 +166,26 @@ function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2):
     }
     if (!ok) continue;
     for (let c = 0; c < d; c++) { sa[c] += err[c][k] * err[c][k]; ma[c] += err[c][k]; }
-    s += q; s2 += qh; cnt++;
     const nrm = Math.sqrt(q);
-    norms.push(nrm);
+    if (norms) norms[cnt] = nrm;
+    s += q; s2 += qh; cnt++;
     if (nrm > mx) mx = nrm;
   }
-  if (cnt === 0) return { count: 0, norms };
+  const used = norms?.subarray(0, cnt);
+  if (cnt === 0) return { count: 0, norms: used };
   return {
     count: cnt, rmse: Math.sqrt(s / cnt), rmse2d: Math.sqrt(s2 / cnt), max: mx,
-    rmsePerAxis: sa.map((v) => Math.sqrt(v / cnt)), meanPerAxis: ma.map((v) => v / cnt), norms,
+    rmsePerAxis: sa.map((v) => Math.sqrt(v / cnt)), meanPerAxis: ma.map((v) => v / cnt), norms: used,
   };
 }
 
 /** Error norm per epoch (NaN where a component is missing). */
 function normColumn(err: Float64Array[], length: number): Float64Array {
-  const out = new Float64Array(length).fill(NaN);
+  const out = new Float64Array(length);
+  const d = err.length;
   for (let k = 0; k < length; k++) {
     let q = 0;
-    for (const c of err) q += c[k] * c[k];
+    for (let c = 0; c < d; c++) q += err[c][k] * err[c][k];
     out[k] = Math.sqrt(q);
   }
   return out;
@@ -243,8 +246,8 @@ function windowedTest(
   const dof = b.neesErr.length;
   const z = b.neesErr.map((e, c) => {
     const s = (b.sigma as Float64Array[])[c];
-    const out = new Float64Array(track.length).fill(NaN);
-    if (!s) return out;
+    const out = new Float64Array(track.length);
+    if (!s) return out.fill(NaN);
     for (let k = 0; k < track.length; k++) out[k] = e[k] / s[k];
     return out;
   });
@@ -473,7 +476,7 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
 
   const norms = new Map<BlockName, Float64Array>();
   for (const b of track.blocks) {
-    const f = errorFigures(b.err, w0, w1);
+    const f = errorFigures(b.err, w0, w1, 2, b.name === 'orientation');
     norms.set(b.name, normColumn(b.err, track.length));
     const nees = neesFigures(track, b, segs, settings, findings, series);
     errorSeries(track, b, series);
@@ -488,7 +491,9 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
       block.velocity = { epochs: f.count, rmse: f.rmse, rmse2d: f.rmse2d, max: f.max, rmsePerAxis: f.rmsePerAxis, meanPerAxis: f.meanPerAxis, nees };
     } else {
       const ang = f.norms;
-      const meanDeg = ang.length ? (ang.reduce((s, v) => s + v, 0) / ang.length) * RAD2DEG : undefined;
+      let angSum = 0;
+      if (ang) for (let i = 0; i < ang.length; i++) angSum += ang[i];
+      const meanDeg = ang && ang.length ? (angSum / ang.length) * RAD2DEG : undefined;
       block.orientation = {
         epochs: f.count, rmseDeg: f.rmse !== undefined ? f.rmse * RAD2DEG : undefined,
         maxDeg: f.max !== undefined ? f.max * RAD2DEG : undefined, meanDeg,

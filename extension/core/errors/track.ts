@@ -13,7 +13,6 @@
  */
 import type { NavLog, StateStream } from '../model';
 import type { AnalysisSettings } from '../settings';
-import { quatNorm } from '../geometry/quat';
 import { mat3MulVec, mat3MultiplyTransposeA, mat3MultiplyTransposeB, matFromQuat, so3Log } from '../geometry/so3';
 import { se3Compose, se3Inverse, se3Log } from '../geometry/se3';
 import { se23Compose, se23Inverse, se23Log } from '../geometry/se23';
@@ -108,15 +107,20 @@ function positionsOf(
 function quatColumns(s: StateStream, prefix: string): Float64Array[] | undefined {
   const q = columnsOf(s.columns, prefix, ['q_w', 'q_x', 'q_y', 'q_z']);
   if (!allDefined(q)) return undefined;
-  const out = q.map((c) => new Float64Array(s.length));
-  const tmp = new Float64Array(4);
-  for (let k = 0; k < s.length; k++) {
-    for (let i = 0; i < 4; i++) tmp[i] = q[i][k];
-    const n = quatNorm(tmp);
-    const ok = Number.isFinite(n) && Math.abs(n - 1) <= 0.1;
-    for (let i = 0; i < 4; i++) out[i][k] = ok ? tmp[i] / n : NaN;
+  const n = s.length;
+  const [qw, qx, qy, qz] = q;
+  const ow = new Float64Array(n), ox = new Float64Array(n), oy = new Float64Array(n), oz = new Float64Array(n);
+  // Scalar locals instead of a scratch quaternion per epoch; Math.hypot as in quatNorm, so the values are the same.
+  for (let k = 0; k < n; k++) {
+    const w = qw[k], x = qx[k], y = qy[k], z = qz[k];
+    const nrm = Math.hypot(w, x, y, z);
+    if (Number.isFinite(nrm) && Math.abs(nrm - 1) <= 0.1) {
+      ow[k] = w / nrm; ox[k] = x / nrm; oy[k] = y / nrm; oz[k] = z / nrm;
+    } else {
+      ow[k] = NaN; ox[k] = NaN; oy[k] = NaN; oz[k] = NaN;
+    }
   }
-  return out;
+  return [ow, ox, oy, oz];
 }
 
 const scratchA = new Float64Array(9);
@@ -217,10 +221,12 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     br = bracketTimes(state.t_s, n, ref.t_s, ref.length, offset, valid, MAX_GAP_STEPS * step * (1 + 1e-9));
   } else {
     const left = new Int32Array(n), right = new Int32Array(n), fraction = new Float64Array(n), status = new Uint8Array(n);
+    const [c0, c1, c2] = refPos ? refPos.p : [];
+    const q0 = refPos ? undefined : refQ?.[0];
     for (let k = 0; k < n; k++) {
       let ok = true;
-      if (refPos) { for (const c of refPos.p) if (c && !Number.isFinite(c[k])) ok = false; }
-      else if (refQ) { if (!Number.isFinite(refQ[0][k])) ok = false; }
+      if (refPos) ok = (!c0 || Number.isFinite(c0[k])) && (!c1 || Number.isFinite(c1[k])) && (!c2 || Number.isFinite(c2[k]));
+      else if (q0) ok = Number.isFinite(q0[k]);
       left[k] = right[k] = ok ? k : -1;
       status[k] = ok ? ALIGN_OK : ALIGN_IN_GAP;
     }
