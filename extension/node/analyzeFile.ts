@@ -11,7 +11,7 @@ import type { Report } from '../core/report';
 import { resolveSettings, type AnalysisSettings } from '../core/settings';
 import { analyzeLog, type StageTimes } from '../core/analyze';
 import { readRun, type ByteSource } from '../core/read/index';
-import { fileByteSource, openRelative } from './fileSource';
+import { fileByteSource, openRelative, FileChangedError, type FileLayer } from './fileSource';
 import { notesForReport } from './notesReport';
 
 /** Options of one analysis of a file on disk. */
@@ -28,6 +28,8 @@ export interface AnalyzeFileOptions {
   onProgress?: (fraction: number) => void;
   /** Filled with per-stage elapsed milliseconds (read, analyse stages). */
   times?: StageTimes;
+  /** File layer for every read of the log, anchors and reference (default node:fs); tests inject faults here. */
+  files?: FileLayer;
   /** Notes to carry in the report; default: those of `<log>.notes.json`, anchored to the log (see notesReport.ts). */
   notes?: unknown[];
 }
@@ -75,37 +77,66 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
     if (file) assertReadableFile(file, what);
   }
 
+  const t0 = performance.now();
+  // The main log is read once more from the start when it changed under the reader (truncated, replaced or deleted);
+  // a second change, or any read error, stops the analysis with one plain line.
+  let attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map);
+  if (attempt.failure instanceof FileChangedError) {
+    const first = attempt.failure;
+    assertReadableFile(logPath, 'log');
+    attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map);
+    if (!attempt.failure) {
+      attempt.log.diagnostics.push({ severity: 'warning', kind: 'note', file: logPath, line: 0,
+        message: `${first.message}; it was read again from the start and this analysis is of the file as it was then.` });
+    }
+  }
+  if (attempt.failure) {
+    if (attempt.failure instanceof FileChangedError) throw new InputError(`log changed again while it was being read a second time: ${attempt.failure.message}`);
+    throw new InputError(`log cannot be read: ${attempt.failure.message}`);
+  }
+  const { log, hash } = attempt;
+  if (options.times) options.times.read = performance.now() - t0;
+  const sidecar = options.notes === undefined ? notesForReport(logPath, log) : undefined;
+  const { report, series } = analyzeLog(log, settings, { sha256: hash, notes: options.notes ?? sidecar?.notes }, options.times);
+  if (sidecar?.finding) report.findings.push(sidecar.finding);
+  return { report, series, log };
+}
+
+/** One read of the main log and its run: the log, the SHA-256 of the main log's bytes, and why the main log failed. */
+async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memoryBudgetBytes: number,
+  map: { text: string; name: string } | undefined): Promise<{ log: NavLog; hash: string; failure?: Error }> {
+  const files = options.files;
   const size = statSync(logPath).size;
   const hash = createHash('sha256');
-  const raw = fileByteSource(logPath);
+  const raw = fileByteSource(logPath, { files });
   let bytesRead = 0;
+  let failure: Error | undefined;
   const main: ByteSource = {
     name: logPath,
     size,
     async *chunks(signal?: AbortSignal) {
-      for await (const chunk of raw.chunks(signal)) {
-        hash.update(chunk);
-        bytesRead += chunk.byteLength;
-        options.onProgress?.(size > 0 ? bytesRead / size : 1);
-        yield chunk;
+      try {
+        for await (const chunk of raw.chunks(signal)) {
+          hash.update(chunk);
+          bytesRead += chunk.byteLength;
+          options.onProgress?.(size > 0 ? Math.min(1, bytesRead / size) : 1);
+          yield chunk;
+        }
+      } catch (e) {
+        failure = e instanceof Error ? e : new Error(String(e));
+        throw e;
       }
     },
   };
-
-  const t0 = performance.now();
   const log = await readRun(main, {
     map,
-    anchors: options.anchors ? fileByteSource(options.anchors) : undefined,
-    reference: options.reference ? fileByteSource(options.reference) : undefined,
+    anchors: options.anchors ? fileByteSource(options.anchors, { files }) : undefined,
+    reference: options.reference ? fileByteSource(options.reference, { files }) : undefined,
     open: (p: string, relativeTo: string) => openRelative(p, relativeTo),
     signal: options.signal,
-    memoryBudgetBytes: settings.memoryBudgetBytes,
+    memoryBudgetBytes,
   });
-  if (options.times) options.times.read = performance.now() - t0;
-  const sidecar = options.notes === undefined ? notesForReport(logPath, log) : undefined;
-  const { report, series } = analyzeLog(log, settings, { sha256: hash.digest('hex'), notes: options.notes ?? sidecar?.notes }, options.times);
-  if (sidecar?.finding) report.findings.push(sidecar.finding);
-  return { report, series, log };
+  return { log, hash: hash.digest('hex'), ...(failure ? { failure } : {}) };
 }
 
 /** Absolute, normalised form of a user-given path (for messages and the report). */

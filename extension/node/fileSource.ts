@@ -1,5 +1,5 @@
 /**
- * Files as ByteSources for the reader (CLI and extension host): node:fs read streams in 1 MiB chunks, and
+ * Files as ByteSources for the reader (CLI and extension host): positioned reads in 1 MiB chunks, and
  * `openRelative` for ReadOptions.open. The file is only ever read. Problems (missing file, a folder, a FIFO or
  * device, a read error) reject the source's `chunks()` with a message naming the path; the reader turns that into
  * a diagnostic. A FIFO is refused after `fs.stat`, before any open, so reading never blocks on one.
@@ -12,7 +12,7 @@ import type { AbortSignalLike, ByteSource } from '../core/read/index';
 export const CHUNK_BYTES = 1 << 20;
 
 /** Why a path cannot be read as a log, or undefined when it can (a regular file). */
-function refuse(p: string, st: fs.Stats): string | undefined {
+function refuse(p: string, st: FileStatLike): string | undefined {
   if (st.isDirectory()) return `${p} is a folder, not a file`;
   if (st.isFIFO()) return `${p} is a named pipe (FIFO); only regular files are read`;
   if (st.isSocket()) return `${p} is a socket; only regular files are read`;
@@ -29,14 +29,64 @@ function describeError(p: string, e: unknown): Error {
   return new Error(`${p} could not be read: ${e instanceof Error ? e.message : String(e)}`);
 }
 
+/** The part of `fs.Stats` the byte source looks at. */
+export interface FileStatLike {
+  size: number;
+  ino: number;
+  dev: number;
+  isFile(): boolean;
+  isDirectory(): boolean;
+  isFIFO(): boolean;
+  isSocket(): boolean;
+  isCharacterDevice(): boolean;
+  isBlockDevice(): boolean;
+}
+
+/** An open file as the byte source uses it (a subset of `fs.promises.FileHandle`). */
+export interface FileHandleLike {
+  read(buffer: Uint8Array, offset: number, length: number, position: number): Promise<{ bytesRead: number }>;
+  stat(): Promise<FileStatLike>;
+  close(): Promise<void>;
+}
+
 /**
- * A ByteSource over a file, read with a node:fs stream from byte `start` (default 0; used to resume a growing file
- * from `LogReader.bytesRead`) in chunks of `highWaterMark` bytes (default 1 MiB).
+ * The file operations of {@link fileByteSource}: node:fs by default ({@link NODE_FILES}). Tests inject faults through
+ * it (a read error, a file that vanishes or is truncated mid-read), since permissions do not stop root.
  */
-export function fileByteSource(filePath: string, opts: { start?: number; highWaterMark?: number } = {}): ByteSource {
+export interface FileLayer {
+  stat(p: string): Promise<FileStatLike>;
+  statSync(p: string): FileStatLike;
+  open(p: string): Promise<FileHandleLike>;
+}
+
+/** The real file layer (node:fs). */
+export const NODE_FILES: FileLayer = {
+  stat: (p) => fs.promises.stat(p),
+  statSync: (p) => fs.statSync(p),
+  open: (p) => fs.promises.open(p, 'r'),
+};
+
+/** The file changed under the reader (truncated, replaced or deleted): the caller may read it again from the start. */
+export class FileChangedError extends Error {
+  constructor(message: string, readonly how: 'truncated' | 'replaced' | 'deleted') {
+    super(message);
+    this.name = 'FileChangedError';
+  }
+}
+
+/**
+ * A ByteSource over a file, read from byte `start` (default 0; used to resume a growing file from
+ * `LogReader.bytesRead`) in chunks of `highWaterMark` bytes (default 1 MiB), through `files` (default node:fs).
+ * After every chunk and at the end, the path is looked up again: when the file was truncated below the bytes read,
+ * replaced by another file (a different inode) or deleted, `chunks()` rejects with a {@link FileChangedError}
+ * (`analyzeFile` then reads it again once). A file that grows while it is read is simply read further.
+ */
+export function fileByteSource(filePath: string, opts: { start?: number; highWaterMark?: number; files?: FileLayer } = {}): ByteSource {
+  const files = opts.files ?? NODE_FILES;
+  const hwm = opts.highWaterMark ?? CHUNK_BYTES;
   let size: number | undefined;
   try {
-    const st = fs.statSync(filePath);
+    const st = files.statSync(filePath);
     if (st.isFile()) size = Math.max(0, st.size - (opts.start ?? 0));
   } catch {
     size = undefined;
@@ -44,25 +94,64 @@ export function fileByteSource(filePath: string, opts: { start?: number; highWat
   const source: ByteSource = {
     name: filePath,
     async *chunks(signal?: AbortSignalLike): AsyncIterable<Uint8Array> {
-      let st: fs.Stats;
+      let st: FileStatLike;
       try {
-        st = await fs.promises.stat(filePath);
+        st = await files.stat(filePath);
       } catch (e) {
         throw describeError(filePath, e);
       }
       const why = refuse(filePath, st);
       if (why) throw new Error(why);
-      const stream = fs.createReadStream(filePath, { start: opts.start ?? 0, highWaterMark: opts.highWaterMark ?? CHUNK_BYTES });
+      let handle: FileHandleLike;
       try {
-        for await (const chunk of stream) {
-          if (signal?.aborted) break;
-          const b = chunk as Buffer;
-          yield new Uint8Array(b.buffer, b.byteOffset, b.byteLength);
-        }
+        handle = await files.open(filePath);
       } catch (e) {
         throw describeError(filePath, e);
+      }
+      try {
+        let opened: FileStatLike;
+        try {
+          opened = await handle.stat();
+        } catch (e) {
+          throw describeError(filePath, e);
+        }
+        let pos = opts.start ?? 0;
+        const changed = async (): Promise<FileChangedError | undefined> => {
+          let now: FileStatLike;
+          try {
+            now = await files.stat(filePath);
+          } catch (e) {
+            const code = (e as NodeJS.ErrnoException | undefined)?.code;
+            if (code === 'ENOENT' || code === 'ENOTDIR') return new FileChangedError(`${filePath} was deleted while it was being read`, 'deleted');
+            throw describeError(filePath, e);
+          }
+          if (now.ino !== opened.ino || now.dev !== opened.dev) {
+            return new FileChangedError(`${filePath} was replaced by another file while it was being read`, 'replaced');
+          }
+          if (now.size < pos) {
+            return new FileChangedError(`${filePath} was truncated while it was being read (it shrank to ${now.size} bytes after ${pos} had been read)`, 'truncated');
+          }
+          return undefined;
+        };
+        for (;;) {
+          if (signal?.aborted) return;
+          const buf = new Uint8Array(hwm);
+          let n: number;
+          try {
+            n = (await handle.read(buf, 0, hwm, pos)).bytesRead;
+          } catch (e) {
+            throw describeError(filePath, e);
+          }
+          if (n === 0) break;
+          pos += n;
+          yield n === hwm ? buf : buf.subarray(0, n);
+          const c = await changed();
+          if (c) throw c;
+        }
+        const c = await changed();
+        if (c) throw c;
       } finally {
-        stream.destroy();
+        await handle.close().catch(() => undefined);
       }
     },
   };
