@@ -159,8 +159,15 @@ export interface CodeGotoMessage {
   name: string;
 }
 
+/** Ask the host to export the analysis as an HTML report or a Markdown summary (it opens a save dialog). */
+export interface ReportExportMessage {
+  type: 'report/export';
+  format: 'html' | 'md';
+}
+
 /** Every message the webview may send. */
 export type WebviewToHostMessage =
+  | ReportExportMessage
   | ReadyMessage
   | SeriesRequestMessage
   | RevealLineMessage
@@ -410,6 +417,8 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
       return isShortString(value.id, 64) ? { type, id: value.id } : 'notes/delete: bad id';
     case 'code/goto':
       return isShortString(value.name) ? { type, name: value.name } : 'code/goto: bad name';
+    case 'report/export':
+      return value.format === 'html' || value.format === 'md' ? { type, format: value.format } : 'report/export: format is not html or md';
     default:
       return `unknown message type ${JSON.stringify(typeof type === 'string' ? type.slice(0, 64) : typeof type)}`;
   }

@@ -9,6 +9,7 @@
  * `<button data-line data-t>`; `data-testid="findings-list"`; `data-testid="overview"`;
  * `document.body.dataset.chartsRendered` once every chart got its first data.
  */
+import { exportButtons } from './export';
 import type { Finding } from '../extension/core/report';
 import {
   parseHostMessage,
@@ -178,6 +179,7 @@ function render(message: InitMessage): void {
     },
   );
   const header = el('header', {}, el('h1', {}, message.logName), el('p', { class: 'reloading', role: 'status' }));
+  header.append(exportButtons((format) => panelApi.post({ type: 'report/export', format })));
   if (message.notice) header.append(el('p', { class: 'notice', role: 'status' }, message.notice));
   app.replaceChildren(header, t.root);
 

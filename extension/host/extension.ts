@@ -12,6 +12,7 @@ import { PANEL_VIEW_TYPE } from './panel';
 import { NotesController } from './notes';
 import { PanelManager } from './panels';
 import { runSelfTestIfRequested } from './selfTest';
+import { registerExportCommands } from './exportCommands';
 
 /** What `activate` returns (for in-host tests and other extensions). */
 export interface ResiduumApi {
@@ -80,6 +81,7 @@ export function activate(context: vscode.ExtensionContext): ResiduumApi {
     ),
     vscode.workspace.onDidChangeConfiguration((e) => manager.reconfigure(e)),
     new NotesController(manager, output),
+    registerExportCommands(manager, output),
   );
 
   void runSelfTestIfRequested(context);

@@ -10,6 +10,7 @@ import * as path from 'node:path';
 import * as vscode from 'vscode';
 import type { Diagnostic as ReaderDiagnostic } from '../core/model';
 import type { Report, WorstEntry } from '../core/report';
+import type { Series } from '../core/series';
 import {
   assertNever,
   parseWebviewMessage,
@@ -111,6 +112,11 @@ export class AnalysisPanel {
   /** The latest report, once an analysis finished. */
   get report(): Report | undefined {
     return this.result?.report;
+  }
+
+  /** The latest series (for the report export), once an analysis finished. */
+  get series(): readonly Series[] | undefined {
+    return this.result?.series;
   }
 
   /** Reader diagnostics of the latest run. */
@@ -328,6 +334,9 @@ export class AnalysisPanel {
       case 'notes/delete':
       case 'code/goto':
         notesPanelHooks.onMessage?.(this, msg);
+        break;
+      case 'report/export':
+        void vscode.commands.executeCommand('residuum.exportReport', msg.format);
         break;
       default:
         assertNever(msg);
