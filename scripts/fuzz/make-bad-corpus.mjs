@@ -116,6 +116,8 @@ put('time-backwards.csv', [HEAD, row(0), row(2), row(1), row(1), row(3)].join('\
 put('decimal-comma.csv', ['t;p_x;p_y;p_z', '0,00;1,5;2,0;3,0', '0,01;1,6;2,0;3,0'].join('\n') + '\n');
 // an absurd component index in a name (a channel of 301 components from one column)
 put('huge-component-index.csv', ['t,p_x,nu_tdoa_300,s_tdoa_300_300', '0,1,0.1,0.01', '0.01,1.1,0.1,0.01'].join('\n') + '\n');
+// a component index beyond any array length (the fuzz found one behind a lone CR: the reader threw RangeError)
+put('component-index-overflow.csv', ['t,p_x,nu_tdoa_100000000000000000000', '0,1,0.1', '0.01,1.1,0.1'].join('\n') + '\n');
 // a mapping file and an anchors file that are wrong in several ways
 put('bad.map.json', '{"columns":{"p_x":{"role":"warp-drive"},"t":{"unit":"fortnights"}},"channels":{"tdoa":{"dof":-1}},"anchors":42,\n');
 put('bad-anchors.csv', 'id,x,y,z\n0,1,2,3\n1,one,2,3\n2,1,2\n0,4,5,6\n3,inf,0,0\n');

@@ -7,12 +7,15 @@
  */
 import { describe, expect, it } from 'vitest';
 import { readFileSync, readdirSync } from 'node:fs';
+import { spawnSync } from 'node:child_process';
+import { ensureBundle } from '../../scripts/bench/bundle.mjs';
 import { resolve } from 'node:path';
 import type { NavLog } from '../../extension/core/model';
 import { parseAnchorsText, parseMapping, readRun } from '../../extension/core/read/index';
 import { byteSource, diagnosticProblem, fingerprint, lineCount, logProblem } from '../../scripts/fuzz/properties';
 
 const DIR = resolve(__dirname, '../fixtures/bad');
+const ROOT = resolve(__dirname, '../..');
 const bytesOf = (name: string): Uint8Array => new Uint8Array(readFileSync(resolve(DIR, name)));
 
 async function read(name: string, bytes: Uint8Array = bytesOf(name), chunks: number[] = []): Promise<NavLog> {
@@ -24,7 +27,19 @@ const lines = (log: NavLog): number[] => log.diagnostics.map((d) => d.line);
 const col = (log: NavLog, name: string): number[] => Array.from(log.state.columns.get(name) ?? []).slice(0, log.state.length);
 const times = (log: NavLog): number[] => Array.from(log.state.t_s.subarray(0, log.state.length));
 
-const LOGS = readdirSync(DIR).filter((f) => /\.(csv|jsonl|json)$/.test(f) && !f.includes('anchors') && !f.endsWith('.map.json'));
+/** Inputs that have killed the reader's process (fatal V8 errors cannot be caught): read in a child process only. */
+const ISOLATED = ['huge-component-index.csv', 'component-index-overflow.csv'];
+const LOGS = readdirSync(DIR).filter((f) => /\.(csv|jsonl|json)$/.test(f) && !f.includes('anchors') && !f.endsWith('.map.json') && !ISOLATED.includes(f));
+
+/** What scripts/fuzz/read-one.ts prints. */
+interface Isolated { rows: number; state: number; channels: [string, number, number][]; pX: number[]; diagnostics: { line: number; severity: string; message: string }[] }
+
+/** Read a file in a child process (bundled on demand); the exit status and stderr say how it ended. */
+async function readIsolated(name: string): Promise<{ status: number | null; signal: string | null; stderr: string; out?: Isolated }> {
+  const bundle = await ensureBundle('scripts/fuzz/read-one.ts', 'bench-output/.tools/read-one.js', ['extension/core', 'scripts/fuzz']);
+  const r = spawnSync(process.execPath, [resolve(ROOT, bundle), resolve(DIR, name)], { cwd: ROOT, encoding: 'utf8', timeout: 50_000 });
+  return { status: r.status, signal: r.signal, stderr: (r.stderr ?? '').slice(0, 300), out: r.status === 0 ? JSON.parse(r.stdout) as Isolated : undefined };
+}
 
 describe('bad-log corpus: every file', () => {
   it('has the files the README lists', () => {
@@ -219,11 +234,19 @@ describe('bad-log corpus: what each file must give', () => {
     expect(log.diagnostics.some((d) => d.kind === 'time-backwards' && d.line === 4)).toBe(true);
   });
 
-  it('huge-component-index.csv: an absurd component index does not make a 301-component channel; line 1 says why', async () => {
-    const log = await read('huge-component-index.csv');
-    expect(log.channels.every((c) => c.dof <= 100)).toBe(true);
-    expect(log.diagnostics.some((d) => d.line === 1 && /300/.test(d.message))).toBe(true);
-    expect(col(log, 'p_x')).toEqual([1, 1.1]);
+  it('huge-component-index.csv (own process): an absurd component index does not make a 301-component channel; line 1 says why', async () => {
+    const r = await readIsolated('huge-component-index.csv');
+    expect({ status: r.status, signal: r.signal, stderr: r.stderr }).toEqual({ status: 0, signal: null, stderr: '' });
+    expect(r.out!.channels.every(([, dof]) => dof <= 100)).toBe(true);
+    expect(r.out!.diagnostics.some((d) => d.line === 1 && /300/.test(d.message))).toBe(true);
+    expect(r.out!.pX).toEqual([1, 1.1]);
+  });
+
+  it('component-index-overflow.csv (own process): an index beyond any array length neither kills nor throws; line 1 says why', async () => {
+    const r = await readIsolated('component-index-overflow.csv');
+    expect({ status: r.status, signal: r.signal, stderr: r.stderr }).toEqual({ status: 0, signal: null, stderr: '' });
+    expect(r.out!.diagnostics.some((d) => d.line === 1)).toBe(true);
+    expect(r.out!.pX).toEqual([1, 1.1]);
   });
 
   it('decimal-comma.csv: semicolon-separated decimal commas read as numbers, or each named', async () => {
