@@ -98,6 +98,8 @@ export class CsvFileReader {
     }
     if (!this.plan) {
       this.run.diagnostics.report('warning', 'parse-error', this.file, 0, 'The file has no header and no data rows.');
+    } else if (this.plan.rowIndex === 0) {
+      this.run.diagnostics.report('warning', 'parse-error', this.file, 0, 'The file has a header but no data rows.');
     }
   }
 
@@ -247,7 +249,9 @@ export class CsvFileReader {
       for (const c of cells) { charColumns.push(col); col += c.length + 1; }
     } else {
       let n = cells.length;
-      for (const key of Object.keys(spec?.columns ?? {})) if (/^\d+$/.test(key)) n = Math.max(n, Number(key));
+      // Columns named by position in the mapping may lie beyond the first row (at most 10,000: a larger position is
+      // reported by the plan as a column the file lacks).
+      for (const key of Object.keys(spec?.columns ?? {})) if (/^\d+$/.test(key) && Number(key) <= 10000) n = Math.max(n, Number(key));
       names = Array.from({ length: n }, (_, k) => `col_${k + 1}`);
     }
     this.plan = compilePlan({

@@ -90,6 +90,10 @@ export class JsonRecordSink {
         }
         v.forEach((x, k) => { if (k < axes.length) add(`${prefix}${name}_${axes[k]}`, x); });
       } else if (isJsonObject(v)) {
+        const keys = Object.keys(v);
+        if (axes.some((a) => !keys.includes(a))) {
+          this.diag('parse-error', line, column, `"${name}" as an object should give ${axes.join(', ')}; it gives ${keys.join(', ') || 'nothing'}.`, `${this.file}:obj:${name}`);
+        }
         for (const [ax, x] of Object.entries(v)) add(`${prefix}${name}_${ax}`, x);
       } else add(`${prefix}${name}`, v);
     };
@@ -129,6 +133,13 @@ export class JsonRecordSink {
         if (typeof ch !== 'string' || ch === '') {
           this.diag('parse-error', line, column, 'An update record needs "channel": "<name>"; skipped.');
           return;
+        }
+        const nuV = value.nu ?? value.innov;
+        const SV = value.S;
+        if (Array.isArray(nuV) && Array.isArray(SV)
+          && (SV.length !== nuV.length || SV.some((row) => Array.isArray(row) && row.length !== nuV.length))) {
+          this.diag('parse-error', line, column,
+            `The update of channel ${ch} has ${nuV.length} innovation component(s) but "S" is not ${nuV.length} x ${nuV.length}.`, `${this.file}:Sshape`);
         }
         for (const [k, v] of Object.entries(value)) {
           if (k === 'kind' || k === 'channel') continue;
@@ -489,7 +500,10 @@ export class JsonFileReader {
       this.records++;
       this.sink.record(r.value, this.capLine, this.capCol);
     } else if (this.capKey === 'meta') this.sink.meta(r.value, this.capLine);
-    else {
+    else if (this.capKey === 'records') {
+      this.run.diagnostics.report('error', 'parse-error', this.file, this.capLine,
+        '"records" should be an array of records [...]; it is not, so no records were read.', { column: this.capCol });
+    } else {
       this.run.diagnostics.report('info', 'unknown-column', this.file, this.capLine,
         `Top-level key "${this.capKey}" is not "meta" or "records"; it is ignored.`, { column: this.capCol, key: `once:${this.file}:top:${this.capKey}` });
     }

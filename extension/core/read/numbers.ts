@@ -147,7 +147,9 @@ function parseDecimalGeneral(b: Uint8Array, start: number, end: number, delim: n
   }
   let text = '';
   for (let p = s0; p < i; p++) text += String.fromCharCode(b[p]);
-  numValue[0] = Number(text);
+  const v = Number(text);
+  numValue[0] = v;
+  if (!Number.isFinite(v)) { numStatus = NUM_NONFINITE; return NUM_NONFINITE; } // overflow such as 1e309
   return NUM_OK;
 }
 
@@ -182,6 +184,10 @@ const DECIMAL = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
 export function parseNumberText(raw: string): number {
   const text = raw.trim();
   if (text === '') { numStatus = NUM_MISSING; return NaN; }
-  if (DECIMAL.test(text)) { numStatus = NUM_OK; return Number(text); }
+  if (DECIMAL.test(text)) {
+    const v = Number(text);
+    numStatus = Number.isFinite(v) ? NUM_OK : NUM_NONFINITE; // overflow such as 1e309
+    return v;
+  }
   return wordValue(text);
 }

@@ -336,6 +336,9 @@ function findColumn(key: string, normNames: string[]): number {
   return normNames.indexOf(normalizeName(key));
 }
 
+/** Largest number of components of one channel's innovation (the mapping schema's dof limit too). */
+export const MAX_COMPONENTS = 64;
+
 const QUAT = ['q_w', 'q_x', 'q_y', 'q_z'];
 const MAT = ['r_11', 'r_12', 'r_13', 'r_21', 'r_22', 'r_23', 'r_31', 'r_32', 'r_33'];
 const EULER = ['roll', 'pitch', 'yaw'];
@@ -420,6 +423,13 @@ export function compilePlan(input: PlanInput): RowPlan {
       continue;
     }
     if (role.kind === 'ignore') continue;
+    if ((role.kind === 'nu' && !(role.index < MAX_COMPONENTS)) || (role.kind === 's' && (!(role.i < MAX_COMPONENTS) || !(role.j < MAX_COMPONENTS)))) {
+      const index = role.kind === 'nu' ? role.index : Math.max(role.i, role.j);
+      diag.report('warning', 'unknown-column', file, input.headerLine,
+        `Column "${names[c]}" names innovation component ${Number.isFinite(index) ? index : 'beyond any size'}; a channel has at most ${MAX_COMPONENTS} components (0..${MAX_COMPONENTS - 1}), so the column is ignored.`,
+        { ...where(c), key: `once:${file}:bigindex:${names[c]}` });
+      continue;
+    }
     const key = roleKey(role);
     if (key !== undefined) {
       const prev = taken.get(key);

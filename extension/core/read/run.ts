@@ -123,6 +123,11 @@ export class FileIngest {
 
   /** Feed a chunk. */
   push(chunk: Uint8Array): void {
+    if (this.bytesRead === 0 && chunk.length >= 2 && ((chunk[0] === 0xff && chunk[1] === 0xfe) || (chunk[0] === 0xfe && chunk[1] === 0xff))) {
+      this.run.diagnostics.report('error', 'parse-error', this.name, 1,
+        'The file starts with a UTF-16 byte order mark: it is UTF-16 text, but logs are read as UTF-8 (save it as UTF-8).',
+        { column: 1 });
+    }
     this.bytesRead += chunk.length;
     if (this.reader) { this.reader.push(chunk); return; }
     this.head.append(chunk);

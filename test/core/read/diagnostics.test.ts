@@ -102,6 +102,31 @@ describe('reader diagnostics', () => {
     expect(pe[DIAGNOSTIC_CAP].message).toContain(`${500 - DIAGNOSTIC_CAP} more like this`);
   });
 
+  it('LF, CRLF and CR mixed in one file each end one line (any chunking)', async () => {
+    for (const chunkSize of [1, 3, 1 << 16]) {
+      const log = await readLogText('t,x\r\n0,1\n1,2\r2,3\r\n3,4\n', 'mixed.csv', { chunkSize });
+      expect(Array.from(log.state.line)).toEqual([2, 3, 4, 5]);
+      expect(Array.from(log.state.columns.get('p_x') ?? [])).toEqual([1, 2, 3, 4]);
+    }
+  });
+
+  it('an overflowing number (1e309) is a bad value; a header without rows and an over-large component index are named', async () => {
+    const over = await readLogText('t,p_x\n0,1e309\n', 'o.csv');
+    expect(kinds(over, 'bad-value')).toEqual([expect.objectContaining({ line: 2, column: 3 })]);
+    const empty = await readLogText('t,p_x\n', 'h.csv');
+    expect(empty.diagnostics[0].message).toContain('no data rows');
+    const big = await readLogText('t,p_x,nu_c_300\n0,1,2\n', 'big.csv');
+    expect(big.channels).toEqual([]);
+    expect(kinds(big, 'unknown-column')[0]).toMatchObject({ line: 1, column: 7 });
+  });
+
+  it('a UTF-16 file is named as such', async () => {
+    const { bytesSource, readRun } = await import('../../../extension/core/read/index');
+    const log = await readRun(bytesSource('u16.csv', new Uint8Array([0xff, 0xfe, 0x74, 0, 0x0a, 0])));
+    expect(log.diagnostics[0]).toMatchObject({ severity: 'error', line: 1 });
+    expect(log.diagnostics[0].message).toContain('UTF-16');
+  });
+
   it('a file read error is a diagnostic naming the file, not an exception', async () => {
     const { readRun } = await import('../../../extension/core/read/index');
     const failing = {
