@@ -23,6 +23,8 @@ let section: HTMLElement | undefined;
 let init: InitMessage | undefined;
 let currentView: () => ViewState = () => ({});
 let selectTime: (t: number) => void = () => undefined;
+/** A channel to show once its chart exists (the focus may arrive before the views are built). */
+let wantFocus: string | undefined;
 
 /** What a note is about, as the form offers it. */
 interface About {
@@ -194,9 +196,10 @@ function augmentFindings(host: HTMLElement, message: InitMessage): void {
 }
 
 function focusChannel(channel: string): void {
-  document.body.dataset.focusedChannel = channel;
   const target = document.querySelector<HTMLElement>(`section.chart[data-series="${CSS.escape(`nis/${channel}`)}"]`) ?? document.querySelector<HTMLElement>(`section.chart[data-series^="${CSS.escape(`innovation/${channel}`)}"]`);
   if (!target) return;
+  wantFocus = undefined;
+  document.body.dataset.focusedChannel = channel;
   const view = target.closest('vscode-panel-view');
   const root = view?.parentElement;
   if (view && root && /^view-\d+$/.test(view.id)) root.setAttribute('activeid', view.id.replace('view-', 'tab-'));
@@ -226,6 +229,8 @@ export const notesView = {
     host.append(section);
     renderList();
     panelApi.post({ type: 'notes/request' });
+    // The other views are built after the overview: try a pending channel focus once they are.
+    if (wantFocus) setTimeout(() => wantFocus && focusChannel(wantFocus), 0);
   },
 
   /** New notes from the host. */
@@ -234,7 +239,10 @@ export const notesView = {
     pending = msg.pending;
     problem = msg.message;
     renderList();
-    if (msg.focusChannel) focusChannel(msg.focusChannel);
+    if (msg.focusChannel) {
+      wantFocus = msg.focusChannel;
+      focusChannel(msg.focusChannel);
+    }
   },
 
   /** Times the time charts mark (every note's start, and the end of a range note). */

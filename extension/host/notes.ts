@@ -79,7 +79,8 @@ export function noteLabel(n: AnchoredNote): string {
 interface LogNotes {
   uri: vscode.Uri;
   store: NotesStore;
-  threads: vscode.CommentThread[];
+  /** Comment threads by note id. */
+  threads: Map<string, vscode.CommentThread>;
   watcher: vscode.FileSystemWatcher;
   index?: { stamp: string; log: AnchorLog | undefined };
   /** Why the sidecar cannot be read or written, when it cannot. */
@@ -146,7 +147,7 @@ export class NotesController implements vscode.Disposable {
     notesPanelHooks.onDisposed = undefined;
     for (const l of this.logs.values()) {
       l.watcher.dispose();
-      for (const t of l.threads) t.dispose();
+      for (const t of l.threads.values()) t.dispose();
     }
     this.logs.clear();
     for (const d of this.disposables.splice(0)) d.dispose();
@@ -180,14 +181,14 @@ export class NotesController implements vscode.Disposable {
     if (e) return e;
     const store = new NotesStore(notesPathFor(key));
     const watcher = vscode.workspace.createFileSystemWatcher(new vscode.RelativePattern(vscode.Uri.file(path.dirname(key)), `${globEscape(path.basename(key))}.notes.json`));
-    e = { uri, store, threads: [], watcher };
+    e = { uri, store, threads: new Map(), watcher };
     const entry = e;
     const onDisk = (): void => void this.onSidecarChanged(entry);
     watcher.onDidChange(onDisk);
     watcher.onDidCreate(onDisk);
     watcher.onDidDelete(onDisk);
     const problems = store.reload();
-    if (problems.length) e.message = `${problems[0].file}:${problems[0].line}${problems[0].column ? `:${problems[0].column}` : ''}: ${problems[0].message}`;
+    if (problems.length) this.tellProblem(e, `${problems[0].file}:${problems[0].line}${problems[0].column ? `:${problems[0].column}` : ''}: ${problems[0].message}`);
     this.logs.set(key, e);
     return e;
   }
@@ -201,9 +202,18 @@ export class NotesController implements vscode.Disposable {
     }
     if (text !== undefined && text === entry.store.lastText()) return; // our own write
     const problems = entry.store.reload();
-    entry.message = problems.length ? `${problems[0].file}:${problems[0].line}: ${problems[0].message}` : undefined;
+    if (problems.length) this.tellProblem(entry, `${problems[0].file}:${problems[0].line}${problems[0].column ? `:${problems[0].column}` : ''}: ${problems[0].message}`);
+    else entry.message = undefined;
     if (!problems.length && entry.store.pendingCount() > 0) this.save(entry, false);
     await this.refresh(entry);
+  }
+
+  /** A sidecar that cannot be read: say so once per distinct problem (the panel shows it until it is fixed). */
+  private tellProblem(entry: LogNotes, message: string): void {
+    const repeat = entry.message === message;
+    entry.message = message;
+    this.output.warn(`notes: ${message}`);
+    if (!repeat) void vscode.window.showWarningMessage(`Residuum: ${message}. New notes are kept in memory until the file can be read.`);
   }
 
   /** Apply one edit and save; returns whether the edit was taken (saved or kept pending). */
@@ -271,24 +281,42 @@ export class NotesController implements vscode.Disposable {
     if (e) void this.refresh(e);
   }
 
-  /** Re-draw the comment threads and tell the log's panels. */
-  private async refresh(entry: LogNotes): Promise<void> {
+  /**
+   * Re-draw the comment threads and tell the log's panels. A channel focus (from a CodeLens) goes with the answer to
+   * the panel's own `notes/request` (`asker`), or to a visible panel: a hidden panel's webview is re-created when it
+   * is shown and would lose it.
+   */
+  private async refresh(entry: LogNotes, asker?: AnalysisPanel): Promise<void> {
     const placed = await this.place(entry);
     const key = entry.uri.fsPath;
-    for (const t of entry.threads.splice(0)) t.dispose();
+    const keep = new Set<string>();
     for (const n of placed) {
       const line = !n.detached && n.line !== undefined && (n.file === undefined || path.resolve(n.file) === key) ? n.line : undefined;
       if (line === undefined && !n.detached) continue;
       const at = line !== undefined ? line - 1 : 0;
+      // Threads are updated in place (a thread re-created on every change would flicker and lose its state).
+      let thread = entry.threads.get(n.id);
+      if (thread && thread.range?.start.line !== at) {
+        thread.dispose();
+        thread = undefined;
+      }
       const comment = new NoteComment(key, n);
-      const thread = this.comments.createCommentThread(entry.uri, new vscode.Range(at, 0, at, 0), [comment]);
+      if (!thread) {
+        thread = this.comments.createCommentThread(entry.uri, new vscode.Range(at, 0, at, 0), [comment]);
+        thread.canReply = false;
+        thread.collapsibleState = entry.expand === n.id ? vscode.CommentThreadCollapsibleState.Expanded : vscode.CommentThreadCollapsibleState.Collapsed;
+        entry.threads.set(n.id, thread);
+        this.threadOf.set(thread, { key, id: n.id });
+      } else thread.comments = [comment];
       thread.label = n.detached ? `Detached note (t = ${n.t} s)` : `Residuum note${n.tags.length ? ` · ${n.tags.map((t) => `#${t}`).join(' ')}` : ''}`;
-      thread.canReply = false;
       thread.contextValue = n.status === 'resolved' ? 'residuum.note.resolved' : 'residuum.note.open';
       thread.state = n.status === 'resolved' ? vscode.CommentThreadState.Resolved : vscode.CommentThreadState.Unresolved;
-      thread.collapsibleState = entry.expand === n.id ? vscode.CommentThreadCollapsibleState.Expanded : vscode.CommentThreadCollapsibleState.Collapsed;
-      this.threadOf.set(thread, { key, id: n.id });
-      entry.threads.push(thread);
+      keep.add(n.id);
+    }
+    for (const [id, t] of entry.threads) {
+      if (keep.has(id)) continue;
+      t.dispose();
+      entry.threads.delete(id);
     }
     entry.expand = undefined;
     const message: NotesUpdateMessage = { type: 'notes/update', notes: placed.map(toInfo), pending: entry.store.pendingCount() };
@@ -296,7 +324,7 @@ export class NotesController implements vscode.Disposable {
     for (const p of this.panels) {
       if (p.uri.fsPath !== key || !this.readyPanels.has(p)) continue;
       const focus = this.pendingFocus.get(p.uri.toString());
-      if (focus) {
+      if (focus && (p === asker || p.panel.visible)) {
         message.focusChannel = focus;
         this.pendingFocus.delete(p.uri.toString());
       }
@@ -311,7 +339,7 @@ export class NotesController implements vscode.Disposable {
     switch (msg.type) {
       case 'notes/request':
         this.readyPanels.add(panel);
-        await this.refresh(entry);
+        await this.refresh(entry, panel);
         break;
       case 'notes/add': {
         if (msg.text.trim() === '' && msg.tags.length === 0) {
@@ -407,7 +435,7 @@ export class NotesController implements vscode.Disposable {
   }
 
   private findThread(c: NoteComment): vscode.CommentThread | undefined {
-    return this.logs.get(c.logKey)?.threads.find((t) => t.comments.includes(c));
+    return this.logs.get(c.logKey)?.threads.get(c.note.id);
   }
 
   private async onThread(thread: vscode.CommentThread, op: (id: string) => NoteOp): Promise<void> {
@@ -431,11 +459,13 @@ export class NotesController implements vscode.Disposable {
     if (typeof uriArg !== 'string' || typeof channel !== 'string') return;
     const uri = vscode.Uri.parse(uriArg, true);
     this.pendingFocus.set(uri.toString(), channel);
+    const before = this.manager.find(uri);
+    const alive = before !== undefined && before.panel.visible && this.readyPanels.has(before);
     const panel = this.manager.open(uri);
     await panel.loaded;
     this.panels.add(panel);
-    // A panel that already asked for its notes gets the focus now; a new one when it asks after its first init.
-    if (this.readyPanels.has(panel)) await this.refresh(this.entry(uri));
+    // A panel whose webview is alive gets the focus now; one being (re-)created when it asks for its notes.
+    if (alive) await this.refresh(this.entry(uri), panel);
   }
 }
 

@@ -144,7 +144,7 @@ describe('notes and code links in a real VS Code', () => {
     // Lenses are drawn for the lines in view: go to the logging call the log's "# source:" line names.
     const sourceLine = /^# source: .*:(\d+)$/m.exec(readFileSync(logPath, 'utf8').slice(0, 4096))?.[1];
     expect(sourceLine).toBeDefined();
-    await page.locator('.monaco-editor .view-lines').filter({ visible: true }).first().waitFor({ state: 'visible', timeout: 15_000 });
+    await page.locator('.tab.active').filter({ hasText: 'tdoa_update.cpp' }).first().waitFor({ state: 'visible', timeout: 15_000 });
     await page.keyboard.press('Control+G');
     await input.waitFor({ state: 'visible', timeout: 10_000 });
     await input.fill(`:${sourceLine}`);
