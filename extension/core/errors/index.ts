@@ -18,6 +18,7 @@ import {
 } from './relative';
 import { buildErrorTrack, type BlockName, type BlockTrack, type ErrorTrack } from './track';
 import { applyAlignmentTo, umeyama } from './umeyama';
+import { lazySeries } from '../lazySeries';
 
 export { analyzeMonteCarlo, monteCarloSeries, type MonteCarloBlock, type MonteCarloSeries } from './montecarlo';
 export { buildErrorTrack, type ErrorTrack } from './track';
@@ -312,12 +313,15 @@ function neesFigures(track: ErrorTrack, b: BlockTrack, segs: number[], settings:
   const { windows, alpha, correlationFactor } = windowedTest(track, b, segs, settings, findings);
   const inside = windows.filter((w) => w.mean >= w.bounds[0] && w.mean <= w.bounds[1]).length;
   const [lo, hi] = chi2Interval(settings.confidence, dof);
-  const { x, line } = windowColumns(track);
-  series.push({
+  const nees = b.nees;
+  const m = track.w1 - track.w0;
+  series.push(lazySeries({
     key: `nees/${b.name}`, group: 'errors', label: `${b.name} NEES (${dof} dof) with the per-epoch ${Math.round(settings.confidence * 100)}% band`,
-    unit: '1', x, y: b.nees.slice(track.w0, track.w1), line,
-    lo: new Float64Array(x.length).fill(lo), hi: new Float64Array(x.length).fill(hi),
-  });
+    unit: '1',
+  }, {
+    x: () => windowColumns(track).x, y: () => nees.slice(track.w0, track.w1), line: () => windowColumns(track).line,
+    lo: () => new Float64Array(m).fill(lo), hi: () => new Float64Array(m).fill(hi),
+  }));
   if (windows.length > 0) {
     series.push({
       key: `nees/${b.name}/window`, group: 'errors', label: `${b.name} NEES window averages with their ${Math.round(settings.confidence * 100)}% bounds (effective sample size)`,
@@ -345,16 +349,15 @@ function errorSeries(track: ErrorTrack, b: BlockTrack, series: Series[]): void {
   const { w0, w1 } = track;
   const scale = b.name === 'orientation' ? RAD2DEG : 1;
   const unit = b.name === 'position' ? 'm' : b.name === 'velocity' ? 'm/s' : 'deg';
-  const { x, line } = windowColumns(track);
   b.err.forEach((e, c) => {
-    const y = scaledSlice(e, w0, w1, scale);
-    const s: Series = { key: `error/${b.name}/${AXES[c]}`, group: 'errors', label: `${b.name} error ${AXES[c]} (true minus estimate) with +-3 sigma`, unit, x, y, line };
     const sig = b.sigma?.[c];
-    if (sig) {
-      s.lo = scaledSlice(sig, w0, w1, -3 * scale);
-      s.hi = scaledSlice(sig, w0, w1, 3 * scale);
-    }
-    series.push(s);
+    series.push(lazySeries(
+      { key: `error/${b.name}/${AXES[c]}`, group: 'errors', label: `${b.name} error ${AXES[c]} (true minus estimate) with +-3 sigma`, unit },
+      {
+        x: () => windowColumns(track).x, y: () => scaledSlice(e, w0, w1, scale), line: () => windowColumns(track).line,
+        ...(sig ? { lo: () => scaledSlice(sig, w0, w1, -3 * scale), hi: () => scaledSlice(sig, w0, w1, 3 * scale) } : {}),
+      },
+    ));
   });
 }
 
@@ -416,10 +419,9 @@ function trajectorySeries(track: ErrorTrack, series: Series[]): void {
   const [ie, in_] = track.frame === 'NED' ? [1, 0] : [0, 1];
   const { w0, w1 } = track;
   const label = 'from above, x = east (m), y = north (m); points in time order, so x is NOT ascending';
-  series.push({
-    key: 'trajectory/estimate', group: 'trajectory', label: `estimate ${label}`, unit: 'm',
-    x: track.estP[ie].slice(w0, w1), y: track.estP[in_].slice(w0, w1), line: windowColumns(track).line,
-  });
+  series.push(lazySeries({ key: 'trajectory/estimate', group: 'trajectory', label: `estimate ${label}`, unit: 'm' }, {
+    x: () => track.estP[ie].slice(w0, w1), y: () => track.estP[in_].slice(w0, w1), line: () => windowColumns(track).line,
+  }));
   if (track.refOwn) {
     const r = track.refOwn;
     let r0 = 0, r1 = r.t_s.length;
@@ -428,7 +430,9 @@ function trajectorySeries(track: ErrorTrack, series: Series[]): void {
     while (r1 > r0 && r.t_s[r1 - 1] > t1) r1--;
     series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: r.p[ie].slice(r0, r1), y: r.p[in_].slice(r0, r1), line: r.line.slice(r0, r1) });
   } else {
-    series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: track.refP[ie].slice(w0, w1), y: track.refP[in_].slice(w0, w1), line: windowColumns(track).line });
+    series.push(lazySeries({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm' }, {
+      x: () => track.refP[ie].slice(w0, w1), y: () => track.refP[in_].slice(w0, w1), line: () => windowColumns(track).line,
+    }));
   }
 }
 
@@ -505,12 +509,14 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     const s = neesSummary(track.joint.nees, track.joint.dof, settings.confidence, w0, w1);
     if (s.count > 0) {
       block.joint = { ...s, states: track.joint.states };
-      const { x, line } = windowColumns(track);
-      series.push({
-        key: 'nees/joint', group: 'errors', label: `joint NEES (${track.joint.dof} dof: ${track.joint.states.join(' ')})`,
-        unit: '1', x, y: track.joint.nees.slice(w0, w1), line,
-        lo: new Float64Array(x.length).fill(s.bounds95[0]), hi: new Float64Array(x.length).fill(s.bounds95[1]),
-      });
+      const jointNees = track.joint.nees;
+      const [lo, hi] = s.bounds95;
+      series.push(lazySeries({
+        key: 'nees/joint', group: 'errors', label: `joint NEES (${track.joint.dof} dof: ${track.joint.states.join(' ')})`, unit: '1',
+      }, {
+        x: () => windowColumns(track).x, y: () => jointNees.slice(w0, w1), line: () => windowColumns(track).line,
+        lo: () => new Float64Array(w1 - w0).fill(lo), hi: () => new Float64Array(w1 - w0).fill(hi),
+      }));
     }
   }
 
