@@ -1,0 +1,75 @@
+/**
+ * Following a growing log (extension/node/tail.ts): appended rows are read on the next poll; a log truncated below
+ * what was read, or replaced by another file renamed over it, is read again from the start and a note says so; a
+ * deleted log is a plain error naming it. Real files; the rows carry x = k * i so two versions are told apart.
+ */
+import { describe, expect, it } from 'vitest';
+import { appendFileSync, mkdtempSync, renameSync, unlinkSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import * as path from 'node:path';
+import { FileTail } from '../../extension/node/tail';
+
+const dir = mkdtempSync(path.join(tmpdir(), 'residuum-tail-'));
+
+function rows(from: number, to: number, k: number): string {
+  const out: string[] = [];
+  for (let i = from; i < to; i++) out.push(`${(i * 0.1).toFixed(1)},${k * i}\n`);
+  return out.join('');
+}
+const px = (log: { state: { columns: Map<string, Float64Array>; length: number } }): number[] =>
+  Array.from(log.state.columns.get('p_x') ?? []).slice(0, log.state.length);
+
+describe('FileTail', () => {
+  it('reads appended rows on each poll, without a note', async () => {
+    const p = path.join(dir, 'grow.csv');
+    writeFileSync(p, 't,p_x\n' + rows(0, 3, 1));
+    const tail = new FileTail(p);
+    expect(px((await tail.poll()).log)).toEqual([0, 1, 2]);
+    appendFileSync(p, rows(3, 5, 1));
+    const r = await tail.poll();
+    expect(r.restarted).toBeUndefined();
+    expect(px(r.log)).toEqual([0, 1, 2, 3, 4]);
+    expect(r.log.diagnostics.some((d) => /being followed/.test(d.message))).toBe(false);
+  });
+
+  it('a truncated log is read again from the start, and a note says so', async () => {
+    const p = path.join(dir, 'trunc.csv');
+    writeFileSync(p, 't,p_x\n' + rows(0, 50, 1));
+    const tail = new FileTail(p);
+    expect((await tail.poll()).log.state.length).toBe(50);
+    writeFileSync(p, 't,p_x\n' + rows(0, 2, 7)); // same inode, shorter
+    const r = await tail.poll();
+    expect(r.restarted).toBe('truncated');
+    expect(px(r.log)).toEqual([0, 7]);
+    expect(r.log.diagnostics.find((d) => /truncated while it was being followed/.test(d.message))?.message)
+      .toMatch(/it was read again from the start/);
+    // The note stays with the run on later polls.
+    appendFileSync(p, rows(2, 3, 7));
+    const later = await tail.poll();
+    expect(later.restarted).toBeUndefined();
+    expect(px(later.log)).toEqual([0, 7, 14]);
+    expect(later.log.diagnostics.some((d) => /truncated while it was being followed/.test(d.message))).toBe(true);
+  });
+
+  it('a log replaced by a longer new file (rename over it) is noticed by its inode and read again', async () => {
+    const p = path.join(dir, 'replace.csv');
+    writeFileSync(p, 't,p_x\n' + rows(0, 3, 1));
+    const tail = new FileTail(p);
+    await tail.poll();
+    writeFileSync(`${p}.new`, 't,p_x\n' + rows(0, 10, 5));
+    renameSync(`${p}.new`, p);
+    const r = await tail.poll();
+    expect(r.restarted).toBe('replaced');
+    expect(px(r.log)).toEqual(Array.from({ length: 10 }, (_, i) => 5 * i));
+    expect(r.log.diagnostics.some((d) => /replaced by another file while it was being followed/.test(d.message))).toBe(true);
+  });
+
+  it('a deleted log is a plain error naming it', async () => {
+    const p = path.join(dir, 'gone.csv');
+    writeFileSync(p, 't,p_x\n' + rows(0, 3, 1));
+    const tail = new FileTail(p);
+    await tail.poll();
+    unlinkSync(p);
+    await expect(tail.poll()).rejects.toThrow(/gone\.csv cannot be read: ENOENT/);
+  });
+});
