@@ -87,21 +87,22 @@ function extent(values: Iterable<number>, into: [number, number]): void {
   }
 }
 
-/** Number of drawn curves in a chart (for tests and the caller's "no data" decision). */
-export function drawablePoints(spec: ChartSpec): number {
-  let n = 0;
-  for (const l of spec.lines) for (let i = 0; i < Math.min(l.x.length, l.y.length); i++) if (Number.isFinite(l.x[i]) && Number.isFinite(l.y[i] ?? NaN)) n++;
-  return n;
+/** Reduce a band to about MAX_POINTS points; where buckets form, each point carries its bucket's lowest `lo` and highest `hi`. */
+function reduceBand(b: ChartBand): { x: Float64Array; lo: Float64Array; hi: Float64Array } {
+  const n = Math.min(b.x.length, b.lo.length, b.hi.length);
+  const x = Float64Array.from({ length: n }, (_, i) => b.x[i]);
+  const lo = Float64Array.from({ length: n }, (_, i) => b.lo[i]);
+  const hi = Float64Array.from({ length: n }, (_, i) => b.hi[i]);
+  if (n <= MAX_POINTS || !isAscending(x)) return { x, lo, hi };
+  const mid = Float64Array.from({ length: n }, (_, i) => (lo[i] + hi[i]) / 2);
+  const e = envelope({ x, y: mid, lo, hi }, x[0], x[n - 1], MAX_POINTS / 2);
+  return { x: e.x, lo: e.lo ?? lo, hi: e.hi ?? hi };
 }
 
 /** An SVG chart (a string of markup) of the spec; `width` x `height` user units. */
 export function svgChart(spec: ChartSpec, width = 760, height = 260): string {
   const lines = spec.lines.map((l) => ({ ...l, ...reduce(l.x, l.y) }));
-  const band = spec.band ? (() => {
-    const lo = reduce(spec.band.x, Array.from(spec.band.lo));
-    const hi = reduce(spec.band.x, Array.from(spec.band.hi));
-    return lo.x.length === hi.x.length ? { x: lo.x, lo: lo.y, hi: hi.y } : undefined;
-  })() : undefined;
+  const band = spec.band ? reduceBand(spec.band) : undefined;
   const xr: [number, number] = [Infinity, -Infinity];
   const yr: [number, number] = [Infinity, -Infinity];
   for (const l of lines) {
