@@ -12,6 +12,7 @@ import { parseVerbArgs, numberOption, UsageError } from './args';
 import { formatSummary } from './summary';
 import { runCheck, CHECK_OPTIONS } from './check';
 import { runCompare, COMPARE_OPTIONS } from './compare';
+import { runMonteCarlo } from './monteCarlo';
 import { writeReportExports, assertAnalysable } from './export';
 import { WriteError } from '../node/writeAtomic';
 import type { StageTimes } from '../core/analyze';
@@ -22,6 +23,7 @@ const USAGE = `usage:
   residuum check LOG [options] [--gate FILE] [--max-outliers N] [--min-inside95 X] [--max-rmse M] [--max-settle-time S]
                  [--baseline REPORT --tolerance P] [--json] [--out F] [--html F] [--md F]
   residuum compare LOG_A LOG_B [LOG_C ...] [options] [--align time|start] [--align-event KIND] [--json] [--out F] [--html F] [--md F]
+  residuum montecarlo LOG_1 LOG_2 [...] | FOLDER [options] [--json] [--per-epoch]
 options: --anchors F  --map F  --reference F  --confidence C  --gate-prob P  --window S
          --imu-preset consumer|industrial|tactical  --time-offset S  --memory-budget MIB (default 4096)
 exit: 0 ok; 1 a check threshold failed; 2 unreadable input, bad argument, or check without threshold`;
@@ -103,6 +105,14 @@ export async function main(argv: string[]): Promise<number> {
         }
         return await runCompare(values, positionals, analysisOptions(values));
       }
+      case 'montecarlo': {
+        const { values, positionals } = parseVerbArgs(rest, { 'per-epoch': { type: 'boolean' } });
+        if (values.help) {
+          process.stdout.write(USAGE + '\n');
+          return 0;
+        }
+        return await runMonteCarlo(values, positionals, analysisOptions(values));
+      }
       case undefined:
       case '--help':
       case '-h':
@@ -113,7 +123,7 @@ export async function main(argv: string[]): Promise<number> {
         process.stdout.write('0.1.0\n');
         return 0;
       default:
-        throw new UsageError(`unknown command '${verb}' (expected analyze, check or compare)`);
+        throw new UsageError(`unknown command '${verb}' (expected analyze, check, compare or montecarlo)`);
     }
   } catch (e) {
     if (e instanceof UsageError || e instanceof InputError || e instanceof WriteError) {
