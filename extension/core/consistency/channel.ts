@@ -22,6 +22,7 @@ import { whiteness } from './whiteness';
 import { nisHistogram, nisKsTest } from './histogram';
 import { covarianceHealth } from './covariance';
 import { formatNumber, formatPercent } from './format';
+import { lazySeries } from '../lazySeries';
 
 /** Outlier findings listed per channel; beyond it they are counted in the last one's message. */
 export const MAX_OUTLIER_FINDINGS = 500;
@@ -168,9 +169,12 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
     }
   }
 
-  // One copy of the time and line columns, shared by this channel's per-update series (never the log's own arrays).
-  const xAll = t.slice(0, n);
-  const lineAll = lineCol.slice(0, n);
+  // One copy of the time and line columns, shared by this channel's per-update series (never the log's own arrays),
+  // made when a series is first read (lazySeries.ts).
+  let shared: { x: Float64Array; line: Float64Array } | undefined;
+  const sharedColumns = (): { x: Float64Array; line: Float64Array } => (shared ??= { x: t.slice(0, n), line: lineCol.slice(0, n) });
+  const xAll = (): Float64Array => sharedColumns().x;
+  const lineAll = (): Float64Array => sharedColumns().line;
 
   // NIS series with the per-update band.
   series.push(...nisSeries(channel, nis, rejected, settings.confidence, xAll, lineAll));
@@ -330,23 +334,26 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
 
 /** `nis/<ch>` (rejected updates NaN) with the per-update band, and `nisRejected/<ch>` when any were rejected. */
 function nisSeries(
-  channel: Channel, nis: Float64Array, rejected: number, confidence: number, x: Float64Array, line: Float64Array,
+  channel: Channel, nis: Float64Array, rejected: number, confidence: number, x: () => Float64Array, line: () => Float64Array,
 ): Series[] {
   const { name, dof, length: n } = channel;
   const rej = channel.rejected;
   const band = chi2Interval(confidence, dof);
-  const y = new Float64Array(n);
-  for (let i = 0; i < n; i++) y[i] = rej[i] ? NaN : nis[i];
-  const out: Series[] = [{
-    key: `nis/${name}`, group: 'innovations', label: `${name} NIS`, unit: '1',
-    x, y, line, lo: new Float64Array(n).fill(band[0]), hi: new Float64Array(n).fill(band[1]),
-  }];
+  const out: Series[] = [lazySeries({ key: `nis/${name}`, group: 'innovations', label: `${name} NIS`, unit: '1' }, {
+    x, y: () => {
+      const y = new Float64Array(n);
+      for (let i = 0; i < n; i++) y[i] = rej[i] ? NaN : nis[i];
+      return y;
+    },
+    line, lo: () => new Float64Array(n).fill(band[0]), hi: () => new Float64Array(n).fill(band[1]),
+  })];
   if (rejected > 0) {
     const xr = new Float64Array(rejected);
     const yr = new Float64Array(rejected);
     const lr = new Float64Array(rejected);
+    const xAll = x(), lineAll = line();
     let q = 0;
-    for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = x[i]; yr[q] = nis[i]; lr[q] = line[i]; q++; }
+    for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = xAll[i]; yr[q] = nis[i]; lr[q] = lineAll[i]; q++; }
     out.push({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1', x: xr, y: yr, line: lr });
   }
   return out;
@@ -354,30 +361,35 @@ function nisSeries(
 
 /** `innovation/<ch>/<c>` (rejected updates NaN) with the band +-z sqrt(S_cc) when S is logged. */
 function innovationSeries(
-  channel: Channel, nu: Float64Array, c: number, z: number, x: Float64Array, line: Float64Array,
+  channel: Channel, nu: Float64Array, c: number, z: number, x: () => Float64Array, line: () => Float64Array,
 ): Series {
   const { name, dof, length: n, S } = channel;
   const rej = channel.rejected;
   const dd = dof * dof;
-  const y = new Float64Array(n);
-  for (let i = 0, o = c; i < n; i++, o += dof) y[i] = rej[i] ? NaN : nu[o];
-  const s: Series = {
-    key: `innovation/${name}/${c}`, group: 'innovations', label: `${name} innovation ${c}`,
-    unit: channel.angleComponents[c] ? 'rad' : '', x, y, line,
+  const y = (): Float64Array => {
+    const out = new Float64Array(n);
+    for (let i = 0, o = c; i < n; i++, o += dof) out[i] = rej[i] ? NaN : nu[o];
+    return out;
   };
-  if (S !== undefined && S.length >= n * dd) {
+  // The band +-z sqrt(S_cc): made once for lo and hi together, whichever is read first.
+  let band: { lo: Float64Array; hi: Float64Array } | undefined;
+  const makeBand = (cov: Float64Array): { lo: Float64Array; hi: Float64Array } => {
+    if (band) return band;
     const lo = new Float64Array(n);
     const hi = new Float64Array(n);
     for (let i = 0, o = c * dof + c; i < n; i++, o += dd) {
-      const v = S[o];
+      const v = cov[o];
       const half = v >= 0 ? z * Math.sqrt(v) : NaN;
       lo[i] = -half;
       hi[i] = half;
     }
-    s.lo = lo;
-    s.hi = hi;
-  }
-  return s;
+    return (band = { lo, hi });
+  };
+  const cov = S !== undefined && S.length >= n * dd ? S : undefined;
+  return lazySeries({
+    key: `innovation/${name}/${c}`, group: 'innovations', label: `${name} innovation ${c}`,
+    unit: channel.angleComponents[c] ? 'rad' : '',
+  }, { x, y, line, ...(cov ? { lo: () => makeBand(cov).lo, hi: () => makeBand(cov).hi } : {}) });
 }
 
 /** What one pass over the NIS values gathers (accepted updates with a finite NIS, compacted). */
