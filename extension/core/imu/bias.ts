@@ -33,6 +33,7 @@ import { cusumThresholdForArl, detectChanges } from './cusum';
 import { BIAS_INSTABILITY_FACTOR } from './noiseFigures';
 import type { ResolvedSpec } from './presets';
 import { fromSI } from './units';
+import { lazySeries } from '../lazySeries';
 
 /** Which bias. */
 export type BiasSensor = 'gyro' | 'accel';
@@ -265,13 +266,19 @@ function analyzeAxis(
     xs = new Float64Array(count); ys = new Float64Array(count); ls = new Float64Array(count);
     for (let j = 0; j < count; j++) { xs[j] = t[idx[j]]; ys[j] = col[idx[j]]; ls[j] = state.line[idx[j]]; }
   }
-  const s: Series = { key: `bias/${sensor}/${AXES[axis]}`, group: 'bias', label: `${sensor} bias ${AXES[axis]}`, unit: UNIT[sensor], x: xs, y: ys, line: ls };
-  if (sigmaCol) {
+  // the +-3 sigma band is made when the series is first read (lazySeries.ts), lo and hi together
+  let band: { lo: Float64Array; hi: Float64Array } | undefined;
+  const makeBand = (sig: Float64Array): { lo: Float64Array; hi: Float64Array } => {
+    if (band) return band;
     const lo = new Float64Array(idx.length);
     const hi = new Float64Array(idx.length);
-    for (let j = 0; j < idx.length; j++) { const sg = sigmaCol[idx[j]]; lo[j] = ys[j] - 3 * sg; hi[j] = ys[j] + 3 * sg; }
-    s.lo = lo; s.hi = hi;
-  }
+    for (let j = 0; j < idx.length; j++) { const sg = sig[idx[j]]; lo[j] = ys[j] - 3 * sg; hi[j] = ys[j] + 3 * sg; }
+    return (band = { lo, hi });
+  };
+  const s: Series = lazySeries(
+    { key: `bias/${sensor}/${AXES[axis]}`, group: 'bias', label: `${sensor} bias ${AXES[axis]}`, unit: UNIT[sensor], x: xs, y: ys, line: ls },
+    sigmaCol ? { lo: () => makeBand(sigmaCol).lo, hi: () => makeBand(sigmaCol).hi } : {},
+  );
   const series: Series[] = [s];
 
   // increments (non-zero: epochs with a bias correction); pos[j] = position in idx of the increment's end sample
