@@ -64,6 +64,21 @@ export function formatSummary(r: Report): string {
   const counts = new Map<string, number>();
   for (const f of r.findings) counts.set(f.kind, (counts.get(f.kind) ?? 0) + 1);
   out.push(`Findings: ${r.findings.length}${counts.size ? ' (' + [...counts].map(([k, n]) => `${k} ${n}`).join(', ') + ')' : ''}`);
+  const notes = r.notes.filter((n): n is Record<string, unknown> => typeof n === 'object' && n !== null);
+  if (notes.length > 0) {
+    out.push('\nNotes');
+    out.push(
+      table(
+        ['t [s]', 'line', 'status', 'note'],
+        notes.map((n) => [
+          fmt(n.t) + (typeof n.tEnd === 'number' ? ` .. ${fmt(n.tEnd)}` : ''),
+          n.detached === true ? 'detached' : typeof n.line === 'number' ? String(n.line) : '-',
+          typeof n.status === 'string' ? n.status : '',
+          `${typeof n.text === 'string' ? n.text.replace(/\s+/g, ' ') : ''}${Array.isArray(n.tags) && n.tags.length ? ' [' + n.tags.join(', ') + ']' : ''}`,
+        ]),
+      ),
+    );
+  }
   if (r.worst.length > 0) {
     out.push('\nWorst updates (smallest chi-square tail probability)');
     out.push(
