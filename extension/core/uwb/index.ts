@@ -254,7 +254,19 @@ export function analyzeUwb(
   const linkRejected = new Int32Array(nL);
   const linkNisMean = new Float64Array(nL).fill(NaN);
   const linkInnov: ValueSummary[] = [];
-  const anchorNu: number[][] = Array.from({ length: nA }, () => []);
+  // innovations per anchor (sign as seen from that anchor) in typed arrays sized by a counting pass, in update order
+  const anchorNuCount = new Int32Array(nA);
+  for (let L = 0; L < nL; L++) {
+    const a = links.a[L];
+    const b = links.b[L];
+    for (const k of updByLink[L]) {
+      if (upd.rejected[k] || !Number.isFinite(upd.nu[k])) continue;
+      anchorNuCount[a]++;
+      if (b >= 0) anchorNuCount[b]++;
+    }
+  }
+  const anchorNu: Float64Array[] = Array.from({ length: nA }, (_, i) => new Float64Array(anchorNuCount[i]));
+  const anchorNuLength = new Int32Array(nA);
   const anchorNisSum = new Float64Array(nA);
   const anchorNisCount = new Int32Array(nA);
   const anchorUpdates = new Int32Array(nA);
@@ -265,7 +277,8 @@ export function analyzeUwb(
   for (let L = 0; L < nL; L++) {
     const a = links.a[L];
     const b = links.b[L];
-    const nus: number[] = [];
+    const nus = new Float64Array(updByLink[L].length);
+    let nusLength = 0;
     let nisSum = 0;
     let nisCount = 0;
     for (const k of updByLink[L]) {
@@ -281,11 +294,11 @@ export function analyzeUwb(
       }
       const nu = upd.nu[k];
       if (Number.isFinite(nu)) {
-        nus.push(nu);
+        nus[nusLength++] = nu;
         if (b >= 0) {
-          anchorNu[b].push(nu);
-          anchorNu[a].push(-nu);
-        } else anchorNu[a].push(nu);
+          anchorNu[b][anchorNuLength[b]++] = nu;
+          anchorNu[a][anchorNuLength[a]++] = -nu;
+        } else anchorNu[a][anchorNuLength[a]++] = nu;
       }
       const nis = upd.nis[k];
       if (Number.isFinite(nis)) {
@@ -307,7 +320,7 @@ export function analyzeUwb(
       }
     }
     if (nisCount > 0) linkNisMean[L] = nisSum / nisCount;
-    linkInnov.push(summarizeValues(nus));
+    linkInnov.push(summarizeValues(nus.subarray(0, nusLength)));
   }
 
   // ---- 2. Residuals of raw records against truth and estimate ----
