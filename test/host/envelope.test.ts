@@ -1,19 +1,13 @@
 // Checks of the min/max envelope (extension/core/envelope.ts) against a brute-force scan of the same data.
 // The rule itself (one min and one max per pixel column, so spikes survive) is common practice, as in uPlot's
 // src/paths/linear.js decimation; the expected values below are computed by hand or by the plain scan.
+import { mulberry32 } from '../helpers/mulberry32';
 import { describe, expect, it } from 'vitest';
 import { envelope, isAscending, lowerBound, stride, upperBound } from '../../extension/core/envelope';
 
 /** Seeded PRNG (mulberry32) so every failure can be replayed. */
 function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  return mulberry32(seed);
 }
 
 describe('binary search', () => {

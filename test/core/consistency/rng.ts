@@ -2,6 +2,7 @@
  * Seeded pseudo-random numbers for the tests, so every failure can be replayed.
  * mulberry32 (a public-domain 32-bit generator, common practice) and Box-Muller normals.
  */
+import { mulberry32 } from '../../helpers/mulberry32';
 
 /** A seeded generator of uniforms in [0, 1) and standard normals. */
 export interface Rng {
@@ -11,15 +12,8 @@ export interface Rng {
 
 /** Make a seeded generator. */
 export function makeRng(seed: number): Rng {
-  let a = seed >>> 0;
   let spare = NaN;
-  const uniform = (): number => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const uniform = mulberry32(seed);
   const normal = (): number => {
     if (!Number.isNaN(spare)) { const s = spare; spare = NaN; return s; }
     let u = 0;

@@ -1,16 +1,10 @@
 /** Test helpers for geometry: seeded PRNG and tolerant comparisons (gl-matrix's absolute-then-relative rule). */
+import { mulberry32 } from '../../helpers/mulberry32';
 import { expect } from 'vitest';
 
 /** Seeded PRNG (mulberry32) so every failure can be replayed. */
 export function seededRandom(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  return mulberry32(seed);
 }
 
 /** Standard normal draws from a uniform source (Box-Muller). */

@@ -2,17 +2,11 @@
  * Seeded pseudo-random numbers for the IMU tests, so every failure can be replayed.
  * mulberry32 (a well-known 32-bit generator; common practice for seeded test data) and Box-Muller normals.
  */
+import { mulberry32 } from '../../helpers/mulberry32';
 
 /** A uniform generator on [0, 1) from a 32-bit seed. */
 export function uniformRng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  return mulberry32(seed);
 }
 
 /** A standard normal generator from a 32-bit seed (Box-Muller). */

@@ -1,0 +1,14 @@
+/**
+ * The one seeded uniform generator of the tests, so every failure can be replayed: mulberry32, a public-domain
+ * 32-bit generator (common practice for seeded test data). Returns uniforms in [0, 1).
+ */
+export function mulberry32(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
