@@ -8,6 +8,7 @@ import { normalizeId } from './csv';
 import { isJsonObject, lineColumnOf, parseJson, type JsonValue } from './jsonValue';
 import { normalizeName } from './names';
 import { NUM_OK, numStatus, parseNumberText } from './numbers';
+import { clip } from './diagnostics';
 
 /** Parse the text of an anchors file. Never throws; problems are diagnostics naming `name`, line and column. */
 export function parseAnchorsText(text: string, name: string): { anchors: Anchor[]; diagnostics: Diagnostic[] } {
@@ -19,7 +20,7 @@ export function parseAnchorsText(text: string, name: string): { anchors: Anchor[
   const push = (id: string, p: [number, number, number], line: number): void => {
     if (seen.has(id)) {
       diagnostics.push({ severity: 'warning', kind: 'bad-value', file: name, line,
-        message: `Anchor ${id} is listed twice; the first position is kept.` });
+        message: `Anchor ${clip(String(id))} is listed twice; the first position is kept.` });
       return;
     }
     seen.add(id);
@@ -30,7 +31,7 @@ export function parseAnchorsText(text: string, name: string): { anchors: Anchor[
     if (!r.ok) {
       const lc = lineColumnOf(body, r.offset);
       diagnostics.push({ severity: 'error', kind: 'parse-error', file: name, line: lc.line, column: lc.column,
-        message: `The anchors file is not valid JSON: ${r.message}.` });
+        message: `The anchors file is not valid JSON: ${clip(r.message, 120)}.` });
       return { anchors, diagnostics };
     }
     let list: JsonValue = r.value;
@@ -95,7 +96,7 @@ export function parseAnchorsText(text: string, name: string): { anchors: Anchor[
     const ok = numStatus === NUM_OK && p.every(Number.isFinite);
     if (id === undefined || id === '' || !ok) {
       diagnostics.push({ severity: 'error', kind: 'parse-error', file: name, line, column: 1,
-        message: `Anchor row "${text.slice(0, 60)}" should be id,x,y,z with finite numbers in metres; skipped.` });
+        message: `Anchor row "${clip(text)}" should be id,x,y,z with finite numbers in metres; skipped.` });
       return;
     }
     push(normalizeId(id), [p[0], p[1], p[2]], line);

@@ -7,6 +7,7 @@
 import type { Anchor, Channel, ImuStream, RangeStream, StateStream, TdoaStream } from '../model';
 import { DiagnosticSink } from './diagnostics';
 import type { GrowthGuard } from './budget';
+import { clip } from './diagnostics';
 
 const INITIAL_CAPACITY = 256;
 const TIME_BOX = new Float64Array(1);
@@ -245,7 +246,7 @@ export class RunBuilder {
     const d = Math.hypot(old[0] - p[0], old[1] - p[1], old[2] - p[2]);
     if (d > 1e-6) {
       this.diagnostics.report('warning', 'bad-value', file, line,
-        `Anchor ${id} is given at (${p.join(', ')}) here but at (${old.join(', ')}) in ${this.anchorSource.get(id)}; the first position is kept.`,
+        `Anchor ${clip(id)} is given at (${p.join(', ')}) here but at (${old.join(', ')}) in ${this.anchorSource.get(id)}; the first position is kept.`,
         { key: `anchor-moved:${id}` });
     }
   }

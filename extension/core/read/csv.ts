@@ -13,6 +13,7 @@ import { NUM_INVALID, NUM_MISSING, NUM_NONFINITE, NUM_OK, numStatus, numStop, nu
 import type { RunBuilder } from './builder';
 import { charColumn, decodeUtf8 } from './utf8';
 import { parseWallClock } from './wallclock';
+import { clip } from './diagnostics';
 
 /** Options of one CSV file of a run. */
 export interface CsvFileOptions {
@@ -179,7 +180,7 @@ export class CsvFileReader {
       const p = value.split(/[\s,;]+/).filter((x) => x !== '').map(Number);
       if (p.length === 3 && p.every(Number.isFinite)) run.addAnchor(anchor[1], [p[0], p[1], p[2]], this.file, line);
       else run.diagnostics.report('warning', 'parse-error', this.file, line,
-        `Anchor metadata "${text.trim()}" should give three coordinates in metres (e.g. "# anchor 5: 24 0 5.7").`);
+        `Anchor metadata "${clip(text.trim())}" should give three coordinates in metres (e.g. "# anchor 5: 24 0 5.7").`);
       return;
     }
     if (key === 'reset') {
@@ -187,7 +188,7 @@ export class CsvFileReader {
         if (v === '') continue;
         const t = Number(v);
         if (Number.isFinite(t)) run.resets.push(t);
-        else run.diagnostics.report('warning', 'parse-error', this.file, line, `Reset time "${v}" is not a number.`);
+        else run.diagnostics.report('warning', 'parse-error', this.file, line, `Reset time "${clip(v)}" is not a number.`);
       }
       return;
     }
@@ -275,8 +276,8 @@ export class CsvFileReader {
     const plan = this.plan as RowPlan;
     const name = plan.names[c];
     const message = kind === 'bad-value'
-      ? `Column "${name}" holds the non-finite value "${text}"; it is treated as missing.`
-      : `Column "${name}": "${text.length > 40 ? `${text.slice(0, 40)}...` : text}" is not a number; it is treated as missing.`;
+      ? `Column "${clip(name)}" holds the non-finite value "${clip(text)}"; it is treated as missing.`
+      : `Column "${clip(name)}": "${clip(text)}" is not a number; it is treated as missing.`;
     this.run.diagnostics.report(kind === 'bad-value' ? 'warning' : 'error', kind, this.file, line, message,
       { column, key: `${this.file}:${kind}:${c}` });
   }

@@ -63,3 +63,20 @@ export class DiagnosticSink {
     return out;
   }
 }
+
+/** Most characters of user text (a column name, a cell, a key) quoted in one diagnostic message. */
+export const QUOTE_MAX_CHARS = 60;
+
+/**
+ * User text as quoted in a diagnostic message: control characters shown as spaces and anything past
+ * `max` characters cut off with an ellipsis, so a message stays one short plain sentence whatever the input holds.
+ */
+export function clip(text: string, max: number = QUOTE_MAX_CHARS): string {
+  const plain = text.replace(/[\u0000-\u001f\u007f-\u009f\u2028\u2029]/g, ' ');
+  if (plain.length <= max) return plain;
+  // Do not cut a surrogate pair in half.
+  let end = max - 1;
+  const code = plain.charCodeAt(end - 1);
+  if (code >= 0xd800 && code <= 0xdbff) end--;
+  return `${plain.slice(0, end)}\u2026`;
+}

@@ -16,6 +16,7 @@ import { NUM_INVALID, NUM_NONFINITE, NUM_OK, numStatus, parseNumberText } from '
 import { decodeUtf8 } from './utf8';
 import { parseWallClock } from './wallclock';
 import { choleskyFactor, asymmetry } from '../linalg/cholesky';
+import { clip } from './diagnostics';
 
 /** Options of one JSON / JSON Lines file of a run. */
 export interface JsonFileOptions {
@@ -86,13 +87,13 @@ export class JsonRecordSink {
     const vector = (prefix: string, name: string, v: JsonValue, axes: string[] = AXES): void => {
       if (Array.isArray(v)) {
         if (v.length !== axes.length) {
-          this.diag('parse-error', line, column, `"${name}" should have ${axes.length} numbers, it has ${v.length}.`, `${this.file}:len:${name}`);
+          this.diag('parse-error', line, column, `"${clip(name)}" should have ${axes.length} numbers, it has ${v.length}.`, `${this.file}:len:${name}`);
         }
         v.forEach((x, k) => { if (k < axes.length) add(`${prefix}${name}_${axes[k]}`, x); });
       } else if (isJsonObject(v)) {
         const keys = Object.keys(v);
         if (axes.some((a) => !keys.includes(a))) {
-          this.diag('parse-error', line, column, `"${name}" as an object should give ${axes.join(', ')}; it gives ${keys.join(', ') || 'nothing'}.`, `${this.file}:obj:${name}`);
+          this.diag('parse-error', line, column, `"${clip(name)}" as an object should give ${axes.join(', ')}; it gives ${clip(keys.join(', ')) || 'nothing'}.`, `${this.file}:obj:${name}`);
         }
         for (const [ax, x] of Object.entries(v)) add(`${prefix}${name}_${ax}`, x);
       } else add(`${prefix}${name}`, v);
@@ -192,7 +193,7 @@ export class JsonRecordSink {
       default:
         if (!this.warnedKinds.has(kind)) {
           this.warnedKinds.add(kind);
-          this.diag('unknown-column', line, column, `Records of kind "${kind}" are not part of the log conventions; they are skipped.`, `once:${this.file}:kind:${kind}`);
+          this.diag('unknown-column', line, column, `Records of kind "${clip(kind)}" are not part of the log conventions; they are skipped.`, `once:${this.file}:kind:${kind}`);
         }
         return;
     }
@@ -230,17 +231,17 @@ export class JsonRecordSink {
             const w = parseWallClock(v, plan.timeZone);
             if (!Number.isNaN(w)) { vals[c] = w + plan.offset[c]; return; }
           }
-          this.diag('parse-error', line, column, `"${name}": "${v.slice(0, 40)}" is not a number; treated as missing.`, `${this.file}:num:${name}`);
+          this.diag('parse-error', line, column, `"${clip(name)}": "${clip(v)}" is not a number; treated as missing.`, `${this.file}:num:${name}`);
           return;
         }
         if (numStatus !== NUM_OK && numStatus !== NUM_NONFINITE) return;
       } else {
-        this.diag('parse-error', line, column, `"${name}" should be a number, not ${Array.isArray(v) ? 'an array' : 'an object'}.`, `${this.file}:num:${name}`);
+        this.diag('parse-error', line, column, `"${clip(name)}" should be a number, not ${Array.isArray(v) ? 'an array' : 'an object'}.`, `${this.file}:num:${name}`);
         return;
       }
       if (Number.isNaN(x)) return;
       if (!Number.isFinite(x)) {
-        this.diag('bad-value', line, column, `"${name}" holds the non-finite value ${x}; treated as missing.`, `${this.file}:inf:${name}`);
+        this.diag('bad-value', line, column, `"${clip(name)}" holds the non-finite value ${x}; treated as missing.`, `${this.file}:inf:${name}`);
         return;
       }
       vals[c] = x * plan.scale[c] + plan.offset[c];
@@ -266,7 +267,7 @@ export class JsonRecordSink {
     const n = states.length;
     if (!run.pStates) run.pStates = states;
     else if (run.pStates.join(',') !== states.join(',')) {
-      this.diag('parse-error', line, column, `"P.states" differ from the first record's (${run.pStates.join(', ')}); this P is skipped.`, `${this.file}:pstates`);
+      this.diag('parse-error', line, column, `"P.states" differ from the first record's (${clip(run.pStates.join(', '))}); this P is skipped.`, `${this.file}:pstates`);
       return;
     }
     const rows = P.matrix;
@@ -327,7 +328,7 @@ export class JsonlFileReader {
     const r = parseJson(text);
     if (!r.ok) {
       const lc = lineColumnOf(text, r.offset);
-      run.diagnostics.report('error', 'parse-error', this.file, line, `Not a JSON record: ${r.message}.`,
+      run.diagnostics.report('error', 'parse-error', this.file, line, `Not a JSON record: ${clip(r.message, 120)}.`,
         { column: lc.column, key: `${this.file}:json` });
       return;
     }

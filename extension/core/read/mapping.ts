@@ -24,6 +24,7 @@ import { lineColumnOf, parseJson, type JsonValue } from './jsonValue';
 import { resolveMappedRole } from './names';
 import type { UnitName } from './units';
 import { isKnownZone } from './wallclock';
+import { clip } from './diagnostics';
 
 /** One column of a mapped file. */
 export interface ColumnSpec {
@@ -115,11 +116,11 @@ function usefulErrors(errors: ErrorObject[]): ErrorObject[] {
 }
 
 function describeError(e: ErrorObject): { path: string; text: string } {
-  const where = e.instancePath === '' ? 'the top level' : e.instancePath;
+  const where = e.instancePath === '' ? 'the top level' : clip(e.instancePath);
   const params = e.params as Record<string, unknown>;
   if (e.keyword === 'additionalProperties') {
     const key = String(params.additionalProperty);
-    return { path: `${e.instancePath}/${key}`, text: `${where} has an unknown property "${key}"` };
+    return { path: `${e.instancePath}/${key}`, text: `${where} has an unknown property "${clip(key)}"` };
   }
   if (e.keyword === 'enum') {
     const allowed = (params.allowedValues as unknown[]).map((v) => JSON.stringify(v)).join(', ');
@@ -140,7 +141,7 @@ export function parseMapping(text: string, name: string): { mapping?: Mapping; d
   if (!parsed.ok) {
     const lc = lineColumnOf(clean, parsed.offset);
     diagnostics.push({ severity: 'error', kind: 'parse-error', file: name, line: lc.line, column: lc.column,
-      message: `The mapping file is not valid JSON: ${parsed.message}.` });
+      message: `The mapping file is not valid JSON: ${clip(parsed.message, 120)}.` });
     return { diagnostics };
   }
   const at = (path: string): { line: number; column: number } => {
@@ -170,7 +171,7 @@ export function parseMapping(text: string, name: string): { mapping?: Mapping; d
         const path = `${base}/columns/${key.replace(/~/g, '~0').replace(/\//g, '~1')}`;
         const lc = at(typeof spec === 'string' ? path : `${path}/role`);
         diagnostics.push({ severity: 'error', kind: 'parse-error', file: name, line: lc.line, column: lc.column,
-          message: `Mapping file: ${path} has role "${role}", which is not a name of the log conventions, anchor_x/y/z or ignore.` });
+          message: `Mapping file: ${clip(path)} has role "${clip(role)}", which is not a name of the log conventions, anchor_x/y/z or ignore.` });
       }
     }
   };
@@ -178,7 +179,7 @@ export function parseMapping(text: string, name: string): { mapping?: Mapping; d
     if (t?.zone !== undefined && !isKnownZone(t.zone)) {
       const lc = at(`${base}/time/zone`);
       diagnostics.push({ severity: 'error', kind: 'parse-error', file: name, line: lc.line, column: lc.column,
-        message: `Mapping file: ${base}/time/zone "${t.zone}" is not UTC, a +HH:MM offset or a known IANA zone.` });
+        message: `Mapping file: ${clip(base)}/time/zone "${clip(t.zone)}" is not UTC, a +HH:MM offset or a known IANA zone.` });
     }
   };
   checkColumns(mapping.columns, '');

@@ -12,6 +12,7 @@ import { ChannelBuilder, RunBuilder, Slot, StreamBuilder } from './builder';
 import type { ColumnSpec, FileSpec, Mapping } from './mapping';
 import { normalizeName, resolveMappedRole, resolveName, type Role } from './names';
 import { unitFactor } from './units';
+import { clip } from './diagnostics';
 
 /** Cell kinds: skipped, number, string (ids), time (number or wall-clock string). */
 export const CELL_SKIP = 0;
@@ -119,7 +120,7 @@ export class RowPlan {
         for (let c = 0; c < this.ncols; c++) if (this.cellKind[c] === CELL_NUM && vals[c] === vals[c]) { any = true; break; }
         if (any) {
           run.diagnostics.report('warning', 'bad-value', this.file, line,
-            `This row has no time value in column "${this.names[this.timeCol]}"; it is left out.`, { key: `${this.file}:notime` });
+            `This row has no time value in column "${clip(this.names[this.timeCol])}"; it is left out.`, { key: `${this.file}:notime` });
         }
         this.rowIndex++;
         return;
@@ -151,7 +152,7 @@ export class RowPlan {
           if (s.variance && v === v) {
             if (v < 0) {
               run.diagnostics.report('warning', 'bad-value', this.file, line,
-                `Negative variance ${v} in column "${this.names[s.col]}"; left out.`, { t, key: `${this.file}:negvar:${s.col}` });
+                `Negative variance ${v} in column "${clip(this.names[s.col])}"; left out.`, { t, key: `${this.file}:negvar:${s.col}` });
               v = NaN;
             } else v = Math.sqrt(v);
           }
@@ -299,7 +300,7 @@ export class RowPlan {
     const ch = p.ch.name;
     if (asym > 1e-6) {
       this.run.diagnostics.report('warning', 'bad-covariance', this.file, line,
-        `The innovation covariance of channel ${ch} is not symmetric (relative difference ${asym.toPrecision(3)}); the mean of both triangles is used.`,
+        `The innovation covariance of channel ${clip(ch)} is not symmetric (relative difference ${asym.toPrecision(3)}); the mean of both triangles is used.`,
         { t, channel: ch });
     }
     for (let k = 0; k < d; k++) if (arr[base + k * d + k] !== arr[base + k * d + k]) return;
@@ -307,7 +308,7 @@ export class RowPlan {
     for (let k = 0; k < d * d; k++) this.scratch[k] = arr[base + k];
     if (!choleskyFactor(this.scratch, 0, d, this.chol, 0)) {
       this.run.diagnostics.report('warning', 'bad-covariance', this.file, line,
-        `The innovation covariance of channel ${ch} is not positive definite.`, { t, channel: ch });
+        `The innovation covariance of channel ${clip(ch)} is not positive definite.`, { t, channel: ch });
     }
   }
 }
@@ -368,7 +369,7 @@ export function compilePlan(input: PlanInput): RowPlan {
     const cs: ColumnSpec = typeof raw === 'string' ? { role: raw } : raw;
     if (c < 0) {
       diag.report('warning', 'unknown-column', input.mapName ?? file, 0,
-        `The mapping names column "${key}", which ${file} does not have (its columns: ${names.slice(0, 40).join(', ')}).`,
+        `The mapping names column "${clip(key)}", which ${file} does not have (its columns: ${clip(names.join(', '))}).`,
         { key: `once:${file}:mapmiss:${key}` });
       continue;
     }
@@ -383,7 +384,7 @@ export function compilePlan(input: PlanInput): RowPlan {
     const ac = findColumn(cs.anchorFrom, normNames);
     if (ac < 0) {
       diag.report('error', 'parse-error', input.mapName ?? file, 0,
-        `The mapping's column "${names[c]}" takes its anchor from "${cs.anchorFrom}", which ${file} does not have.`,
+        `The mapping's column "${clip(names[c])}" takes its anchor from "${clip(cs.anchorFrom)}", which ${file} does not have.`,
         { key: `once:${file}:anchorFrom:${cs.anchorFrom}` });
     } else anchorFromCol.set(c, ac);
   }
@@ -417,7 +418,7 @@ export function compilePlan(input: PlanInput): RowPlan {
     if (!role) {
       if (input.reportUnknown && !anchorSources.has(c)) {
         diag.report('info', 'unknown-column', file, input.headerLine,
-          `Column "${names[c]}" is not a name of the log conventions and is not mapped; it is ignored (a mapping file can give its role).`,
+          `Column "${clip(names[c])}" is not a name of the log conventions and is not mapped; it is ignored (a mapping file can give its role).`,
           { ...where(c), key: `once:${file}:unknown:${names[c]}` });
       }
       continue;
@@ -426,7 +427,7 @@ export function compilePlan(input: PlanInput): RowPlan {
     if ((role.kind === 'nu' && !(role.index < MAX_COMPONENTS)) || (role.kind === 's' && (!(role.i < MAX_COMPONENTS) || !(role.j < MAX_COMPONENTS)))) {
       const index = role.kind === 'nu' ? role.index : Math.max(role.i, role.j);
       diag.report('warning', 'unknown-column', file, input.headerLine,
-        `Column "${names[c]}" names innovation component ${Number.isFinite(index) ? index : 'beyond any size'}; a channel has at most ${MAX_COMPONENTS} components (0..${MAX_COMPONENTS - 1}), so the column is ignored.`,
+        `Column "${clip(names[c])}" names innovation component ${Number.isFinite(index) ? index : 'beyond any size'}; a channel has at most ${MAX_COMPONENTS} components (0..${MAX_COMPONENTS - 1}), so the column is ignored.`,
         { ...where(c), key: `once:${file}:bigindex:${names[c]}` });
       continue;
     }
@@ -435,7 +436,7 @@ export function compilePlan(input: PlanInput): RowPlan {
       const prev = taken.get(key);
       if (prev !== undefined) {
         diag.report('info', 'unknown-column', file, input.headerLine,
-          `Column "${names[c]}" repeats the role of column "${names[prev]}" (${key.replace(/:/g, ' ')}); the first is used and this one ignored.`,
+          `Column "${clip(names[c])}" repeats the role of column "${clip(names[prev])}" (${clip(key.replace(/:/g, ' '))}); the first is used and this one ignored.`,
           { ...where(c), key: `once:${file}:dup:${names[c]}` });
         continue;
       }
@@ -493,7 +494,7 @@ export function compilePlan(input: PlanInput): RowPlan {
         const ac = anchorFromCol.get(c);
         if (ac === undefined) {
           diag.report('warning', 'unknown-column', input.mapName ?? file, 0,
-            `Column "${names[c]}" is mapped as an anchor coordinate but has no anchorFrom; it is ignored.`);
+            `Column "${clip(names[c])}" is mapped as an anchor coordinate but has no anchorFrom; it is ignored.`);
           break;
         }
         let axes = anchorAxes.get(ac);
@@ -537,12 +538,12 @@ export function compilePlan(input: PlanInput): RowPlan {
         // An incomplete set of Euler angles (e.g. heading only) is kept as its own column, in radians.
         plan.simple.push({ col: c, slot: target.slot(prefix + k), variance: false, name: prefix + k });
         diag.report('info', 'note', file, input.headerLine,
-          `Column "${names[c]}" gives ${prefix}${k} without the other Euler angles; it is kept as column ${prefix}${k} (rad), no quaternion is formed.`,
+          `Column "${clip(names[c])}" gives ${prefix}${k} without the other Euler angles; it is kept as column ${prefix}${k} (rad), no quaternion is formed.`,
           { ...where(c), key: `once:${file}:partial:${names[c]}` });
         continue;
       }
       diag.report('info', 'unknown-column', file, input.headerLine,
-        `Column "${names[c]}" (${prefix}${k}) is not used: the attitude is taken from ${g.quat ? 'the quaternion' : g.mat ? 'the rotation matrix' : g.euler ? 'the Euler angles' : 'nowhere, its set is incomplete'}.`,
+        `Column "${clip(names[c])}" (${prefix}${k}) is not used: the attitude is taken from ${g.quat ? 'the quaternion' : g.mat ? 'the rotation matrix' : g.euler ? 'the Euler angles' : 'nowhere, its set is incomplete'}.`,
         { ...where(c), key: `once:${file}:att:${names[c]}` });
     }
     for (const k of [...QUAT, ...MAT, ...EULER]) if (used.has(stateByName.get(prefix + k) ?? -1)) stateByName.delete(prefix + k);
@@ -574,7 +575,7 @@ export function compilePlan(input: PlanInput): RowPlan {
       for (const c of [...p.s.map((s) => s.col), p.id, p.rejected]) {
         if (c < 0) continue;
         diag.report('info', 'unknown-column', file, input.headerLine,
-          `Column "${names[c]}" belongs to channel ${name}, which has no innovation (nu_${name}) or NIS (nis_${name}) column; it is ignored.`,
+          `Column "${clip(names[c])}" belongs to channel ${clip(name)}, which has no innovation (nu_${clip(name)}) or NIS (nis_${clip(name)}) column; it is ignored.`,
           { ...where(c), key: `once:${file}:orphan:${names[c]}` });
         plan.cellKind[c] = CELL_SKIP;
       }
@@ -589,14 +590,14 @@ export function compilePlan(input: PlanInput): RowPlan {
       else {
         ch.dof = 1;
         diag.report('info', 'note', file, input.headerLine,
-          `Channel ${name} logs only its NIS; its degrees of freedom are taken as 1 (the mapping file's channels.${name}.dof can set them).`,
+          `Channel ${clip(name)} logs only its NIS; its degrees of freedom are taken as 1 (the mapping file's channels.${clip(name)}.dof can set them).`,
           { channel: name, key: `once:${file}:dof:${name}` });
       }
       ch.angleComponents = new Array<boolean>(ch.dof).fill(false);
       for (const k of cs?.angleComponents ?? []) if (k < ch.dof) ch.angleComponents[k] = true;
     } else if (wanted > ch.dof) {
       diag.report('warning', 'parse-error', file, input.headerLine,
-        `Channel ${name} has ${wanted} innovation components here but ${ch.dof} before; components beyond ${ch.dof - 1} are ignored.`,
+        `Channel ${clip(name)} has ${wanted} innovation components here but ${ch.dof} before; components beyond ${ch.dof - 1} are ignored.`,
         { channel: name, key: `once:${file}:dofmismatch:${name}` });
     }
     const given = new Set(p.s.map((s) => `${s.i},${s.j}`));

@@ -15,6 +15,7 @@ import { parseJson } from './jsonValue';
 import { parseMapping, type FileSpec, type Mapping } from './mapping';
 import type { FileRole } from './plan';
 import { decodeUtf8, encodeUtf8 } from './utf8';
+import { clip } from './diagnostics';
 
 /** The part of an AbortSignal the reader uses (a DOM or Node AbortSignal fits). */
 export interface AbortSignalLike {
@@ -250,7 +251,7 @@ function assemble(run: RunBuilder, format: 'csv' | 'jsonl' | 'json', path: strin
     const f = meta.frame.trim().toUpperCase();
     if (f === 'ENU' || f === 'NED') frame = f;
     else diagnostics.push({ severity: 'warning', kind: 'bad-value', file: path, line: 0,
-      message: `Metadata "frame: ${meta.frame}" is not ENU or NED; the frame is left unknown.` });
+      message: `Metadata "frame: ${clip(String(meta.frame))}" is not ENU or NED; the frame is left unknown.` });
   }
   let P: { states: string[]; matrix: Float64Array } | undefined;
   if (run.pStates) {
@@ -302,7 +303,7 @@ async function pump(src: ByteSource, sink: { push(c: Uint8Array): void }, reader
   } catch (e) {
     if (options.signal?.aborted) throw abortError(options.signal);
     reader.addDiagnostics([{ severity: 'error', kind: 'parse-error', file: src.name, line: 0,
-      message: `Could not read ${src.name}: ${e instanceof Error ? e.message : String(e)}` }]);
+      message: `Could not read ${src.name}: ${clip(e instanceof Error ? e.message : String(e), 120)}` }]);
     return false;
   }
 }
@@ -360,13 +361,13 @@ export async function readRun(main: ByteSource, options: ReadOptions = {}): Prom
     let src: ByteSource | undefined;
     try { src = options.open?.(path, relativeTo); } catch (e) {
       reader.addDiagnostics([{ severity: 'error', kind: 'parse-error', file: mapName ?? main.name, line: 0,
-        message: `Could not open ${what} "${path}": ${e instanceof Error ? e.message : String(e)}` }]);
+        message: `Could not open ${what} "${clip(path)}": ${e instanceof Error ? e.message : String(e)}` }]);
       return undefined;
     }
     if (!src) {
       reader.addDiagnostics([{ severity: 'error', kind: 'parse-error', file: mapName ?? main.name, line: 0,
-        message: options.open ? `The ${what} "${path}" named by the mapping file was not found (relative to ${relativeTo}).`
-          : `The ${what} "${path}" named by the mapping file cannot be opened here (no file access was given).` }]);
+        message: options.open ? `The ${what} "${clip(path)}" named by the mapping file was not found (relative to ${relativeTo}).`
+          : `The ${what} "${clip(path)}" named by the mapping file cannot be opened here (no file access was given).` }]);
     }
     return src;
   };
