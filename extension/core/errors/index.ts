@@ -69,10 +69,9 @@ export interface RpeFigures {
   distance?: RelativeErrorStats & { window_m: number; rmsePercent?: number };
 }
 
-/** Position errors. */
-export interface PositionErrors {
+/** Velocity errors (and the figures position errors share). */
+export interface VelocityErrors {
   epochs: number;
-  dims: number;
   rmse?: number;
   /** Horizontal RMSE (first two navigation axes). */
   rmse2d?: number;
@@ -81,19 +80,13 @@ export interface PositionErrors {
   rmsePerAxis?: number[];
   meanPerAxis?: number[];
   nees?: NeesFigures;
-  ate?: AteFigures;
-  rpe?: RpeFigures;
 }
 
-/** Velocity errors. */
-export interface VelocityErrors {
-  epochs: number;
-  rmse?: number;
-  rmse2d?: number;
-  max?: number;
-  rmsePerAxis?: number[];
-  meanPerAxis?: number[];
-  nees?: NeesFigures;
+/** Position errors: the velocity figures plus the alignment-based ones. */
+export interface PositionErrors extends VelocityErrors {
+  dims: number;
+  ate?: AteFigures;
+  rpe?: RpeFigures;
 }
 
 /** Orientation errors (angles of the error rotation). */

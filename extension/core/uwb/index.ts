@@ -54,29 +54,33 @@ export interface ResidualReport {
   rms?: number;
 }
 
-/** Per-anchor figures. */
-export interface UwbAnchorReport {
-  id: string;
-  /** Position, metres, navigation frame (absent when unknown). */
-  p?: [number, number, number];
-  /** Filter updates involving the anchor (including rejected ones). */
+/** Figures shared by an anchor and a TDOA pair (a link): updates, NIS, innovations and residuals. */
+export interface UwbLinkFigures {
+  /** Filter updates involving the anchor or pair (including rejected ones). */
   updates: number;
   rejected: number;
   nis: { mean?: number };
   /** Accepted updates with NIS beyond the gate. */
   outliers: number;
-  /** Mean, sample SD, median and MAD of the anchor's oriented innovations, metres. */
+  /** Mean, sample SD, median and MAD of the oriented innovations, metres. */
   innovationMean?: number;
   innovationStd?: number;
   median?: number;
   mad?: number;
-  /** Raw records involving the anchor. */
+  /** Raw records involving the anchor or pair. */
   measurements: number;
   /** Mean oriented residual against ground truth, metres. */
   residualMean?: number;
   residual?: ResidualReport;
   /** Oriented residuals against the estimate. */
   residualVsEstimate?: ResidualReport;
+}
+
+/** Per-anchor figures. */
+export interface UwbAnchorReport extends UwbLinkFigures {
+  id: string;
+  /** Position, metres, navigation frame (absent when unknown). */
+  p?: [number, number, number];
   /** Constant offset (clock or survey bias) with its 1-sigma; `relative` when only TDOA saw it (median anchor = 0). */
   offset?: { value: number; sigma: number; source: 'truth' | 'innovation' | 'estimate'; relative: boolean };
   /** Share of all anomalies (outliers and rejections, or gated residuals) on links involving this anchor. */
@@ -86,22 +90,10 @@ export interface UwbAnchorReport {
 }
 
 /** Per-pair figures of a TDOA pair `i-j` (d_j - d_i); range links are reported under their anchor only. */
-export interface UwbPairReport {
+export interface UwbPairReport extends UwbLinkFigures {
   id: string;
   i: string;
   j: string;
-  updates: number;
-  rejected: number;
-  nis: { mean?: number };
-  outliers: number;
-  innovationMean?: number;
-  innovationStd?: number;
-  median?: number;
-  mad?: number;
-  measurements: number;
-  residualMean?: number;
-  residual?: ResidualReport;
-  residualVsEstimate?: ResidualReport;
   /** Significantly more anomalies than the baseline (anchors.ts). */
   excessAnomalies: boolean;
   anomalies: number;
