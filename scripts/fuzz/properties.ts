@@ -490,8 +490,13 @@ export async function runFuzz(
   const weights = targets.reduce((s, t) => s + t.weight, 0);
   let runs = 0;
   const failures: string[] = [];
+  // Shares by cumulative weight, so the targets' counts add up to `total` exactly (rounding each share on its own
+  // left the sum one short of 100,000).
+  let cumulative = 0;
   for (const [k, t] of targets.entries()) {
-    const numRuns = Math.max(1, Math.round((total * t.weight) / weights));
+    const before = Math.round((total * cumulative) / weights);
+    cumulative += t.weight;
+    const numRuns = Math.max(1, Math.round((total * cumulative) / weights) - before);
     const t0 = performance.now();
     const r = await t.run(numRuns, seed + k, options);
     runs += r.runs;
