@@ -27,15 +27,24 @@ export async function pickCompareRuns(base: vscode.Uri | undefined): Promise<vsc
   return picked ?? [];
 }
 
-/** Ask for the runs of a Monte Carlo check: a folder of runs, or several logs. */
+/** Ask for the runs of a Monte Carlo check: first whether a folder or several logs, then the dialog for that. */
 export async function pickMonteCarloRuns(base: vscode.Uri | undefined): Promise<vscode.Uri[]> {
+  const kind = await vscode.window.showQuickPick(
+    [
+      { label: 'A folder of runs', description: 'every log in it is one run of the scenario', folder: true },
+      { label: 'Several logs', description: 'each log is one run of the scenario', folder: false },
+    ],
+    { title: 'Residuum: Monte Carlo runs of one scenario' },
+  );
+  if (!kind) return [];
   const picked = await vscode.window.showOpenDialog({
-    canSelectMany: true,
-    canSelectFiles: true,
-    canSelectFolders: true,
+    canSelectMany: !kind.folder,
+    canSelectFiles: !kind.folder,
+    canSelectFolders: kind.folder,
     openLabel: 'Check runs',
-    title: 'Residuum: choose a folder of runs of one scenario, or several logs',
+    title: kind.folder ? 'Residuum: choose the folder of runs' : 'Residuum: choose two or more logs of one scenario',
     ...(base ? { defaultUri: vscode.Uri.joinPath(base, '..') } : {}),
+    ...(kind.folder ? {} : { filters: LOG_FILTERS }),
   });
   return picked ?? [];
 }
