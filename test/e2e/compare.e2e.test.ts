@@ -96,6 +96,23 @@ async function clickAndAnswer(f: FrameLocator, text: string, file: string): Prom
   throw new Error(`"${text}" then the dialog with ${file}: ${lastError instanceof Error ? lastError.message : String(lastError)}`);
 }
 
+/**
+ * Answers the simple dialog of a folder choice: the folder's path with a trailing slash moves the dialog into it
+ * (its list then shows `..`), and the dialog's OK button (`okLabel`) accepts the folder shown.
+ */
+async function answerFolderDialog(folder: string, okLabel: string): Promise<void> {
+  const widget = page.locator('.quick-input-widget');
+  const input = widget.locator('input.input');
+  await input.waitFor({ state: 'visible', timeout: 15_000 });
+  await expect.poll(() => input.inputValue(), { timeout: 10_000 }).toMatch(/^\//);
+  const typed = `${folder}/`;
+  await input.fill(typed);
+  await expect.poll(() => input.inputValue(), { timeout: 10_000 }).toBe(typed);
+  await widget.locator('.monaco-list-row').filter({ hasText: '..' }).first().waitFor({ state: 'visible', timeout: 10_000 });
+  await widget.locator('.monaco-button').filter({ hasText: okLabel }).first().click();
+  await widget.waitFor({ state: 'hidden', timeout: 10_000 });
+}
+
 /** Canvases of a chart section with something drawn. */
 async function drawnIn(f: FrameLocator, selector: string): Promise<number> {
   return f.locator(`${selector} canvas`).evaluateAll(probes.countDrawnCanvases);
@@ -204,14 +221,39 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
     await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-compare.png') });
   }, 240_000);
 
+  it('opens the compare view from the explorer: two logs selected, Residuum: Compare Runs... in the context menu', async () => {
+    await h.runCommand(page, 'View: Close All Editors');
+    await h.runCommand(page, 'View: Show Explorer');
+    const rows = page.locator('.explorer-folders-view .monaco-list-row');
+    const row = (name: string) => rows.filter({ has: page.locator('.label-name', { hasText: new RegExp(`^${name.replace('.', '\\.')}$`) }) }).first();
+    await row('clean.csv').waitFor({ state: 'visible', timeout: 15_000 });
+    await row('clean.csv').click();
+    await row('degraded.csv').click({ modifiers: ['Control'] });
+    await expect.poll(() => page.locator('.explorer-folders-view .monaco-list-row.selected').count(), { timeout: 5000 }).toBe(2);
+    await row('degraded.csv').click({ button: 'right' });
+    const item = page.locator('.monaco-menu .action-item').filter({ hasText: 'Residuum: Compare Runs...' }).first();
+    await item.waitFor({ state: 'visible', timeout: 10_000 });
+    await item.click();
+    const f = panel();
+    const view = f.locator('[data-testid="compare-view"][data-state="ready"]');
+    await view.waitFor({ state: 'attached', timeout: 90_000 });
+    // The compare view is shown (its tab selected) and holds both selected logs.
+    expect(await view.isVisible()).toBe(true);
+    const names = await f.locator('[data-testid="compare-runs"] tbody tr td:nth-child(2)').allTextContents();
+    expect([...names].sort()).toEqual(['clean.csv', 'degraded.csv']);
+    expect(await f.locator('table[data-testid="compare-figures"]').count()).toBeGreaterThan(0);
+    await h.runCommand(page, 'View: Close Primary Side Bar');
+  }, 180_000);
+
   it('shows the Monte Carlo view of a folder of runs: N-run averages with their band', async () => {
     await h.runCommand(page, 'Residuum: Monte Carlo Consistency of Runs...', { opensQuickInput: true });
     const widget = page.locator('.quick-input-widget');
     await widget.locator('.monaco-list-row').filter({ hasText: 'A folder of runs' }).first().click();
-    await h.answerFileDialog(page, mcFolder);
+    await answerFolderDialog(mcFolder, 'Check runs');
     const f = panel();
     const view = f.locator('[data-testid="montecarlo-view"][data-state="ready"]');
     await view.waitFor({ state: 'attached', timeout: 120_000 });
+    expect(await view.locator('code').allTextContents()).toEqual(['run1.csv', 'run2.csv', 'run3.csv']);
     const summary = await f.locator('table[data-testid="montecarlo-summary"] tbody tr').evaluateAll((rows) => rows.map((r) => [...r.querySelectorAll('td')].map((c) => c.textContent ?? '')));
     const position = summary.find((r) => r[0] === 'NEES position');
     expect(position, `summary rows ${JSON.stringify(summary)}`).toBeDefined();
