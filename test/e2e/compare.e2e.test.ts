@@ -227,9 +227,17 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
     const rows = page.locator('.explorer-folders-view .monaco-list-row');
     const row = (name: string) => rows.filter({ has: page.locator('.label-name', { hasText: new RegExp(`^${name.replace('.', '\\.')}$`) }) }).first();
     await row('clean.csv').waitFor({ state: 'visible', timeout: 15_000 });
-    await row('clean.csv').click();
-    await row('degraded.csv').click({ modifiers: ['Control'] });
-    await expect.poll(() => page.locator('.explorer-folders-view .monaco-list-row.selected').count(), { timeout: 5000 }).toBe(2);
+    const selected = page.locator('.explorer-folders-view .monaco-list-row.selected');
+    // Clicking a log opens it in a preview editor, which may take the focus back a moment later: select again until
+    // both rows are selected.
+    for (let attempt = 0; attempt < 4 && (await selected.count()) !== 2; attempt++) {
+      await row('clean.csv').click();
+      await expect.poll(() => row('clean.csv').getAttribute('class'), { timeout: 5000 }).toMatch(/\bselected\b/);
+      await page.waitForTimeout(500 * (attempt + 1));
+      await row('degraded.csv').click({ modifiers: ['Control'] });
+      await expect.poll(() => selected.count(), { timeout: 3000 }).toBe(2).catch(() => undefined);
+    }
+    expect(await selected.count(), 'rows selected in the explorer').toBe(2);
     await row('degraded.csv').click({ button: 'right' });
     const item = page.locator('.monaco-menu .action-item').filter({ hasText: 'Residuum: Compare Runs...' }).first();
     await item.waitFor({ state: 'visible', timeout: 10_000 });
