@@ -10,7 +10,8 @@ import * as path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { generateWarehouseLog, type WarehouseOptions } from '../../extension/core/demo/warehouse';
 import { runComparison, runMonteCarlo } from '../../extension/host/runAnalysis';
-import { compareReadyMessage, isRunLog, monteCarloReadyMessage, MONTE_CARLO_BUCKETS } from '../../extension/host/runsMessages';
+import { compareReadyMessage, compareStateMessage, isRunLog, monteCarloReadyMessage, monteCarloStateMessage, MONTE_CARLO_BUCKETS } from '../../extension/host/runsMessages';
+import { parseHostMessage } from '../../extension/protocol';
 
 const root = path.resolve(__dirname, '../..');
 const worker = path.join(root, 'dist', 'analysisWorker.js');
@@ -112,6 +113,19 @@ describe.skipIf(!ready)('comparison and Monte Carlo in the worker', () => {
     expect(tdoa!.bounds95![0]).toBeCloseTo(0.215795 / 3, 5);
     expect(tdoa!.bounds95![1]).toBeCloseTo(9.348404 / 3, 5);
   }, 120_000);
+});
+
+describe('state messages of the views', () => {
+  it('name the runs by file name only, and pass the webview guard', () => {
+    const c = compareStateMessage('loading', ['/data/runs/a.csv', '/data/runs/b.csv'], { by: 'start' }, 'Comparing 2 runs…', true);
+    expect(c.runs.map((r) => [r.label, r.name])).toEqual([['A', 'a.csv'], ['B', 'b.csv']]);
+    expect(c).toMatchObject({ state: 'loading', message: 'Comparing 2 runs…', align: { by: 'start' }, figures: [], overlays: [], focus: true });
+    expect(parseHostMessage(c)).toBe(c);
+    const m = monteCarloStateMessage('error', ['/x/r1.csv'], 'A Monte Carlo check needs two or more runs');
+    expect(m).toMatchObject({ state: 'error', files: ['r1.csv'], runs: 1, series: [] });
+    expect(m.focus).toBeUndefined();
+    expect(parseHostMessage(m)).toBe(m);
+  });
 });
 
 describe('run files of a folder', () => {
