@@ -67,6 +67,19 @@ function chartSection(key: string, title: string): { section: HTMLElement; plot:
   return { section, plot, tableHost };
 }
 
+/** Smallest and largest finite value of `x` (a unit span when there is none or one). */
+function finiteExtent(x: Float64Array): [number, number] {
+  let x0 = Infinity;
+  let x1 = -Infinity;
+  for (const v of x) {
+    if (!Number.isFinite(v)) continue;
+    x0 = Math.min(x0, v);
+    x1 = Math.max(x1, v);
+  }
+  if (!Number.isFinite(x0)) return [0, 1];
+  return x1 > x0 ? [x0, x1] : [x0, x0 + 1];
+}
+
 function stateBlock(state: 'empty' | 'loading' | 'error', message: string | undefined, empty: string): HTMLElement {
   if (state === 'loading') return el('div', { class: 'loading' }, progressRing(), el('p', { role: 'status' }, message ?? 'Reading the runs…'));
   if (state === 'error') return el('p', { class: 'error', role: 'alert' }, message ?? 'The runs could not be read.');
@@ -200,11 +213,7 @@ function drawMonteCarlo(): void {
     const { section, plot, tableHost } = chartSection(s.key, title);
     section.dataset.band = '1';
     host.append(section);
-    let x0 = Infinity;
-    let x1 = -Infinity;
-    for (const v of x) if (Number.isFinite(v)) (x0 = Math.min(x0, v)), (x1 = Math.max(x1, v));
-    if (!(x1 > x0)) (x0 = Number.isFinite(x0) ? x0 : 0), (x1 = x0 + 1);
-    const chart = new TimeChart(plot, { label: title, unit: '1', kind: 'time', band: true, extent: [x0, x1], markers: [], syncKey: 'residuum-montecarlo' }, ctx.width(), ctx.theme);
+    const chart = new TimeChart(plot, { label: title, unit: '1', kind: 'time', band: true, extent: finiteExtent(x), markers: [], syncKey: 'residuum-montecarlo' }, ctx.width(), ctx.theme);
     section.dataset.points = String(chart.setData(x, y, lo, hi));
     monteCarloCharts.push(chart);
     const { rows, total } = tableRows({ x, y, lo, hi });
