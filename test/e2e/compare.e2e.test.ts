@@ -12,7 +12,8 @@
  * - "Export report..." and "Markdown summary..." in the panel write files (save dialog answered with a path) that
  *   carry the log's SHA-256 and its findings;
  * - "Add runs..." in the Compare view (open dialog) shows both runs' figures, the common span, the better run, and
- *   overlay charts with both runs' data;
+ *   overlay charts with both runs' data; the comparison's Markdown export carries both hashes; another alignment
+ *   is applied; "Residuum: Compare Runs..." from the explorer's context menu on two selected logs opens the view;
  * - "Residuum: Monte Carlo Consistency of Runs..." on the folder shows the N-run averages with their band and data;
  * - no Content Security Policy violation is logged by our webview (and a refused inline script is seen).
  *
@@ -219,6 +220,16 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
     expect(await nisSection.locator('thead th').count()).toBe(3);
     expect(await nisSection.locator('tbody tr').count()).toBeGreaterThan(10);
     await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-compare.png') });
+
+    // The comparison's Markdown carries both runs' hashes; another alignment computes the figures again.
+    const compareMd = path.join(workspace, 'exported-comparison.md');
+    await clickAndAnswer(f, 'Comparison as Markdown...', compareMd);
+    expect(await waitForFile(compareMd, 30_000), `${compareMd} written`).toBe(true);
+    const cmd = readFileSync(compareMd, 'utf8');
+    for (const file of [degraded, clean]) expect(cmd).toContain(createHash('sha256').update(readFileSync(file)).digest('hex'));
+    await f.locator('select[data-testid="compare-align"]').selectOption('start');
+    await expect.poll(() => f.locator('[data-testid="compare-span"]').textContent(), { timeout: 60_000 }).toMatch(/aligned by each run’s start\)\.$/);
+    expect(await f.locator('[data-testid="compare-view"]').getAttribute('data-state')).toBe('ready');
   }, 240_000);
 
   it('opens the compare view from the explorer: two logs selected, Residuum: Compare Runs... in the context menu', async () => {
