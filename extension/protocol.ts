@@ -15,6 +15,7 @@
  * except for the small guard functions at the bottom, which are pure.
  */
 import type { Report } from './core/report';
+import type { ComparedFigure, Overlay } from './core/compare';
 
 /** One series the host holds, described without its data. */
 export interface SeriesInfo {
@@ -165,9 +166,45 @@ export interface ReportExportMessage {
   format: 'html' | 'md';
 }
 
+/** How the compare view puts runs on one time axis (as the command line's `compare --align` / `--align-event`). */
+export type CompareAlign = { by: 'time' } | { by: 'start' } | { by: 'event'; kind: string };
+
+/** Add runs to this panel's comparison: the host shows an open dialog (several files may be chosen). */
+export interface CompareAddMessage {
+  type: 'compare/add';
+}
+
+/** Compare again with another alignment. */
+export interface CompareAlignMessage {
+  type: 'compare/align';
+  align: CompareAlign;
+}
+
+/** Drop one run from the comparison (index into `CompareUpdateMessage.runs`; 0, the panel's own log, stays). */
+export interface CompareRemoveMessage {
+  type: 'compare/remove';
+  run: number;
+}
+
+/** Export the compare view's comparison as HTML or Markdown (the host opens a save dialog). */
+export interface CompareExportMessage {
+  type: 'compare/export';
+  format: 'html' | 'md';
+}
+
+/** Choose the runs of a Monte Carlo consistency check: the host shows an open dialog (a folder or several logs). */
+export interface MonteCarloPickMessage {
+  type: 'montecarlo/pick';
+}
+
 /** Every message the webview may send. */
 export type WebviewToHostMessage =
   | ReportExportMessage
+  | CompareAddMessage
+  | CompareAlignMessage
+  | CompareRemoveMessage
+  | CompareExportMessage
+  | MonteCarloPickMessage
   | ReadyMessage
   | SeriesRequestMessage
   | RevealLineMessage
@@ -266,8 +303,87 @@ export interface NotesUpdateMessage {
   focusChannel?: string;
 }
 
+/** One run of the compare view. */
+export interface CompareRunInfo {
+  /** A, B, C ... (core/compare.ts runLabel). */
+  label: string;
+  /** File name only (from the disk: show as text). */
+  name: string;
+  sha256?: string;
+  /** Log time of common time 0, seconds. */
+  offset_s: number;
+  /** The run's own-time window of the common span, seconds. */
+  window: [number, number];
+  /** True when the run reaches beyond the common span and its figures were computed again on it. */
+  cropped: boolean;
+}
+
+/** State of a view computed from several runs. */
+export type RunsViewState = 'empty' | 'loading' | 'ready' | 'error';
+
+/** The compare view's content (after `compare/add`, `compare/align`, `compare/remove`, or the Compare Runs command). */
+export interface CompareUpdateMessage {
+  type: 'compare/update';
+  state: RunsViewState;
+  /** Why it failed, or what is being read. */
+  message?: string;
+  align: CompareAlign;
+  /** Finding kinds every run has (choices of an event alignment). */
+  eventKinds: string[];
+  runs: CompareRunInfo[];
+  /** The common span on the common axis, seconds (state `ready`). */
+  span?: { start: number; end: number };
+  figures: ComparedFigure[];
+  overlays: Overlay[];
+  /** Show the compare view (the command asked for it). */
+  focus?: boolean;
+}
+
+/** One N-run average of the Monte Carlo view, with its chi2(N n)/N interval per epoch (columns as float64 buffers). */
+export interface MonteCarloSeriesInfo {
+  /** `montecarlo/nees/<block>` or `montecarlo/nis/<channel>`. */
+  key: string;
+  kind: 'nees' | 'nis';
+  /** Error block or channel name (from the log: show as text). */
+  name: string;
+  dof: number;
+  /** Epochs with at least one run's value. */
+  epochs: number;
+  mean?: number;
+  /** Share of epochs whose N-run average lies inside its interval (on every epoch, not only those drawn). */
+  inside95?: number;
+  /** The interval when all N runs are present. */
+  bounds95?: [number, number];
+  /** Time (the first run's log time), N-run average, interval: a min/max envelope of equal length. */
+  x: ArrayBuffer;
+  y: ArrayBuffer;
+  lo: ArrayBuffer;
+  hi: ArrayBuffer;
+}
+
+/** The Monte Carlo view's content. */
+export interface MonteCarloUpdateMessage {
+  type: 'montecarlo/update';
+  state: RunsViewState;
+  message?: string;
+  /** File names of the runs, in order. */
+  files: string[];
+  runs: number;
+  series: MonteCarloSeriesInfo[];
+  notes: string[];
+  /** Show the Monte Carlo view. */
+  focus?: boolean;
+}
+
 /** Every message the host may send. */
-export type HostToWebviewMessage = InitMessage | SeriesResponseMessage | CursorSetMessage | StatusMessage | NotesUpdateMessage;
+export type HostToWebviewMessage =
+  | InitMessage
+  | SeriesResponseMessage
+  | CursorSetMessage
+  | StatusMessage
+  | NotesUpdateMessage
+  | CompareUpdateMessage
+  | MonteCarloUpdateMessage;
 
 // ---------------------------------------------------------------------------------------------------------------
 // Guards
@@ -314,12 +430,27 @@ function isBufferLike(value: unknown): boolean {
   return value instanceof ArrayBuffer || ArrayBuffer.isView(value);
 }
 
+function isRunsState(value: unknown): value is RunsViewState {
+  return value === 'empty' || value === 'loading' || value === 'ready' || value === 'error';
+}
+
 function optFinite(value: unknown): value is number | undefined {
   return value === undefined || isFiniteNumber(value);
 }
 
 function optIndex(value: unknown): value is number | undefined {
   return value === undefined || isIndex(value);
+}
+
+/** Most runs a comparison holds. */
+const MAX_RUNS = 64;
+
+/** Validate an alignment from the webview; returns a clean copy or undefined. */
+export function parseCompareAlign(value: unknown): CompareAlign | undefined {
+  if (!isRecord(value)) return undefined;
+  if (value.by === 'time' || value.by === 'start') return { by: value.by };
+  if (value.by === 'event' && typeof value.kind === 'string' && /^[a-z][a-z0-9-]{0,63}$/.test(value.kind)) return { by: 'event', kind: value.kind };
+  return undefined;
 }
 
 /** Validate a view state from the webview or a serializer; returns a clean copy or undefined. */
@@ -419,6 +550,18 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
       return isShortString(value.name) ? { type, name: value.name } : 'code/goto: bad name';
     case 'report/export':
       return value.format === 'html' || value.format === 'md' ? { type, format: value.format } : 'report/export: format is not html or md';
+    case 'compare/add':
+      return { type };
+    case 'compare/align': {
+      const align = parseCompareAlign(value.align);
+      return align ? { type, align } : 'compare/align: align is not {by: time|start} or {by: event, kind}';
+    }
+    case 'compare/remove':
+      return isIndex(value.run, MAX_RUNS) && value.run >= 1 ? { type, run: value.run } : 'compare/remove: run is not an index of a compared run (1 or more)';
+    case 'compare/export':
+      return value.format === 'html' || value.format === 'md' ? { type, format: value.format } : 'compare/export: format is not html or md';
+    case 'montecarlo/pick':
+      return { type };
     default:
       return `unknown message type ${JSON.stringify(typeof type === 'string' ? type.slice(0, 64) : typeof type)}`;
   }
@@ -445,6 +588,15 @@ export function parseHostMessage(value: unknown): HostToWebviewMessage | undefin
       return value.state === 'loading' || value.state === 'error' ? (value as unknown as StatusMessage) : undefined;
     case 'notes/update':
       return Array.isArray(value.notes) && isIndex(value.pending) ? (value as unknown as NotesUpdateMessage) : undefined;
+    case 'compare/update':
+      return isRunsState(value.state) && Array.isArray(value.runs) && Array.isArray(value.figures) && Array.isArray(value.overlays) && parseCompareAlign(value.align) !== undefined
+        ? (value as unknown as CompareUpdateMessage)
+        : undefined;
+    case 'montecarlo/update':
+      return isRunsState(value.state) && Array.isArray(value.series) && Array.isArray(value.files) && isIndex(value.runs) &&
+        value.series.every((s) => isRecord(s) && isBufferLike(s.x) && isBufferLike(s.y) && isBufferLike(s.lo) && isBufferLike(s.hi))
+        ? (value as unknown as MonteCarloUpdateMessage)
+        : undefined;
     default:
       return undefined;
   }

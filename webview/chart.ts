@@ -20,6 +20,8 @@ export interface Theme {
   selected: string;
   reference: string;
   points: string;
+  /** One colour per compared run (A, B, C ...), cycled. */
+  runs: string[];
 }
 
 function cssVar(style: CSSStyleDeclaration, name: string, fallback: string): string {
@@ -54,6 +56,14 @@ export function readTheme(): Theme {
     selected: cssVar(s, '--vscode-charts-orange', '#d18616'),
     reference: cssVar(s, '--vscode-charts-purple', '#b180d7'),
     points: cssVar(s, '--vscode-charts-yellow', '#cca700'),
+    runs: [
+      cssVar(s, '--vscode-charts-blue', '#3794ff'),
+      cssVar(s, '--vscode-charts-orange', '#d18616'),
+      cssVar(s, '--vscode-charts-green', '#89d185'),
+      cssVar(s, '--vscode-charts-purple', '#b180d7'),
+      cssVar(s, '--vscode-charts-red', '#f14c4c'),
+      cssVar(s, '--vscode-charts-yellow', '#cca700'),
+    ],
   };
 }
 
@@ -473,5 +483,79 @@ export class HistogramChart {
   /** Release the chart. */
   destroy(): void {
     this.plot.destroy();
+  }
+}
+
+/** Options of an overlay of several runs' curves on one time axis. */
+export interface OverlayChartOptions {
+  label: string;
+  unit: string;
+  /** Legend label of each curve (e.g. `A warehouse-a.csv`), and its run index (for the colour). */
+  curves: { label: string; run: number }[];
+  /** Cursor sync key shared by the overlays of one view. */
+  syncKey: string;
+}
+
+/**
+ * Curves of the same quantity from several runs over one (common) time axis: one coloured line per run, drag to
+ * zoom, double click to reset. Data come merged on one x column (null where a run has no point).
+ */
+export class OverlayChart {
+  private plot: uPlot | undefined;
+  /** Points drawn by the last `setData` (all curves). */
+  points = 0;
+
+  constructor(private readonly container: HTMLElement, private readonly options: OverlayChartOptions, private width: number, private readonly theme: () => Theme) {}
+
+  /** Draw `x` with one y column per curve; returns the number of points drawn (non-null values). */
+  setData(x: readonly number[], ys: readonly (readonly (number | null)[])[]): number {
+    const { options, theme } = this;
+    this.plot?.destroy();
+    const series: uPlot.Series[] = [{}];
+    options.curves.forEach((c) => {
+      series.push({ label: c.label, stroke: () => theme().runs[c.run % theme().runs.length], width: 1.5, points: { show: false }, spanGaps: true });
+    });
+    const unit = options.unit && options.unit !== '1' ? options.unit : options.label.slice(0, 24);
+    this.plot = new uPlot(
+      {
+        width: this.width,
+        height: HEIGHT_PX,
+        series,
+        scales: { x: { time: false, range: safeRange(false) }, y: { auto: true, range: safeRange(false) } },
+        axes: [axis(theme, 'common time [s]'), axis(theme, unit)],
+        legend: { show: true, live: true },
+        cursor: {
+          sync: { key: options.syncKey, setSeries: false },
+          drag: { x: true, y: false, setScale: true },
+          bind: {
+            dblclick: (u) => () => {
+              u.setScale('x', { min: x[0] ?? 0, max: x[x.length - 1] ?? 1 });
+              return null;
+            },
+          },
+        },
+      },
+      [[...x], ...ys.map((c) => [...c])] as uPlot.AlignedData,
+      this.container,
+    );
+    this.points = ys.reduce((n, c) => n + c.filter((v) => v !== null).length, 0);
+    return this.points;
+  }
+
+  /** New width in CSS pixels. */
+  resize(width: number): void {
+    this.width = width;
+    this.plot?.setSize({ width, height: HEIGHT_PX });
+  }
+
+  /** Redraw with the current theme. */
+  redraw(): void {
+    this.plot?.redraw(false);
+  }
+
+  /** Release the chart. */
+  destroy(): void {
+    this.plot?.destroy();
+    this.plot = undefined;
   }
 }

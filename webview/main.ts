@@ -42,7 +42,8 @@ import {
   type WindowAction,
 } from './shape';
 import { notesView } from './notes';
-import { button, divider, progressRing, registerUi, tabs } from './ui';
+import { runsView } from './runs';
+import { button, divider, progressRing, registerUi, tabs, type Tabs } from './ui';
 import { panelApi } from './vscodeApi';
 
 /** Delay before linked charts re-query their envelopes after a zoom or pan, milliseconds. */
@@ -98,6 +99,7 @@ const pendingByRequest = new Map<number, Entry>();
 let requeryTimer: ReturnType<typeof setTimeout> | undefined;
 let extent: [number, number] = [0, 1];
 let firstRenderReported = false;
+let currentTabs: Tabs | undefined;
 
 function log(level: 'info' | 'warning' | 'error', message: string): void {
   panelApi.post({ type: 'log/write', level, message });
@@ -168,7 +170,9 @@ function render(message: InitMessage): void {
   if (!(extent[1] > extent[0])) extent = [extent[0], extent[0] + 1];
   if (view.window && !(view.window[0] < extent[1] && view.window[1] > extent[0])) view.window = undefined;
 
-  const groups = groupViews(message.series, report);
+  const groups = [...groupViews(message.series, report), { id: 'compare', label: 'Compare', series: [] }, { id: 'montecarlo', label: 'Monte Carlo', series: [] }];
+  const wanted = runsView.takeWanted();
+  if (wanted) view.view = wanted;
   const active = groups.some((g) => g.id === view.view) ? (view.view as string) : 'overview';
   const t = tabs(
     groups.map((g) => ({ id: g.id, label: g.label, count: g.id === 'overview' ? report.findings.length : undefined })),
@@ -182,13 +186,31 @@ function render(message: InitMessage): void {
   header.append(exportButtons((format) => panelApi.post({ type: 'report/export', format })));
   if (message.notice) header.append(el('p', { class: 'notice', role: 'status' }, message.notice));
   app.replaceChildren(header, t.root);
+  currentTabs = t;
 
   const width = chartWidth();
   for (const g of groups) {
     const host = t.views.get(g.id);
     if (!host) continue;
     if (g.id === 'overview') buildOverview(host, message);
-    else buildGroup(host, g.id, g.series, message, width);
+    else if (g.id !== 'compare' && g.id !== 'montecarlo') buildGroup(host, g.id, g.series, message, width);
+  }
+  const compareHost = t.views.get('compare');
+  const monteCarloHost = t.views.get('montecarlo');
+  if (compareHost && monteCarloHost) {
+    runsView.mount(
+      {
+        width: chartWidth,
+        theme: () => theme,
+        focus: (id) => {
+          view.view = id;
+          persist();
+          currentTabs?.select(id);
+        },
+      },
+      compareHost,
+      monteCarloHost,
+    );
   }
   app.dataset.state = 'ready';
   app.setAttribute('aria-busy', 'false');
@@ -546,6 +568,12 @@ function onMessage(msg: HostToWebviewMessage): void {
       notesView.update(msg);
       for (const e of entries) e.chart.redraw();
       break;
+    case 'compare/update':
+      runsView.compare(msg);
+      break;
+    case 'montecarlo/update':
+      runsView.monteCarlo(msg);
+      break;
   }
 }
 
@@ -574,12 +602,14 @@ function start(): void {
       if (w === lastWidth) return; // e.g. a scrollbar came or went: nothing to redraw
       lastWidth = w;
       for (const e of entries) e.chart.resize(w);
+      runsView.resize(w);
       requeryTimeCharts();
     }, 150);
   });
   new MutationObserver(() => {
     theme = readTheme();
     for (const e of entries) e.chart.redraw();
+    runsView.redraw();
   }).observe(document.body, { attributes: true, attributeFilter: ['class'] });
   window.addEventListener('error', (e) => log('error', `${e.message} (${e.filename}:${e.lineno})`));
   panelApi.post(view.view || view.window || view.cursor_s !== undefined ? { type: 'ready', view } : { type: 'ready' });

@@ -1,12 +1,11 @@
 /**
- * Panel commands of the report export and the run comparison:
- * - `residuum.exportReport`: the current analysis as the self-contained HTML report or the Markdown summary
- *   (core/export), to a file chosen in a save dialog, written atomically.
- * - `residuum.compareRuns`: two or more logs chosen in an open dialog, compared on their common span
- *   (core/compareRuns), shown in a comparison view (the same self-contained HTML: tables and overlay charts, no
- *   script), with "Save HTML..." and "Save Markdown..." actions.
- * The comparison analyses the logs in the extension host (it needs the logs themselves to crop them to the common
- * span), under a cancellable progress notification.
+ * Panel commands of the report export, the run comparison and the Monte Carlo check:
+ * - `residuum.exportReport [format] [target]`: the current analysis as the self-contained HTML report or the Markdown
+ *   summary (core/export), to a file chosen in a save dialog (or `target`), written atomically.
+ * - `residuum.compareRuns`: logs compared on their common span in the analysis panel's compare view.
+ * - `residuum.exportComparison [format] [target]`: the compare view's comparison as HTML or Markdown.
+ * - `residuum.monteCarlo`: N runs of one scenario (a folder or several logs) in the panel's Monte Carlo view.
+ * The comparison and the Monte Carlo check run in the analysis worker thread (panel.ts), never on this thread.
  */
 import * as path from 'node:path';
 import * as vscode from 'vscode';
@@ -14,16 +13,19 @@ import type { Report } from '../core/report';
 import type { Series } from '../core/series';
 import { renderReportHtml, renderComparisonHtml } from '../core/export/html';
 import { renderReportMarkdown, renderComparisonMarkdown } from '../core/export/markdown';
-import { compareRuns, type AnalysedRun, type Comparison } from '../core/compareRuns';
-import { resolveSettings } from '../core/settings';
-import { analyzeFile } from '../node/analyzeFile';
+import { parseCompareAlign } from '../protocol';
 import { writeAtomic } from '../node/writeAtomic';
 import type { PanelManager } from './panels';
+import { expandRunUris, pickCompareRuns, pickMonteCarloRuns, urisOfArgs } from './runsPick';
 
 /** Command ids (package.json contributes them). */
 export const EXPORT_REPORT_COMMAND = 'residuum.exportReport';
 /** Command id of the comparison. */
 export const COMPARE_RUNS_COMMAND = 'residuum.compareRuns';
+/** Command id of the comparison's export (the compare view's buttons). */
+export const EXPORT_COMPARISON_COMMAND = 'residuum.exportComparison';
+/** Command id of the Monte Carlo check. */
+export const MONTE_CARLO_COMMAND = 'residuum.monteCarlo';
 
 /** Write text to a chosen file: atomically on the local disk, through the workspace file system elsewhere. */
 async function save(target: vscode.Uri, text: string): Promise<void> {
@@ -32,8 +34,8 @@ async function save(target: vscode.Uri, text: string): Promise<void> {
 }
 
 /** Ask where to save and write the HTML or the Markdown form, chosen by the file's extension. */
-async function saveAs(base: vscode.Uri, stem: string, html: () => string, md: () => string, output: vscode.LogOutputChannel, prefer: 'html' | 'md' = 'html'): Promise<void> {
-  const target = await vscode.window.showSaveDialog({
+async function saveAs(base: vscode.Uri, stem: string, html: () => string, md: () => string, output: vscode.LogOutputChannel, prefer: 'html' | 'md' = 'html', given?: vscode.Uri): Promise<void> {
+  const target = given ?? await vscode.window.showSaveDialog({
     title: 'Residuum: export the report',
     saveLabel: 'Export',
     defaultUri: vscode.Uri.joinPath(base, `${stem}.${prefer === 'md' ? 'md' : 'html'}`),
@@ -58,7 +60,7 @@ function folderOf(uri: vscode.Uri): vscode.Uri {
 }
 
 /** Export the current panel's analysis. */
-async function exportReport(manager: PanelManager, output: vscode.LogOutputChannel, format: unknown): Promise<void> {
+async function exportReport(manager: PanelManager, output: vscode.LogOutputChannel, format: unknown, target?: vscode.Uri): Promise<void> {
   const panel = manager.current();
   const report: Report | undefined = panel?.report;
   const series: readonly Series[] | undefined = panel?.series;
@@ -67,83 +69,66 @@ async function exportReport(manager: PanelManager, output: vscode.LogOutputChann
     return;
   }
   const stem = `${path.posix.basename(panel.uri.path).replace(/\.[^.]+$/, '')}.report`;
-  await saveAs(folderOf(panel.uri), stem, () => renderReportHtml(report, [...series], { exportedAt: new Date().toISOString() }), () => renderReportMarkdown(report), output, format === 'md' ? 'md' : 'html');
+  await saveAs(folderOf(panel.uri), stem, () => renderReportHtml(report, [...series], { exportedAt: new Date().toISOString() }), () => renderReportMarkdown(report), output, format === 'md' ? 'md' : 'html', target);
 }
 
-const COMPARE_VIEW_TYPE = 'residuum.comparison';
-
-/** Show a comparison in a webview without scripts (the page's own CSP allows nothing but its inline style). */
-function showComparison(c: Comparison, output: vscode.LogOutputChannel): void {
-  const title = `Residuum: compare ${c.runs.map((r) => path.basename(r.path)).join(' vs ')}`;
-  const panel = vscode.window.createWebviewPanel(COMPARE_VIEW_TYPE, title, vscode.ViewColumn.Beside, { enableScripts: false, localResourceRoots: [] });
-  panel.webview.html = renderComparisonHtml(c);
-  const base = vscode.Uri.file(path.dirname(c.runs[0].path));
-  void vscode.window.showInformationMessage(`Residuum: ${c.runs.length} runs compared on their common span.`, 'Save HTML...', 'Save Markdown...').then((choice) => {
-    if (!choice) return;
-    return saveAs(base, 'comparison', () => renderComparisonHtml(c, { exportedAt: new Date().toISOString() }), () => renderComparisonMarkdown(c), output, choice === 'Save Markdown...' ? 'md' : 'html');
-  });
+/**
+ * Compare runs in the analysis panel's compare view: the first log's panel opens (or is revealed) and the others
+ * are compared with it, analysed in the worker thread. From the explorer: the selected logs (one selected: the
+ * dialog asks for the others); from the palette: the active panel's log and runs chosen in a dialog (no panel: two
+ * or more logs chosen in a dialog). An alignment `{ by: 'time' | 'start' | 'event', kind }` may follow the URIs.
+ */
+async function compareCommand(manager: PanelManager, args: unknown[]): Promise<void> {
+  let uris = urisOfArgs(args);
+  const align = args.map(parseCompareAlign).find((a) => a !== undefined);
+  let base = uris[0] ?? manager.current()?.uri;
+  if (!base) {
+    uris = await pickCompareRuns(undefined);
+    base = uris[0];
+    if (!base) return;
+  }
+  let others = uris.filter((u) => u.toString() !== base.toString());
+  if (others.length === 0) others = await pickCompareRuns(base);
+  if (others.length === 0) {
+    void vscode.window.showInformationMessage('Residuum: choose one or more other runs to compare with this log.');
+    return;
+  }
+  await manager.open(base).compareWith(others, align);
 }
 
-/** Pick two or more logs, compare them aligned by start, show the comparison. */
-async function compareCommand(output: vscode.LogOutputChannel, args: unknown[]): Promise<void> {
-  // From the explorer: (clicked, all selected); from the palette: nothing.
-  const given = Array.isArray(args[1]) ? (args[1] as unknown[]) : args;
-  let uris = given.filter((a): a is vscode.Uri => a instanceof vscode.Uri);
-  if (uris.length < 2) {
-    const picked = await vscode.window.showOpenDialog({
-      canSelectMany: true,
-      openLabel: 'Compare',
-      title: 'Residuum: choose two or more estimator logs to compare',
-      filters: { 'Estimator logs': ['csv', 'jsonl', 'ndjson', 'json'], 'All files': ['*'] },
-    });
-    uris = picked ?? [];
-  }
-  if (uris.length < 2) {
-    if (uris.length === 1) void vscode.window.showInformationMessage('Residuum: choose two or more logs to compare.');
+/**
+ * Monte Carlo consistency of N runs of one scenario in the panel of the first run: from the explorer, a folder (its
+ * logs) or several selected logs; from the palette, a folder or logs chosen in a dialog.
+ */
+async function monteCarloCommand(manager: PanelManager, args: unknown[]): Promise<void> {
+  let uris = urisOfArgs(args);
+  if (uris.length === 0) uris = await pickMonteCarloRuns(manager.current()?.uri);
+  if (uris.length === 0) return;
+  const runs = await expandRunUris(uris);
+  if (runs.length < 2) {
+    void vscode.window.showErrorMessage(`Residuum: a Monte Carlo check needs two or more runs of the same scenario; ${runs.length === 0 ? 'no logs were found' : 'one log was given'}.`);
     return;
   }
-  const local = uris.filter((u) => u.scheme === 'file');
-  if (local.length !== uris.length) {
-    void vscode.window.showErrorMessage('Residuum reads logs from the local disk; other schemes are not supported yet.');
+  await manager.open(runs[0]).monteCarlo(runs);
+}
+
+/** Export the comparison shown in the current panel's compare view. */
+async function exportComparison(manager: PanelManager, output: vscode.LogOutputChannel, format: unknown, target?: vscode.Uri): Promise<void> {
+  const panel = manager.current();
+  const c = panel?.comparison;
+  if (!panel || !c) {
+    void vscode.window.showInformationMessage('Residuum: compare runs in the panel first (Add runs... in its Compare view).');
     return;
   }
-  const alignPick = await vscode.window.showQuickPick(
-    [
-      { label: 'Start', description: 'each run from its first epoch', by: 'start' as const },
-      { label: 'Log time', description: 'the logs share one clock', by: 'time' as const },
-    ],
-    { title: 'Residuum: align the runs by' },
-  );
-  if (!alignPick) return;
-  await vscode.window.withProgress({ location: vscode.ProgressLocation.Notification, title: 'Residuum: comparing runs', cancellable: true }, async (progress, token) => {
-    const controller = new AbortController();
-    token.onCancellationRequested(() => controller.abort());
-    const runs: AnalysedRun[] = [];
-    try {
-      for (const [i, u] of local.entries()) {
-        progress.report({ message: `${i + 1} of ${local.length}: ${path.basename(u.fsPath)}`, increment: 100 / (local.length + 1) });
-        runs.push(await analyzeFile(u.fsPath, { signal: controller.signal }));
-      }
-    } catch (e) {
-      if (controller.signal.aborted) return;
-      const message = e instanceof Error ? e.message : String(e);
-      output.error(`comparison failed: ${message}`);
-      void vscode.window.showErrorMessage(`Residuum: ${message}`);
-      return;
-    }
-    const result = compareRuns(runs, runs.map(() => resolveSettings()), { by: alignPick.by });
-    if (!result.ok) {
-      void vscode.window.showErrorMessage(`Residuum: cannot compare: ${result.message}`);
-      return;
-    }
-    showComparison(result.comparison, output);
-  });
+  await saveAs(folderOf(panel.uri), 'comparison', () => renderComparisonHtml(c, { exportedAt: new Date().toISOString() }), () => renderComparisonMarkdown(c), output, format === 'md' ? 'md' : 'html', target);
 }
 
 /** Register the export and comparison commands. */
 export function registerExportCommands(manager: PanelManager, output: vscode.LogOutputChannel): vscode.Disposable {
   return vscode.Disposable.from(
-    vscode.commands.registerCommand(EXPORT_REPORT_COMMAND, (format?: unknown) => exportReport(manager, output, format)),
-    vscode.commands.registerCommand(COMPARE_RUNS_COMMAND, (...args: unknown[]) => compareCommand(output, args)),
+    vscode.commands.registerCommand(EXPORT_REPORT_COMMAND, (format?: unknown, target?: unknown) => exportReport(manager, output, format, target instanceof vscode.Uri ? target : undefined)),
+    vscode.commands.registerCommand(EXPORT_COMPARISON_COMMAND, (format?: unknown, target?: unknown) => exportComparison(manager, output, format, target instanceof vscode.Uri ? target : undefined)),
+    vscode.commands.registerCommand(COMPARE_RUNS_COMMAND, (...args: unknown[]) => compareCommand(manager, args)),
+    vscode.commands.registerCommand(MONTE_CARLO_COMMAND, (...args: unknown[]) => monteCarloCommand(manager, args)),
   );
 }

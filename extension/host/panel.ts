@@ -11,9 +11,13 @@ import * as vscode from 'vscode';
 import type { Diagnostic as ReaderDiagnostic } from '../core/model';
 import type { Report, WorstEntry } from '../core/report';
 import type { Series } from '../core/series';
+import type { Comparison } from '../core/compareRuns';
 import {
   assertNever,
   parseWebviewMessage,
+  type CompareAlign,
+  type CompareUpdateMessage,
+  type MonteCarloUpdateMessage,
   type HostToWebviewMessage,
   type HistogramInfo,
   type InitMessage,
@@ -25,7 +29,9 @@ import { nisHistogram } from './histogram';
 import { notesPanelHooks } from './notesPanelHook';
 import { panelHtml, webviewOptions } from './html';
 import { stepIndex } from './ranking';
-import { AnalysisError, runAnalysis, type AnalysisResult } from './runAnalysis';
+import { AnalysisError, runAnalysis, runComparison, runMonteCarlo, type AnalysisResult } from './runAnalysis';
+import { compareReadyMessage, compareStateMessage, monteCarloReadyMessage, monteCarloStateMessage } from './runsMessages';
+import { expandRunUris, pickCompareRuns, pickMonteCarloRuns } from './runsPick';
 import { SeriesStore } from './seriesStore';
 
 /** The panel's webview type (also the serializer's). */
@@ -67,6 +73,17 @@ export class AnalysisPanel {
   private reloadTimer: ReturnType<typeof setTimeout> | undefined;
   private disposed = false;
   private config: EditorConfiguration;
+  /** Other runs compared with this log (local paths, in the order added). */
+  private compareFiles: string[] = [];
+  private compareAlign: CompareAlign = { by: 'time' };
+  private compareView: CompareUpdateMessage | undefined;
+  private comparing: AbortController | undefined;
+  /** The latest comparison (for its export). */
+  private comparisonResult: Comparison | undefined;
+  private monteCarloView: MonteCarloUpdateMessage | undefined;
+  private monteCarloRunning: AbortController | undefined;
+  /** A view of several runs to show once the webview listens. */
+  private pendingFocus: 'compare' | 'montecarlo' | undefined;
   private settleLoaded: () => void = () => undefined;
   /** Settles when the first analysis finished, failed or was cancelled. */
   readonly loaded: Promise<void> = new Promise((resolve) => (this.settleLoaded = resolve));
@@ -168,11 +185,115 @@ export class AnalysisPanel {
     return abs === logPath ? this.uri : vscode.Uri.file(abs);
   }
 
+  /** The latest comparison shown in the compare view, if any. */
+  get comparison(): Comparison | undefined {
+    return this.comparisonResult;
+  }
+
+  /** The compare view's and the Monte Carlo view's states, for in-host tests. */
+  runsState(): { compare?: CompareUpdateMessage['state']; compareRuns: number; monteCarlo?: MonteCarloUpdateMessage['state']; monteCarloRuns: number } {
+    return {
+      compare: this.compareView?.state,
+      compareRuns: this.compareView?.runs.length ?? 0,
+      monteCarlo: this.monteCarloView?.state,
+      monteCarloRuns: this.monteCarloView?.runs ?? 0,
+    };
+  }
+
+  /**
+   * Add runs to this log's comparison (the panel's own log and runs already there are skipped) and compare again
+   * in the worker; the compare view is shown. Resolves when the comparison is shown or failed.
+   */
+  async compareWith(uris: readonly vscode.Uri[], align?: CompareAlign): Promise<void> {
+    for (const u of uris) {
+      if (u.scheme !== 'file') {
+        this.host.output.warn(`compare: ${u.toString()} is not on the local disk; left out`);
+        continue;
+      }
+      if (u.fsPath !== this.uri.fsPath && !this.compareFiles.includes(u.fsPath)) this.compareFiles.push(u.fsPath);
+    }
+    if (align) this.compareAlign = align;
+    await this.runCompare(true);
+  }
+
+  /** Check N runs of one scenario together (Monte Carlo) and show the result in this panel's Monte Carlo view. */
+  async monteCarlo(uris: readonly vscode.Uri[]): Promise<void> {
+    const local = uris.filter((u) => u.scheme === 'file').map((u) => u.fsPath);
+    const paths = local.includes(this.uri.fsPath) ? local : [this.uri.fsPath, ...local];
+    this.monteCarloRunning?.abort();
+    if (paths.length < 2) {
+      this.setMonteCarlo(monteCarloStateMessage('error', paths, 'A Monte Carlo check needs two or more runs of the same scenario (a folder of logs, or several logs).', true));
+      return;
+    }
+    const controller = new AbortController();
+    this.monteCarloRunning = controller;
+    this.setMonteCarlo(monteCarloStateMessage('loading', paths, `Reading ${paths.length} runs…`, true));
+    const workerFile = vscode.Uri.joinPath(this.host.extensionUri, 'dist', 'analysisWorker.js').fsPath;
+    try {
+      const result = await vscode.window.withProgress({ location: vscode.ProgressLocation.Window, title: `$(sync~spin) Residuum: Monte Carlo over ${paths.length} runs` }, () =>
+        runMonteCarlo(workerFile, { kind: 'montecarlo', paths, map: this.mapPath(), settings: this.config.analysis }, () => undefined, controller.signal),
+      );
+      if (this.disposed || controller.signal.aborted) return;
+      this.setMonteCarlo(monteCarloReadyMessage(result.block, paths, true));
+      this.host.output.info(`Monte Carlo over ${paths.length} runs: ${Object.keys(result.block.nees).length} NEES blocks, ${Object.keys(result.block.nis).length} NIS channels`);
+    } catch (e) {
+      if (this.disposed || (e instanceof DOMException && e.name === 'AbortError')) return;
+      const message = e instanceof Error ? e.message : String(e);
+      this.host.output.error(`Monte Carlo check failed: ${message}`);
+      this.setMonteCarlo(monteCarloStateMessage('error', paths, message, true));
+    } finally {
+      if (this.monteCarloRunning === controller) this.monteCarloRunning = undefined;
+    }
+  }
+
+  private setMonteCarlo(m: MonteCarloUpdateMessage): void {
+    this.monteCarloView = { ...m, focus: false };
+    if (!this.post(m) && m.focus) this.pendingFocus = 'montecarlo';
+  }
+
+  private setCompare(m: CompareUpdateMessage): void {
+    this.compareView = { ...m, focus: false };
+    if (!this.post(m) && m.focus) this.pendingFocus = 'compare';
+  }
+
+  private async runCompare(focus: boolean): Promise<void> {
+    this.comparing?.abort();
+    const paths = [this.uri.fsPath, ...this.compareFiles];
+    if (this.compareFiles.length === 0) {
+      this.comparisonResult = undefined;
+      this.setCompare(compareStateMessage('empty', paths, this.compareAlign, undefined, focus));
+      return;
+    }
+    const controller = new AbortController();
+    this.comparing = controller;
+    this.setCompare(compareStateMessage('loading', paths, this.compareAlign, `Comparing ${paths.length} runs…`, focus));
+    const workerFile = vscode.Uri.joinPath(this.host.extensionUri, 'dist', 'analysisWorker.js').fsPath;
+    try {
+      const result = await vscode.window.withProgress({ location: vscode.ProgressLocation.Window, title: `$(sync~spin) Residuum: comparing ${paths.length} runs` }, () =>
+        runComparison(workerFile, { kind: 'compare', paths, align: this.compareAlign, map: this.mapPath(), settings: this.config.analysis }, () => undefined, controller.signal),
+      );
+      if (this.disposed || controller.signal.aborted) return;
+      this.comparisonResult = result.comparison;
+      this.setCompare(compareReadyMessage(result.comparison, result.eventKinds, focus));
+      this.host.output.info(`compared ${paths.length} runs on ${result.comparison.span.start}..${result.comparison.span.end} s (${result.comparison.figures.length} figures)`);
+    } catch (e) {
+      if (this.disposed || (e instanceof DOMException && e.name === 'AbortError')) return;
+      const message = e instanceof Error ? e.message : String(e);
+      this.host.output.error(`comparison failed: ${message}`);
+      this.comparisonResult = undefined;
+      this.setCompare(compareStateMessage('error', paths, this.compareAlign, message, focus));
+    } finally {
+      if (this.comparing === controller) this.comparing = undefined;
+    }
+  }
+
   /** Close the panel and release everything. */
   dispose(): void {
     if (this.disposed) return;
     this.disposed = true;
     this.loading?.abort();
+    this.comparing?.abort();
+    this.monteCarloRunning?.abort();
     if (this.reloadTimer) clearTimeout(this.reloadTimer);
     this.host.didDispose(this);
     notesPanelHooks.onDisposed?.(this);
@@ -185,9 +306,11 @@ export class AnalysisPanel {
     return readConfiguration((key) => cfg.get(key));
   }
 
-  private post(message: HostToWebviewMessage): void {
-    if (!this.ready || this.disposed) return;
+  /** Post to the webview; false when it is not listening yet (or gone). */
+  private post(message: HostToWebviewMessage): boolean {
+    if (!this.ready || this.disposed) return false;
     void this.panel.webview.postMessage(message);
+    return true;
   }
 
   private mapPath(): string | undefined {
@@ -278,6 +401,14 @@ export class AnalysisPanel {
     notesPanelHooks.onAnalysed?.(this);
   }
 
+  /** The views of several runs again (after the webview reloaded; it keeps nothing while hidden). */
+  private resendRuns(): void {
+    const focus = this.pendingFocus;
+    this.pendingFocus = undefined;
+    if (this.compareView) this.post({ ...this.compareView, focus: focus === 'compare' });
+    if (this.monteCarloView) this.post({ ...this.monteCarloView, focus: focus === 'montecarlo' });
+  }
+
   private sendInit(notice: string | undefined): void {
     if (!this.result || !this.store) return;
     const r = this.result;
@@ -294,6 +425,7 @@ export class AnalysisPanel {
     };
     if (notice) message.notice = notice;
     this.post(message);
+    this.resendRuns();
   }
 
   private fail(message: string): void {
@@ -337,6 +469,27 @@ export class AnalysisPanel {
         break;
       case 'report/export':
         void vscode.commands.executeCommand('residuum.exportReport', msg.format);
+        break;
+      case 'compare/add':
+        void pickCompareRuns(this.uri).then((uris) => (uris.length ? this.compareWith(uris) : undefined));
+        break;
+      case 'compare/align':
+        this.compareAlign = msg.align;
+        void this.runCompare(false);
+        break;
+      case 'compare/remove':
+        if (msg.run - 1 < this.compareFiles.length) {
+          this.compareFiles.splice(msg.run - 1, 1);
+          void this.runCompare(false);
+        } else this.host.output.warn(`ignored compare/remove: no run #${msg.run}`);
+        break;
+      case 'compare/export':
+        void vscode.commands.executeCommand('residuum.exportComparison', msg.format);
+        break;
+      case 'montecarlo/pick':
+        void pickMonteCarloRuns(this.uri)
+          .then((uris) => expandRunUris(uris))
+          .then((uris) => (uris.length ? this.monteCarlo(uris) : undefined));
         break;
       default:
         assertNever(msg);

@@ -61,6 +61,8 @@ export declare function openWorkbench(page: Page, workbenchUrl: string): Promise
 export declare function runCommand(page: Page, title: string, opts?: { attempts?: number; opensQuickInput?: boolean }): Promise<void>;
 /** Runs "Residuum: Open Log Analysis" and answers its file dialog with an absolute path. */
 export declare function openLogViaDialog(page: Page, file: string): Promise<void>;
+/** Answers VS Code's simple file dialog (open or save) with an absolute path. */
+export declare function answerFileDialog(page: Page, file: string): Promise<void>;
 /** Switches the colour theme through the palette. */
 export declare function pickColorTheme(page: Page, themeLabel: string): Promise<void>;
 /** The panel's inner document. */

@@ -327,6 +327,23 @@ export async function openLogViaDialog(page, file) {
 }
 
 /**
+ * Answers VS Code's simple file dialog (open or save; code-server has no native one), shown as a quick input
+ * holding a path, with `file`: waits for the dialog's starting path, types `file`, waits for it to settle, accepts.
+ * @param {import('playwright-core').Page} page
+ * @param {string} file  absolute path
+ */
+export async function answerFileDialog(page, file) {
+  const widget = page.locator('.quick-input-widget');
+  const input = widget.locator('input.input');
+  await input.waitFor({ state: 'visible', timeout: 15_000 });
+  await page.waitForFunction((sel) => document.querySelector(sel)?.value?.startsWith('/'), '.quick-input-widget input.input', { timeout: 10_000 });
+  await input.fill(file);
+  await page.waitForFunction(([sel, want]) => document.querySelector(sel)?.value === want, ['.quick-input-widget input.input', file], { timeout: 10_000 });
+  await input.press('Enter');
+  await widget.waitFor({ state: 'hidden', timeout: 10_000 });
+}
+
+/**
  * Switches the colour theme through the palette ("Preferences: Color Theme"), as a user would.
  * @param {import('playwright-core').Page} page
  * @param {string} themeLabel  a theme id, e.g. THEMES.dark
