@@ -27,7 +27,7 @@ export function notesForReport(logPath: string, log: NavLog, io: NotesFs = nodeN
   }
   if (read.problems.length) {
     const p = read.problems[0];
-    const finding: Finding = { kind: 'note', severity: 'warning', file, message: `notes not included (nor the resets confirmed in them): ${p.message}` };
+    const finding: Finding = { kind: 'note', severity: 'warning', file, message: `notes not included: ${p.message} (nor the filter resets confirmed in it)` };
     if (p.line >= 1) finding.line = p.line;
     if (p.column !== undefined && p.column >= 1) finding.column = p.column;
     return { notes: [], finding, resets: [] };
