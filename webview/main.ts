@@ -42,6 +42,7 @@ import {
   type WindowAction,
 } from './shape';
 import { notesView } from './notes';
+import { resetAction, resetsSection } from './resets';
 import { button, divider, progressRing, registerUi, tabs } from './ui';
 import { panelApi } from './vscodeApi';
 
@@ -230,8 +231,10 @@ function buildOverview(host: HTMLElement, message: InitMessage): void {
 
   host.append(el('h2', { id: 'findings-heading' }, `Findings (${report.findings.length})`));
   const findings = el('ol', { 'data-testid': 'findings-list', class: 'pick-list', 'aria-labelledby': 'findings-heading' });
-  report.findings.forEach((f) => findings.append(el('li', { class: `finding kind-${safeClass(f.kind)}` }, findingItem(f, message.files))));
+  report.findings.forEach((f) => findings.append(el('li', { class: `finding kind-${safeClass(f.kind)}` }, findingItem(f, message.files), ...[resetAction(f)].filter((x): x is HTMLButtonElement => x !== undefined))));
   host.append(report.findings.length ? findings : el('p', {}, 'No findings.'));
+  const resets = resetsSection(report);
+  if (resets) host.append(resets);
   host.append(divider());
   notesView.mount(host, message, () => view, (t) => select(t, undefined));
 }
