@@ -47,7 +47,7 @@ describe('a reset confirmed in the sidecar splits the analysis', () => {
     expect(r1.confirmed).toEqual([60]);
     expect(r1.segments.map((s) => [s.t, s.start])).toEqual([[0, 'log'], [60, 'confirmed']]);
     expect(r1.candidates[0].confirmed).toBe(true);
-    const segs = (second.report.errors as { segments: { t: number; velocity?: { convergence: { settleTime?: number } } }[] }).segments;
+    const segs = (second.report.errors as unknown as { segments: { t: number; velocity?: { convergence: { settleTime?: number } } }[] }).segments;
     expect(segs.map((s) => s.t)).toEqual([0, 60]);
     for (const s of segs) expect(s.velocity?.convergence.settleTime).toBeGreaterThan(0);
     expect((second.report.notes as { reset?: boolean; line?: number }[]).map((n) => [n.reset, n.line])).toEqual([[true, 602]]);
