@@ -216,6 +216,8 @@ function buildOverview(host: HTMLElement, message: InitMessage): void {
   channels.classList.add('channels');
   rows.forEach((r, i) => channels.tBodies[0]?.rows[i]?.classList.add(`verdict-${r.verdict}`));
   host.append(el('h2', {}, 'Consistency at a glance'), rows.length ? channels : el('p', {}, 'No measurement channels in this log.'));
+  const resets = resetsSection(report);
+  if (resets) host.append(resets);
 
   host.append(el('h2', { id: 'worst-heading' }, `Worst epochs (${report.worst.length})`));
   const worst = el('ol', { 'data-testid': 'worst-list', class: 'pick-list', 'aria-labelledby': 'worst-heading' });
@@ -233,8 +235,6 @@ function buildOverview(host: HTMLElement, message: InitMessage): void {
   const findings = el('ol', { 'data-testid': 'findings-list', class: 'pick-list', 'aria-labelledby': 'findings-heading' });
   report.findings.forEach((f) => findings.append(el('li', { class: `finding kind-${safeClass(f.kind)}` }, findingItem(f, message.files), ...[resetAction(f)].filter((x): x is HTMLButtonElement => x !== undefined))));
   host.append(report.findings.length ? findings : el('p', {}, 'No findings.'));
-  const resets = resetsSection(report);
-  if (resets) host.append(resets);
   host.append(divider());
   notesView.mount(host, message, () => view, (t) => select(t, undefined));
 }

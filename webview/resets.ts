@@ -26,6 +26,29 @@ function fmt(t: number): string {
 
 const START_TEXT = { log: 'start of the log', logged: 'reset written in the log', confirmed: 'reset you confirmed' } as const;
 
+/** Per-segment figures of the report (errors.segments by block, channels[].nis.segments), in one line of text. */
+function segmentFigures(report: Report, t: number): string {
+  const parts: string[] = [];
+  const segs = (report.errors as { segments?: Record<string, unknown>[] } | undefined)?.segments ?? [];
+  const e = segs.find((x) => x.t === t);
+  for (const block of ['position', 'velocity', 'orientation'] as const) {
+    const b = e?.[block] as { nees?: { mean?: number }; convergence?: { settleTime?: number; rate?: number } } | undefined;
+    if (!b) continue;
+    const c = b.convergence;
+    const settle = c?.settleTime !== undefined ? `settles in ${fmt(Number(c.settleTime.toFixed(2)))} s` : 'does not settle';
+    const rate = c?.rate !== undefined ? ` (rate ${c.rate.toPrecision(2)}/s)` : '';
+    const nees = b.nees?.mean !== undefined ? `, NEES ${b.nees.mean.toPrecision(3)}` : '';
+    parts.push(`${block} ${settle}${rate}${nees}`);
+  }
+  for (const ch of report.channels) {
+    const ns = (ch.nis as { segments?: { t: number; mean?: number }[] }).segments;
+    // NIS segments start at the channel's first update in the segment, at or after the segment's start
+    const mine = ns?.filter((x) => x.t >= t).sort((a, b) => a.t - b.t)[0];
+    if (mine?.mean !== undefined) parts.push(`${ch.name} NIS ${mine.mean.toPrecision(3)} (${ch.dof} dof)`);
+  }
+  return parts.length ? ` · ${parts.join(' · ')}` : '';
+}
+
 /** A "Treat as reset" button for the epoch at `t` (disabled once pressed, until the new analysis arrives). */
 function confirmButton(t: number, factor?: number, block?: string): HTMLButtonElement {
   const b = el('button', { type: 'button', 'data-testid': 'reset-confirm', 'data-t': String(t), title: 'Start a new segment here: stored with the log in its notes file, and the run is analysed again' }, 'Treat as reset');
@@ -66,7 +89,8 @@ export function resetsSection(report: Report): HTMLElement | undefined {
   section.append(el('p', {}, 'A filter restart starts a new segment; convergence and consistency are computed per segment, and no window spans a restart.'));
   const list = el('ol', { 'data-testid': 'segments' });
   for (const s of segments) {
-    const li = el('li', { 'data-t': String(s.t), 'data-start': s.start }, `t = ${fmt(s.t)} to ${fmt(s.tEnd)} s, ${s.epochs} epochs (${START_TEXT[s.start] ?? s.start}) `);
+    const figures = segments.length > 1 ? segmentFigures(report, s.t) : '';
+    const li = el('li', { 'data-t': String(s.t), 'data-start': s.start }, `t = ${fmt(s.t)} to ${fmt(s.tEnd)} s, ${s.epochs} epochs (${START_TEXT[s.start] ?? s.start})${figures} `);
     if (s.start === 'confirmed') li.append(unconfirmButton(s.t));
     list.append(li);
   }

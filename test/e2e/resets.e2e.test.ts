@@ -88,6 +88,11 @@ describe('filter resets in a real VS Code', () => {
     await f.locator('[data-testid="resets"][data-segments="2"]').waitFor({ state: 'attached', timeout: 120_000 });
     const starts = await f.locator('[data-testid="segments"] li').evaluateAll((els) => els.map((e) => [e.getAttribute('data-t'), e.getAttribute('data-start')]));
     expect(starts).toEqual([['0', 'log'], ['60', 'confirmed']]);
+    // each segment with its own convergence and consistency figures
+    for (const text of await f.locator('[data-testid="segments"] li').allTextContents()) {
+      expect(text).toMatch(/position settles in [0-9.]+ s \(rate [0-9.e-]+\/s\), NEES [0-9.]+/);
+      expect(text).toMatch(/pos NIS [0-9.]+ \(3 dof\)/);
+    }
     expect(await f.locator('[data-testid="findings-list"] [data-testid="reset-confirm"]').count()).toBe(0);
     await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'resets-two-segments.png') });
 
