@@ -14,6 +14,7 @@ import { slidingAverage, windowTest } from '../../../extension/core/consistency/
 import { analyzeFile } from '../../../extension/node/analyzeFile';
 import type { ErrorsBlock } from '../../../extension/core/errors/index';
 import type { ResetsBlock } from '../../../extension/core/resets/index';
+import { worstSettleTime } from '../../../extension/core/gate';
 import { reportProblems } from '../../helpers/reportSchema';
 import { navLog, stateStream } from '../errors/fixtures';
 import { simulateKf } from './simKf';
@@ -147,6 +148,16 @@ describe('confirmed resets split the run; convergence and consistency per segmen
       expect(s.inside95).toBeGreaterThan(0.92);
     }
     expect(report.findings.filter((x) => x.kind === 'inconsistent')).toEqual([]);
+  });
+
+  it('the settling-time gate looks at every segment, not only the first', () => {
+    const { report } = analyzeLog(log, resolveSettings({ confirmedResets_s: [tReset] }));
+    const e = report.errors as unknown as ErrorsBlock;
+    const all = e.segments.flatMap((s) => [s.position, s.velocity].map((b) => b?.convergence.settleTime ?? -Infinity));
+    const firstOnly = Math.max(...[e.convergence.position, e.convergence.velocity].map((c) => c?.settleTime ?? -Infinity));
+    expect(worstSettleTime(report)).toBe(Math.max(...all));
+    // seed 7: the velocity of the second segment settles later than anything in the first
+    expect(Math.max(...all)).toBeGreaterThan(firstOnly);
   });
 
   it('effectiveResets joins the log own resets and the confirmed ones; a logged reset marks its candidate', () => {
