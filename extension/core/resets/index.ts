@@ -133,6 +133,16 @@ function analyzeResetsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
         `reset to analyse the run in segments from here (threshold ${formatNumber(factor, 3)}).`,
     });
   }
+  // A confirmed reset outside the state records starts no segment: say so rather than ignore it silently.
+  const t0 = state.t_s[0], t1 = state.t_s[n - 1];
+  for (const r of confirmed) {
+    if (r >= t0 - tol && r <= t1) continue;
+    findings.push({
+      kind: 'note', severity: 'info', t: r,
+      message: `The confirmed filter reset at t = ${formatNumber(r)} s lies outside the state records ` +
+        `(${formatNumber(t0)} to ${formatNumber(t1)} s); it starts no segment.`,
+    });
+  }
   // Segments of the state records.
   const sources = new Map<number, 'logged' | 'confirmed'>();
   for (const r of logged) sources.set(r, 'logged');

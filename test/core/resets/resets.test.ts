@@ -168,6 +168,13 @@ describe('confirmed resets split the run; convergence and consistency per segmen
     expect(out.block?.segments.map((s) => s.start)).toEqual(['log', 'logged']);
     expect(out.findings).toEqual([]);
   });
+
+  it('a confirmed reset outside the records starts no segment and says so', () => {
+    const out = analyzeResets(log, resolveSettings({ confirmedResets_s: [500, tReset] }));
+    expect(out.block?.segments.map((s) => s.start)).toEqual(['log', 'confirmed']);
+    expect(out.findings.map((f) => [f.kind, f.severity, f.t])).toEqual([['note', 'info', 500]]);
+    expect(out.findings[0].message).toMatch(/outside the state records \(0 to 119\.9 s\); it starts no segment/);
+  });
 });
 
 describe('windows never straddle a restart', () => {
