@@ -15,6 +15,8 @@ import { analyzeFile } from '../../../extension/node/analyzeFile';
 import type { ErrorsBlock } from '../../../extension/core/errors/index';
 import type { ResetsBlock } from '../../../extension/core/resets/index';
 import { worstSettleTime } from '../../../extension/core/gate';
+import { segmentTable } from '../../../extension/core/export/figures';
+import { renderReportMarkdown } from '../../../extension/core/export/markdown';
 import { reportProblems } from '../../helpers/reportSchema';
 import { navLog, stateStream } from '../errors/fixtures';
 import { simulateKf } from './simKf';
@@ -167,6 +169,21 @@ describe('confirmed resets split the run; convergence and consistency per segmen
     expect(out.block?.candidates.map((c) => [c.logged, c.confirmed])).toEqual([[true, false]]);
     expect(out.block?.segments.map((s) => s.start)).toEqual(['log', 'logged']);
     expect(out.findings).toEqual([]);
+  });
+
+  it('the exports carry a segments table with each segment figures (none for one segment)', () => {
+    const one = analyzeLog(log, resolveSettings({})).report;
+    expect(segmentTable(one).rows).toEqual([]);
+    expect(renderReportMarkdown(one)).not.toContain('#### Segments');
+    const two = analyzeLog(log, resolveSettings({ confirmedResets_s: [tReset] })).report;
+    const table = segmentTable(two);
+    expect(table.rows.map((r) => [r[0], r[2], r[3]])).toEqual([['0', String(k), 'start of the log'], ['60', String(1200 - k), 'confirmed reset']]);
+    const e = two.errors as unknown as ErrorsBlock;
+    table.rows.forEach((row, i) => {
+      expect(Number(row[5])).toBeCloseTo(e.segments[i].velocity?.convergence.settleTime as number, 2);
+      expect(row[7]).toMatch(/^pos \d/);
+    });
+    expect(renderReportMarkdown(two)).toContain('#### Segments \\(each filter restart starts one');
   });
 
   it('a confirmed reset outside the records starts no segment and says so', () => {
