@@ -18,6 +18,10 @@
  * - The ratio of epoch k is trace_b(k) / trace_b(prev), where prev is the last earlier epoch with a finite, positive
  *   trace for that block; a previous trace below FLOOR_RELATIVE times the block's median trace is raised to that
  *   floor (a variance logged as almost 0, or rounded to 0 by the logger, must not make an infinite ratio).
+ * - Across a time gap (a step longer than 1.5 times the median step, e.g. a log written only at measurement updates
+ *   during an outage) the filter predicts for many steps and P grows gradually; the ratio is then taken per median
+ *   step, ratio^(median step / step), so an outage is not mistaken for a restart (a restart inside a gap is then
+ *   missed; confirm it by hand).
  * - An epoch is a candidate when its largest block ratio is at least `factor`. Candidates closer than `merge_s` to
  *   the previous candidate belong to the same restart (blocks restarted on consecutive epochs): the first epoch is
  *   kept (the segment starts there) with the largest factor.
@@ -83,6 +87,19 @@ function varianceColumns(state: StateStream): VarianceColumn[] {
   return out;
 }
 
+/** Median positive step of a time column, 0 when there is none (sampled for long columns). */
+function medianStep(t: Float64Array, n: number): number {
+  const stride = Math.max(1, Math.floor(n / 20000));
+  const steps: number[] = [];
+  for (let i = stride; i < n; i += stride) {
+    const d = t[i] - t[i - 1];
+    if (d > 0 && Number.isFinite(d)) steps.push(d);
+  }
+  if (steps.length === 0) return 0;
+  steps.sort((a, b) => a - b);
+  return steps[steps.length >> 1];
+}
+
 /** Median of the finite positive values of a column (sampled for long columns: a floor needs no exact median). */
 function positiveMedian(v: Float64Array, n: number): number {
   const stride = Math.max(1, Math.floor(n / 20000));
@@ -114,6 +131,8 @@ export function detectCovarianceJumps(state: StateStream, factor = DEFAULT_JUMP_
     }
     for (let i = 0; i < n; i++) tr[i] += variance[i]; // NaN stays NaN: that epoch is skipped for the block
   }
+  const t = state.t_s;
+  const step = medianStep(t, n);
   const bestRatio = new Float64Array(n);
   const bestBlock: string[] = new Array<string>(n);
   const before = new Float64Array(n);
@@ -125,7 +144,9 @@ export function detectCovarianceJumps(state: StateStream, factor = DEFAULT_JUMP_
       const v = tr[i];
       if (!(v > 0) || !Number.isFinite(v)) continue;
       if (prev >= 0) {
-        const r = v / Math.max(tr[prev], floor);
+        const dt = t[i] - t[prev];
+        const raw = v / Math.max(tr[prev], floor);
+        const r = step > 0 && dt > 1.5 * step ? Math.pow(raw, step / dt) : raw;
         if (r > bestRatio[i]) {
           bestRatio[i] = r;
           bestBlock[i] = name;

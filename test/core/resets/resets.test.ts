@@ -65,6 +65,21 @@ describe('covariance-jump detection on seeded Kalman filter runs', () => {
     }
   });
 
+  it('a measurement outage without state records (P grows for 8 s) is not a restart; its raw growth would be', () => {
+    for (const seed of [31, 32, 33]) {
+      const log = simulateKf({ seed, epochs: 900, outage_s: [40, 48] });
+      const k = firstAtOrAfter(log.state.t_s, 48);
+      const v = (name: string, i: number): number => (log.state.columns.get(name) as Float64Array)[i] ** 2;
+      // across the gap the position variance grows far beyond the threshold ...
+      const raw = ['x', 'y', 'z'].reduce((a, ax) => a + v(`sigma_p_${ax}`, k), 0) / ['x', 'y', 'z'].reduce((a, ax) => a + v(`sigma_p_${ax}`, k - 1), 0);
+      expect(raw).toBeGreaterThan(10);
+      // ... but per median step it is a prediction's growth
+      expect(detectCovarianceJumps(log.state)).toEqual([]);
+    }
+    // a restart right after such a gap stays detectable when the log is not gapped
+    expect(detectCovarianceJumps(simulateKf({ seed: 31, epochs: 900, resetAt_s: 48 }).state).map((j) => j.t)).toEqual([48]);
+  });
+
   it('the factor setting decides: a 5-fold variance step is a candidate at factor 4, not at the default 10', () => {
     const t = Float64Array.from({ length: 50 }, (_, i) => i * 0.1);
     const s = Float64Array.from(t, (x) => (x >= 2.5 ? Math.sqrt(5) : 1));

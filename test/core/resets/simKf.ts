@@ -26,6 +26,11 @@ export interface KfOptions {
   v0?: number;
   /** Re-initialise the filter at the first epoch at or after this time, seconds. */
   resetAt_s?: number;
+  /**
+   * No measurement in [t0, t1] (the filter only predicts) and no state record in [t0, t1): a logger writing at
+   * updates; the record at t1 is the prediction after the outage.
+   */
+  outage_s?: [number, number];
 }
 
 /** The simulated log (times from 0, lines from 2: a header on line 1). */
@@ -63,6 +68,12 @@ export function simulateKf(o: KfOptions): NavLog {
         e[0] = x[0] + Math.sqrt(p0) * g();
         e[1] = x[1] + Math.sqrt(v0) * g();
         c[0] = p0; c[1] = 0; c[2] = v0;
+      } else if (o.outage_s && t[k] >= o.outage_s[0] && t[k] <= o.outage_s[1] + 1e-9) {
+        // predict only
+        e[0] = e[0] + dt * e[1];
+        const pp = c[0] + 2 * dt * c[1] + dt * dt * c[2] + Q[0];
+        const pv = c[1] + dt * c[2] + Q[1];
+        c[0] = pp; c[1] = pv; c[2] = c[2] + Q[2];
       } else {
         // predict
         e[0] = e[0] + dt * e[1];
@@ -89,6 +100,21 @@ export function simulateKf(o: KfOptions): NavLog {
     }
   }
   const m = chT.length;
+  if (o.outage_s) {
+    const [a, b] = o.outage_s;
+    const keep: number[] = [];
+    for (let k = 0; k < n; k++) if (!(t[k] >= a && t[k] < b)) keep.push(k);
+    for (const key of Object.keys(cols)) cols[key] = Float64Array.from(keep, (k) => cols[key][k]);
+    const lines = Float64Array.from(keep, (k) => k + 2);
+    const state = stateStream(Float64Array.from(keep, (k) => t[k]), cols, 'kf.csv');
+    state.line = lines;
+    const channel0: Channel = {
+      name: 'pos', dof: 3, t_s: Float64Array.from(chT), line: Float64Array.from(chLine), file: 'kf.csv', length: m,
+      nu: Float64Array.from(nu), S: Float64Array.from(S), id: new Float64Array(m).fill(NaN), ids: [],
+      rejected: new Uint8Array(m), angleComponents: [false, false, false],
+    };
+    return navLog(state, undefined, { channels: [channel0], path: 'kf.csv', files: ['kf.csv'] });
+  }
   const channel: Channel = {
     name: 'pos', dof: 3, t_s: Float64Array.from(chT), line: Float64Array.from(chLine), file: 'kf.csv', length: m,
     nu: Float64Array.from(nu), S: Float64Array.from(S), id: new Float64Array(m).fill(NaN), ids: [],
