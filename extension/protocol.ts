@@ -197,8 +197,28 @@ export interface MonteCarloPickMessage {
   type: 'montecarlo/pick';
 }
 
+/**
+ * Treat the epoch at `t` as a filter restart (a `covariance-jump` candidate the user confirms): the host stores it as
+ * a reset note in the sidecar and re-runs the analysis, which then splits the run there.
+ */
+export interface ResetConfirmMessage {
+  type: 'reset/confirm';
+  t: number;
+  /** The candidate's variance ratio and block, for the note's text. */
+  factor?: number;
+  block?: string;
+}
+
+/** Un-confirm the restart at `t` (its reset note is deleted) and re-run the analysis. */
+export interface ResetUnconfirmMessage {
+  type: 'reset/unconfirm';
+  t: number;
+}
+
 /** Every message the webview may send. */
 export type WebviewToHostMessage =
+  | ResetConfirmMessage
+  | ResetUnconfirmMessage
   | ReportExportMessage
   | CompareAddMessage
   | CompareAlignMessage
@@ -548,6 +568,18 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
       return isShortString(value.id, 64) ? { type, id: value.id } : 'notes/delete: bad id';
     case 'code/goto':
       return isShortString(value.name) ? { type, name: value.name } : 'code/goto: bad name';
+    case 'reset/confirm': {
+      const { t, factor, block } = value;
+      if (!isFiniteNumber(t)) return 'reset/confirm: t not finite';
+      if (factor !== undefined && !(isFiniteNumber(factor) && factor > 0)) return 'reset/confirm: factor is not a positive number';
+      if (block !== undefined && !isShortString(block, 64)) return 'reset/confirm: bad block';
+      const out: ResetConfirmMessage = { type, t };
+      if (factor !== undefined) out.factor = factor;
+      if (block !== undefined) out.block = block as string;
+      return out;
+    }
+    case 'reset/unconfirm':
+      return isFiniteNumber(value.t) ? { type, t: value.t } : 'reset/unconfirm: t not finite';
     case 'report/export':
       return value.format === 'html' || value.format === 'md' ? { type, format: value.format } : 'report/export: format is not html or md';
     case 'compare/add':

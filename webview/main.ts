@@ -43,6 +43,7 @@ import {
 } from './shape';
 import { notesView } from './notes';
 import { runsView } from './runs';
+import { resetAction, resetsSection } from './resets';
 import { button, divider, progressRing, registerUi, tabs, type Tabs } from './ui';
 import { panelApi } from './vscodeApi';
 
@@ -237,6 +238,8 @@ function buildOverview(host: HTMLElement, message: InitMessage): void {
   channels.classList.add('channels');
   rows.forEach((r, i) => channels.tBodies[0]?.rows[i]?.classList.add(`verdict-${r.verdict}`));
   host.append(el('h2', {}, 'Consistency at a glance'), rows.length ? channels : el('p', {}, 'No measurement channels in this log.'));
+  const resets = resetsSection(report);
+  if (resets) host.append(resets);
 
   host.append(el('h2', { id: 'worst-heading' }, `Worst epochs (${report.worst.length})`));
   const worst = el('ol', { 'data-testid': 'worst-list', class: 'pick-list', 'aria-labelledby': 'worst-heading' });
@@ -252,7 +255,7 @@ function buildOverview(host: HTMLElement, message: InitMessage): void {
 
   host.append(el('h2', { id: 'findings-heading' }, `Findings (${report.findings.length})`));
   const findings = el('ol', { 'data-testid': 'findings-list', class: 'pick-list', 'aria-labelledby': 'findings-heading' });
-  report.findings.forEach((f) => findings.append(el('li', { class: `finding kind-${safeClass(f.kind)}` }, findingItem(f, message.files))));
+  report.findings.forEach((f) => findings.append(el('li', { class: `finding kind-${safeClass(f.kind)}` }, findingItem(f, message.files), ...[resetAction(f)].filter((x): x is HTMLButtonElement => x !== undefined))));
   host.append(report.findings.length ? findings : el('p', {}, 'No findings.'));
   host.append(divider());
   notesView.mount(host, message, () => view, (t) => select(t, undefined));

@@ -17,6 +17,8 @@ export const COMMON_OPTIONS = {
   'imu-preset': { type: 'string' },
   'time-offset': { type: 'string' },
   'memory-budget': { type: 'string' },
+  'reset-at': { type: 'string', multiple: true },
+  'jump-factor': { type: 'string' },
   profile: { type: 'boolean' },
   html: { type: 'string' },
   md: { type: 'string' },

@@ -1,6 +1,6 @@
 /**
  * `residuum`: the thin command-line shell around the core (report-contract.md).
- *   residuum analyze LOG [--anchors F] [--map F] [--reference F] [--json] [--out F] [--html F] [--md F] [--profile]
+ *   residuum analyze LOG [--anchors F] [--map F] [--reference F] [--reset-at T ...] [--json] [--out F] [--html F] [--md F] [--profile]
  *   residuum check LOG [same options] [--gate FILE] [--max-outliers N] [--min-inside95 X] [--max-rmse M]
  *                      [--max-settle-time S] [--baseline REPORT --tolerance P]
  *   residuum compare LOG_A LOG_B [LOG_C ...] [same options] [--align time|start] [--align-event KIND] [--json]
@@ -26,6 +26,8 @@ const USAGE = `usage:
   residuum montecarlo LOG_1 LOG_2 [...] | FOLDER [options] [--json] [--per-epoch]
 options: --anchors F  --map F  --reference F  --confidence C  --gate-prob P  --window S
          --imu-preset consumer|industrial|tactical  --time-offset S  --memory-budget MIB (default 4096)
+         --reset-at T (repeatable: a confirmed filter restart at T s; the notes sidecar's confirmed resets are added)
+         --jump-factor F (covariance-jump candidates: a block's variance growing F-fold in one epoch, default 10)
 exit: 0 ok; 1 a check threshold failed; 2 unreadable input, bad argument, or check without threshold`;
 
 /** Analysis options from parsed values. */
@@ -41,6 +43,17 @@ export function analysisOptions(values: Record<string, unknown>, times?: StageTi
   if (offset !== undefined) settings.timeOffset_s = offset;
   const budget = numberOption(values, 'memory-budget', [0.01, 1 << 24]);
   if (budget !== undefined) settings.memoryBudgetBytes = budget * 1024 * 1024;
+  const resetAt = values['reset-at'];
+  if (resetAt !== undefined) {
+    const list = Array.isArray(resetAt) ? resetAt : [resetAt];
+    settings.confirmedResets_s = list.map((raw) => {
+      const v = Number(raw);
+      if (typeof raw !== 'string' || raw.trim() === '' || !Number.isFinite(v)) throw new UsageError(`--reset-at needs a time in seconds, got '${String(raw)}'`);
+      return v;
+    });
+  }
+  const jump = numberOption(values, 'jump-factor', [1.0001, 1e12]);
+  if (jump !== undefined) settings.covarianceJumpFactor = jump;
   const preset = values['imu-preset'];
   if (typeof preset === 'string') {
     if (!Object.hasOwn(IMU_PRESETS, preset)) throw new UsageError(`--imu-preset must be one of ${Object.keys(IMU_PRESETS).join(', ')}, got '${preset}'`);

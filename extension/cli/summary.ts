@@ -61,6 +61,7 @@ export function formatSummary(r: Report): string {
       ),
     );
   }
+  out.push(...resetLines(r));
   const counts = new Map<string, number>();
   for (const f of r.findings) counts.set(f.kind, (counts.get(f.kind) ?? 0) + 1);
   out.push(`Findings: ${r.findings.length}${counts.size ? ' (' + [...counts].map(([k, n]) => `${k} ${n}`).join(', ') + ')' : ''}`);
@@ -89,4 +90,22 @@ export function formatSummary(r: Report): string {
     );
   }
   return out.join('\n') + '\n';
+}
+
+/** Segments (when a reset splits the run) and unconfirmed covariance-jump candidates, for the summary. */
+function resetLines(r: Report): string[] {
+  const b = r.resets as { segments?: { t: number; tEnd: number; epochs: number; start: string }[]; candidates?: { t: number; line: number; factor: number; block: string; confirmed: boolean; logged: boolean }[] } | undefined;
+  if (!b) return [];
+  const out: string[] = [];
+  const segs = b.segments ?? [];
+  if (segs.length > 1) {
+    out.push('Segments (a filter restart starts each; convergence and consistency are per segment)');
+    out.push(table(['#', 't [s]', 'until [s]', 'epochs', 'starts at'], segs.map((s, i) => [String(i + 1), fmt(s.t), fmt(s.tEnd), String(s.epochs), s.start === 'log' ? 'start of log' : s.start === 'logged' ? 'reset in the log' : 'confirmed reset'])));
+  }
+  const open = (b.candidates ?? []).filter((c) => !c.confirmed && !c.logged);
+  if (open.length > 0) {
+    out.push('Covariance jumps not confirmed as resets (confirm with --reset-at T or in the panel)');
+    out.push(table(['t [s]', 'line', 'block', 'variance x'], open.slice(0, 10).map((c) => [fmt(c.t), String(c.line), c.block, c.factor.toPrecision(3)])));
+  }
+  return out;
 }

@@ -11,6 +11,7 @@ import { analyzeChannels } from './consistency/index';
 import { analyzeErrors } from './errors/index';
 import { analyzeBias } from './imu/index';
 import { analyzeUwb } from './uwb/index';
+import { analyzeResets, withConfirmedResets } from './resets/index';
 import { finiteJson } from './finite';
 
 /** Version of the tool written into every report (kept in step with package.json by a test). */
@@ -45,7 +46,7 @@ const MAX_DIAGNOSTIC_FINDINGS_PER_KIND = 200;
  * @param info facts about the input the core cannot compute
  * @param times optional: filled with per-stage elapsed milliseconds
  */
-export function analyzeLog(log: NavLog, settings: AnalysisSettings, info: SourceInfo = {}, times?: StageTimes): AnalysisResult {
+export function analyzeLog(own: NavLog, settings: AnalysisSettings, info: SourceInfo = {}, times?: StageTimes): AnalysisResult {
   const clock = (): number => performance.now();
   const timed = <T>(name: string, fn: () => T): T => {
     const t0 = clock();
@@ -54,6 +55,9 @@ export function analyzeLog(log: NavLog, settings: AnalysisSettings, info: Source
     return out;
   };
 
+  // Filter restarts: the log's own plus those the user confirmed split every stage into segments (core/resets).
+  const resets = timed('resets', () => analyzeResets(own, settings));
+  const log = withConfirmedResets(own, settings);
   const channels = timed('channels', () => analyzeChannels(log, settings));
   const errors = timed('errors', () => analyzeErrors(log, settings));
   const bias = timed('bias', () => analyzeBias(log, settings));
@@ -65,6 +69,7 @@ export function analyzeLog(log: NavLog, settings: AnalysisSettings, info: Source
     ...errors.findings,
     ...bias.findings,
     ...uwb.findings,
+    ...resets.findings,
   ];
   findings.sort(compareFindings);
 
@@ -100,6 +105,7 @@ export function analyzeLog(log: NavLog, settings: AnalysisSettings, info: Source
     ...(bias.block?.bias ? { bias: bias.block.bias as unknown as Record<string, unknown> } : {}),
     ...(bias.block?.imu ? { imu: bias.block.imu as unknown as Record<string, unknown> } : {}),
     ...(uwb.block ? { uwb: uwb.block as unknown as Record<string, unknown> } : {}),
+    ...(resets.block ? { resets: resets.block } : {}),
     notes: info.notes ?? [],
     findings,
     worst: channels.worst,

@@ -72,12 +72,17 @@ function num(obj: unknown, ...keys: string[]): number | undefined {
   return typeof cur === 'number' && Number.isFinite(cur) ? cur : undefined;
 }
 
-/** Largest settling time over the error blocks, seconds, when computed. */
+/**
+ * Largest settling time over the error blocks and over every segment of the run (a filter restart starts a new
+ * segment that must settle again; `errors.segments`), seconds, when computed.
+ */
 export function worstSettleTime(r: Report): number | undefined {
   let worst: number | undefined;
+  const segments = (r.errors as { segments?: unknown } | undefined)?.segments;
   for (const block of ['position', 'velocity', 'orientation']) {
-    const v = settleTime(r, block) ?? undefined;
-    if (v !== undefined) worst = worst === undefined ? v : Math.max(worst, v);
+    const values = [settleTime(r, block) ?? undefined];
+    if (Array.isArray(segments)) for (const seg of segments) values.push(num(seg, block, 'convergence', 'settleTime'));
+    for (const v of values) if (v !== undefined) worst = worst === undefined ? v : Math.max(worst, v);
   }
   return worst;
 }

@@ -35,6 +35,7 @@ export type FindingKind =
   | 'too-few-anchors'
   | 'high-dop'
   | 'unknown-column'
+  | 'covariance-jump'
   | 'note';
 
 /** A problem found while reading: where it is (file, 1-based line and column) and a plain sentence. */

@@ -55,6 +55,13 @@ export interface AnalysisSettings {
   biasStepAlpha?: number;
   /** Memory budget for the numeric columns, bytes; beyond it the analysis is decimated and `partial` set. */
   memoryBudgetBytes: number;
+  /**
+   * Filter restarts the user confirmed (seconds, log time base): from `--reset-at`, or `reset` notes of the sidecar
+   * (core/notes/resets.ts). Like the log's own `reset` records, each starts a new segment (core/resets).
+   */
+  confirmedResets_s?: number[];
+  /** Threshold on a state block's one-epoch variance ratio for a `covariance-jump` candidate (10; core/resets). */
+  covarianceJumpFactor?: number;
 }
 
 /** The documented defaults. */

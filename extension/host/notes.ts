@@ -16,6 +16,7 @@ import * as vscode from 'vscode';
 import { anchorNotes, type AnchorLog, type AnchoredNote } from '../core/notes/anchor';
 import { indexLogText, targetAtLine, type LineTarget } from '../core/notes/lineIndex';
 import { newNoteId, normalizeTags, splitTags, type Note, type NoteOp } from '../core/notes/sidecar';
+import { confirmResetOps, confirmedResetTimes, unconfirmResetOps, type ResetEvidence } from '../core/notes/resets';
 import { NotesStore, notesPathFor } from '../node/notesStore';
 import type { NoteInfo, NotesUpdateMessage } from '../protocol';
 import { CODELENS_LANGUAGES, CodeLinks, SHOW_CHANNEL_COMMAND } from './codeLinks';
@@ -87,6 +88,24 @@ interface LogNotes {
   message?: string;
   /** Id of a note to show expanded on the next render. */
   expand?: string;
+  /** Confirmed reset times as last seen (joined); a change re-runs the log's analysis. */
+  resetKey?: string;
+}
+
+/** A covariance-jump candidate of a report, as the reset commands offer it. */
+interface ResetChoice {
+  t: number;
+  line: number;
+  factor: number;
+  block: string;
+  confirmed: boolean;
+  logged: boolean;
+}
+
+/** The candidates and confirmed resets of a report (`resets` block, core/resets); empty when absent. */
+function resetChoices(report: { readonly [key: string]: unknown } | undefined): { candidates: ResetChoice[]; confirmed: number[] } {
+  const b = report?.resets as { candidates?: ResetChoice[]; confirmed?: number[] } | undefined;
+  return { candidates: Array.isArray(b?.candidates) ? b.candidates : [], confirmed: Array.isArray(b?.confirmed) ? b.confirmed : [] };
 }
 
 /** Notes and code links of the extension (one per window). */
@@ -133,6 +152,8 @@ export class NotesController implements vscode.Disposable {
       vscode.commands.registerCommand('residuum.notes.delete', (t: vscode.CommentThread) => this.onThread(t, (id) => ({ op: 'delete', id }))),
       vscode.commands.registerCommand('residuum.notes.goToCode', (arg?: unknown, name?: unknown) => this.goToCodeCommand(arg, name)),
       vscode.commands.registerCommand(SHOW_CHANNEL_COMMAND, (uri: unknown, channel: unknown) => this.showChannel(uri, channel)),
+      vscode.commands.registerCommand('residuum.confirmReset', (t?: unknown) => this.confirmResetCommand(t)),
+      vscode.commands.registerCommand('residuum.unconfirmReset', (t?: unknown) => this.unconfirmResetCommand(t)),
       vscode.workspace.onDidOpenTextDocument((d) => this.onOpened(d)),
       vscode.workspace.onDidChangeConfiguration((e) => {
         if (e.affectsConfiguration('residuum.codeLens')) this.codeLinks.refresh();
@@ -166,6 +187,101 @@ export class NotesController implements vscode.Disposable {
     return (await this.commit(entry, { op: 'put', note })) ? note.id : undefined;
   }
 
+  /**
+   * Confirm a filter restart at `t` of a log: a reset note in its sidecar (none when one is already within half a
+   * step); the log's analysis re-runs and splits there. Returns whether the sidecar now holds it.
+   */
+  async confirmReset(uri: vscode.Uri, t: number, evidence: ResetEvidence = {}): Promise<boolean> {
+    const entry = this.entry(uri);
+    const ops = confirmResetOps(entry.store.notes(), t, this.resetTolerance(uri), evidence, new Date().toISOString().slice(0, 10));
+    for (const op of ops) if (!(await this.commit(entry, op))) return false;
+    return confirmedResetTimes(entry.store.notes()).some((r) => Math.abs(r - t) <= this.resetTolerance(uri));
+  }
+
+  /** Un-confirm the restart at `t` of a log (its reset notes are deleted); the analysis re-runs. Returns how many went. */
+  async unconfirmReset(uri: vscode.Uri, t: number): Promise<number> {
+    const entry = this.entry(uri);
+    const ops = unconfirmResetOps(entry.store.notes(), t, this.resetTolerance(uri));
+    for (const op of ops) await this.commit(entry, op);
+    return ops.length;
+  }
+
+  /** How close a time must be to an epoch to be "at" it: half the log's median step (from its last analysis). */
+  private resetTolerance(uri: vscode.Uri): number {
+    const dt = this.manager.find(uri)?.report?.time.medianDt;
+    return typeof dt === 'number' && dt > 0 ? dt / 2 : 1e-6;
+  }
+
+  private async confirmResetCommand(arg: unknown): Promise<void> {
+    const panel = this.manager.current();
+    if (!panel || !panel.report) {
+      void vscode.window.showInformationMessage('Residuum: open a log analysis first (Residuum: Open Log Analysis).');
+      return;
+    }
+    const { candidates } = resetChoices(panel.report);
+    let t: number | undefined = typeof arg === 'number' && Number.isFinite(arg) ? arg : undefined;
+    let evidence: ResetEvidence = {};
+    if (t === undefined) {
+      const open = candidates.filter((c) => !c.confirmed && !c.logged);
+      const items: (vscode.QuickPickItem & { t?: number; c?: ResetChoice })[] = open.map((c) => ({
+        label: `t = ${c.t} s`, description: `line ${c.line}`, detail: `the covariance of ${c.block} grew ${c.factor.toPrecision(3)}-fold in one epoch`, t: c.t, c,
+      }));
+      items.push({ label: 'Another time...', description: 'type the time of the restart in seconds' });
+      const pick = await vscode.window.showQuickPick(items, {
+        title: 'Residuum: confirm a filter reset (a new segment starts there)',
+        placeHolder: open.length ? 'Covariance jumps not yet confirmed' : 'No covariance jump found; type a time',
+      });
+      if (!pick) return;
+      if (pick.t !== undefined && pick.c) {
+        t = pick.t;
+        evidence = { factor: pick.c.factor, block: pick.c.block };
+      } else {
+        const typed = await vscode.window.showInputBox({
+          title: 'Residuum: time of the filter reset', prompt: 'Seconds in the log\'s time base; the segment starts at the first epoch at or after it.',
+          validateInput: (v) => (v.trim() !== '' && Number.isFinite(Number(v)) ? undefined : 'a number of seconds'),
+        });
+        if (typed === undefined) return;
+        t = Number(typed);
+      }
+    } else {
+      const c = candidates.find((x) => Math.abs(x.t - (t as number)) <= this.resetTolerance(panel.uri));
+      if (c) evidence = { factor: c.factor, block: c.block };
+    }
+    if (await this.confirmReset(panel.uri, t, evidence)) void vscode.window.setStatusBarMessage(`Residuum: filter reset at t = ${t} s confirmed; re-analysing`, 4000);
+  }
+
+  private async unconfirmResetCommand(arg: unknown): Promise<void> {
+    const panel = this.manager.current();
+    if (!panel) {
+      void vscode.window.showInformationMessage('Residuum: open a log analysis first (Residuum: Open Log Analysis).');
+      return;
+    }
+    let t: number | undefined = typeof arg === 'number' && Number.isFinite(arg) ? arg : undefined;
+    if (t === undefined) {
+      const times = confirmedResetTimes(this.entry(panel.uri).store.notes());
+      if (times.length === 0) {
+        void vscode.window.showInformationMessage('Residuum: no filter reset of this log was confirmed (resets written in the log itself cannot be un-confirmed here).');
+        return;
+      }
+      const pick = await vscode.window.showQuickPick(times.map((x) => ({ label: `t = ${x} s`, t: x })), { title: 'Residuum: un-confirm a filter reset' });
+      if (!pick) return;
+      t = pick.t;
+    }
+    const n = await this.unconfirmReset(panel.uri, t);
+    if (n === 0) void vscode.window.showInformationMessage(`Residuum: no confirmed filter reset at t = ${t} s.`);
+  }
+
+  /** Re-run the analysis of the log's panels when its confirmed resets changed (by this window, another, or git). */
+  private resetsChanged(entry: LogNotes): void {
+    const key = confirmedResetTimes(entry.store.notes()).join(',');
+    const before = entry.resetKey;
+    entry.resetKey = key;
+    if (before === undefined || before === key) return;
+    this.output.info(`notes: confirmed resets of ${entry.uri.fsPath} are now [${key}]; re-analysing`);
+    const panel = this.manager.find(entry.uri);
+    if (panel) panel.reconfigure();
+  }
+
   private onOpened(doc: vscode.TextDocument): void {
     if (!isNotesLog(doc.uri)) return;
     const key = doc.uri.fsPath;
@@ -188,6 +304,7 @@ export class NotesController implements vscode.Disposable {
     watcher.onDidCreate(onDisk);
     watcher.onDidDelete(onDisk);
     const problems = store.reload();
+    e.resetKey = confirmedResetTimes(store.notes()).join(',');
     if (problems.length) this.tellProblem(e, `${problems[0].file}:${problems[0].line}${problems[0].column ? `:${problems[0].column}` : ''}: ${problems[0].message}`);
     this.logs.set(key, e);
     return e;
@@ -287,6 +404,7 @@ export class NotesController implements vscode.Disposable {
    * is shown and would lose it.
    */
   private async refresh(entry: LogNotes, asker?: AnalysisPanel): Promise<void> {
+    this.resetsChanged(entry);
     const placed = await this.place(entry);
     const key = entry.uri.fsPath;
     const keep = new Set<string>();
@@ -367,6 +485,16 @@ export class NotesController implements vscode.Disposable {
         break;
       case 'code/goto':
         await this.codeLinks.goto(panel.uri, msg.name);
+        break;
+      case 'reset/confirm': {
+        const evidence: ResetEvidence = {};
+        if (msg.factor !== undefined) evidence.factor = msg.factor;
+        if (msg.block !== undefined) evidence.block = msg.block;
+        await this.confirmReset(panel.uri, msg.t, evidence);
+        break;
+      }
+      case 'reset/unconfirm':
+        await this.unconfirmReset(panel.uri, msg.t);
         break;
     }
   }

@@ -3,11 +3,12 @@
  * codeLinks.ts): the panel calls these hooks, the notes controller sets them at activation. Kept in its own file so
  * panel.ts needs only three one-line calls and no knowledge of notes.
  */
-import type { NotesAddMessage, NotesDeleteMessage, NotesEditMessage, NotesRequestMessage, CodeGotoMessage } from '../protocol';
+import type { NotesAddMessage, NotesDeleteMessage, NotesEditMessage, NotesRequestMessage, CodeGotoMessage, ResetConfirmMessage, ResetUnconfirmMessage } from '../protocol';
 import type { AnalysisPanel } from './panel';
 
 /** Messages of the panel that the notes controller answers. */
-export type NotesPanelMessage = NotesRequestMessage | NotesAddMessage | NotesEditMessage | NotesDeleteMessage | CodeGotoMessage;
+export type NotesPanelMessage = NotesRequestMessage | NotesAddMessage | NotesEditMessage | NotesDeleteMessage | CodeGotoMessage
+  | ResetConfirmMessage | ResetUnconfirmMessage;
 
 /** Hooks called by every analysis panel (unset: ignored). */
 export const notesPanelHooks: {

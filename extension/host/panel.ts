@@ -465,6 +465,8 @@ export class AnalysisPanel {
       case 'notes/edit':
       case 'notes/delete':
       case 'code/goto':
+      case 'reset/confirm':
+      case 'reset/unconfirm':
         notesPanelHooks.onMessage?.(this, msg);
         break;
       case 'report/export':

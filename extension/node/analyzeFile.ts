@@ -13,6 +13,7 @@ import { analyzeLog, type StageTimes } from '../core/analyze';
 import { readRun, type ByteSource } from '../core/read/index';
 import { fileByteSource, openRelative, FileChangedError, type FileLayer } from './fileSource';
 import { notesForReport } from './notesReport';
+import { mergeResetTimes } from '../core/resets/segments';
 
 /** Options of one analysis of a file on disk. */
 export interface AnalyzeFileOptions {
@@ -30,7 +31,10 @@ export interface AnalyzeFileOptions {
   times?: StageTimes;
   /** File layer for every read of the log, anchors and reference (default node:fs); tests inject faults here. */
   files?: FileLayer;
-  /** Notes to carry in the report; default: those of `<log>.notes.json`, anchored to the log (see notesReport.ts). */
+  /**
+   * Notes to carry in the report; default: those of `<log>.notes.json`, anchored to the log (see notesReport.ts),
+   * whose confirmed resets (`"reset": true`) are then added to `settings.confirmedResets_s`.
+   */
   notes?: unknown[];
 }
 
@@ -97,6 +101,8 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
   const { log, hash } = attempt;
   if (options.times) options.times.read = performance.now() - t0;
   const sidecar = options.notes === undefined ? notesForReport(logPath, log) : undefined;
+  // Resets confirmed in the sidecar split the run like those given in the settings (`--reset-at`).
+  if (sidecar && sidecar.resets.length > 0) settings.confirmedResets_s = mergeResetTimes(settings.confirmedResets_s, sidecar.resets);
   const { report, series } = analyzeLog(log, settings, { sha256: hash, notes: options.notes ?? sidecar?.notes }, options.times);
   if (sidecar?.finding) report.findings.push(sidecar.finding);
   return { report, series, log };

@@ -23,6 +23,7 @@ import { nisHistogram, nisKsTest } from './histogram';
 import { covarianceHealth } from './covariance';
 import { formatNumber, formatPercent } from './format';
 import { lazySeries } from '../lazySeries';
+import { segmentBreaks } from '../resets/segments';
 
 /** Outlier findings listed per channel; beyond it they are counted in the last one's message. */
 export const MAX_OUTLIER_FINDINGS = 500;
@@ -47,12 +48,33 @@ export function windowSpec(settings: AnalysisSettings): WindowSpec | undefined {
   return undefined;
 }
 
+/** NIS count, mean and share inside the per-update 95% bounds of each segment of the accepted updates. */
+function nisSegments(tC: Float64Array, nisC: Float64Array, m: number, breaks: readonly number[], lo95: number, hi95: number):
+  { t: number; tEnd: number; count: number; mean?: number; inside95?: number }[] {
+  const cuts = [0, ...breaks, m];
+  const out: { t: number; tEnd: number; count: number; mean?: number; inside95?: number }[] = [];
+  for (let c = 0; c + 1 < cuts.length; c++) {
+    const a = cuts[c], b = cuts[c + 1];
+    if (b <= a) continue;
+    let sum = 0, inside = 0;
+    for (let q = a; q < b; q++) {
+      sum += nisC[q];
+      if (nisC[q] >= lo95 && nisC[q] <= hi95) inside++;
+    }
+    out.push({ t: tC[a], tEnd: tC[b - 1], count: b - a, mean: sum / (b - a), inside95: inside / (b - a) });
+  }
+  return out;
+}
+
 function finiteOrNull(x: number): number | null {
   return Number.isFinite(x) ? x : null;
 }
 
-/** Analyse one channel (see the file comment). Never throws on bad data. */
-export function analyzeChannel(channel: Channel, settings: AnalysisSettings): ChannelAnalysis {
+/**
+ * Analyse one channel (see the file comment). Never throws on bad data. `resets_s` (the run's filter restarts,
+ * seconds) split the windowed NIS test into segments, and `nis.segments` gives the NIS figures of each segment.
+ */
+export function analyzeChannel(channel: Channel, settings: AnalysisSettings, resets_s: readonly number[] = []): ChannelAnalysis {
   const { name, dof, length: n } = channel;
   const findings: Finding[] = [];
   const series: Series[] = [];
@@ -122,14 +144,18 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings): Ch
     };
   });
 
+  // Per segment (between filter restarts): NIS figures; the windows below never straddle a restart.
+  const breaks = m > 0 && resets_s.length > 0 ? segmentBreaks(tC, 0, m, resets_s) : [];
+  if (breaks.length > 0) nisSummary.segments = nisSegments(tC, nisC, m, breaks, lo95, hi95);
+
   // Windowed NIS.
   const spec = windowSpec(settings);
   if (spec && m > 0) {
     const prefix = prefixSums(nisC, m);
     const tV = tC.subarray(0, m);
     const nV = nisC.subarray(0, m);
-    const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix);
-    const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix);
+    const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks);
+    const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks);
     const lineW = new Float64Array(m);
     for (let q = 0; q < m; q++) lineW[q] = lineCol[idxC[q]];
     series.push({

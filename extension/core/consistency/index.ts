@@ -42,7 +42,7 @@ export function analyzeChannels(log: NavLog, settings: AnalysisSettings): Channe
   const nisByChannel = new Map<string, Float64Array>();
   for (const channel of log.channels) {
     try {
-      const r = analyzeChannel(channel, settings);
+      const r = analyzeChannel(channel, settings, log.resets);
       block.push(r.report);
       findings.push(...r.findings);
       series.push(...r.series);

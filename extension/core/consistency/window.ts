@@ -16,6 +16,11 @@
  * Windows are in seconds (`window_s`, window (t - w, t] for the sliding average, [s, s + w) for tested windows) or,
  * when `windowUpdates` is set, in updates. Times are expected in non-decreasing order; a backwards step only
  * widens a window, it never fails.
+ *
+ * Segments: both functions take optional `breaks` (indices where a filter restart starts a new segment, from
+ * core/resets/segments.ts). No window straddles a break: the sliding average starts afresh after it (its first
+ * windows are short again) and the tested windows are placed from each segment's start; M counts the windows of
+ * every segment, so the family-wise bound holds for the whole channel.
  */
 import { chi2Cdf, chi2Interval, chi2Sf } from '../stats/chi2';
 
@@ -109,7 +114,7 @@ export function prefixSums(values: Float64Array, n: number): Float64Array {
  */
 export function slidingAverage(
   t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, confidence: number,
-  prefix = prefixSums(nis, n),
+  prefix = prefixSums(nis, n), breaks: readonly number[] = [],
 ): SlidingAverage {
   const mean = new Float64Array(n);
   const count = new Float64Array(n);
@@ -122,12 +127,20 @@ export function slidingAverage(
   let full = 0;
   let fullInside95 = 0;
   let j = 0;
-  const t0 = firstFinite(t_s, n);
+  let s0 = 0; // first update of the current segment
+  let nextBreak = 0;
+  let t0 = firstFinite(t_s, n);
   for (let i = 0; i < n; i++) {
+    if (nextBreak < breaks.length && i === breaks[nextBreak]) {
+      s0 = i;
+      j = i;
+      t0 = firstFinite(t_s.subarray(i), n - i);
+      nextBreak++;
+    }
     let isFull: boolean;
     if (byUpdates) {
-      j = Math.max(0, i - size + 1);
-      isFull = i + 1 >= size;
+      j = Math.max(s0, i - size + 1);
+      isFull = i - s0 + 1 >= size;
     } else {
       const start = t_s[i] - size;
       while (j < i && t_s[j] <= start) j++;
@@ -156,49 +169,14 @@ export function slidingAverage(
  */
 export function windowTest(
   t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, familyAlpha: number,
-  prefix = prefixSums(nis, n),
+  prefix = prefixSums(nis, n), breaks: readonly number[] = [],
 ): WindowTest {
-  // Pass 1: the windows (depends on the times only, so M is fixed before any NIS is looked at).
+  // Pass 1: the windows of every segment (depends on the times only, so M is fixed before any NIS is looked at).
   const starts: number[] = [];
   const ends: number[] = [];
-  if (n > 0) {
-    if (spec.kind === 'updates') {
-      const k = Math.max(1, Math.floor(spec.size));
-      const stride = Math.max(1, Math.ceil(k / 2));
-      for (let a = 0; a < n; a += stride) {
-        starts.push(a);
-        ends.push(Math.min(n, a + k));
-        if (a + k >= n) break;
-      }
-    } else {
-      const w = spec.size;
-      const h = w / 2;
-      const t0 = firstFinite(t_s, n);
-      let a = 0;
-      let b = 0;
-      let k = 0;
-      // Each update lies in at most three windows and empty stretches are jumped over, so there are at most 3n
-      // windows; the cap only stops a window so small against the time stamps that t0 + k h stops moving.
-      for (let guard = 0; Number.isFinite(t0) && guard < 4 * n + 16; guard++) {
-        const s = t0 + k * h;
-        // `!(t >= s)` also steps over NaN times, which no window can place.
-        while (a < n && !(t_s[a] >= s)) a++;
-        if (a >= n) break;
-        if (b < a) b = a;
-        while (b < n && !(t_s[b] >= s + w)) b++;
-        if (b > a) {
-          starts.push(a);
-          ends.push(b);
-          if (b >= n) break;
-          k++;
-        } else {
-          // Empty window (a gap in the log): jump to the first window that contains update a.
-          const next = Math.floor((t_s[a] - w - t0) / h) + 1;
-          if (!Number.isFinite(next)) break; // an infinite time stamp: nothing after it can be placed
-          k = Math.max(k + 1, next);
-        }
-      }
-    }
+  const cuts = [0, ...breaks.filter((b) => b > 0 && b < n), n];
+  for (let c = 0; c + 1 < cuts.length; c++) {
+    if (cuts[c + 1] > cuts[c]) placeWindows(t_s, cuts[c], cuts[c + 1], spec, starts, ends);
   }
   const tests = starts.length;
   const alphaPerTest = tests > 0 ? familyAlpha / tests : familyAlpha;
@@ -231,4 +209,46 @@ export function windowTest(
     r.p = r.side === 'overconfident' ? chi2Sf(r.mean * r.count, dof * r.count) : chi2Cdf(r.mean * r.count, dof * r.count);
   }
   return { tests, alphaPerTest, runs };
+}
+
+/** Pass 1 of {@link windowTest} for updates [a0, a1): half-overlapping windows from the range's start. */
+function placeWindows(t_s: Float64Array, a0: number, a1: number, spec: WindowSpec, starts: number[], ends: number[]): void {
+  const n = a1;
+  if (spec.kind === 'updates') {
+    const k = Math.max(1, Math.floor(spec.size));
+    const stride = Math.max(1, Math.ceil(k / 2));
+    for (let a = a0; a < n; a += stride) {
+      starts.push(a);
+      ends.push(Math.min(n, a + k));
+      if (a + k >= n) break;
+    }
+    return;
+  }
+  const w = spec.size;
+  const h = w / 2;
+  const t0 = firstFinite(t_s.subarray(a0, a1), a1 - a0);
+  let a = a0;
+  let b = a0;
+  let k = 0;
+  // Each update lies in at most three windows and empty stretches are jumped over, so there are at most 3n
+  // windows; the cap only stops a window so small against the time stamps that t0 + k h stops moving.
+  for (let guard = 0; Number.isFinite(t0) && guard < 4 * (a1 - a0) + 16; guard++) {
+    const s = t0 + k * h;
+    // `!(t >= s)` also steps over NaN times, which no window can place.
+    while (a < n && !(t_s[a] >= s)) a++;
+    if (a >= n) break;
+    if (b < a) b = a;
+    while (b < n && !(t_s[b] >= s + w)) b++;
+    if (b > a) {
+      starts.push(a);
+      ends.push(b);
+      if (b >= n) break;
+      k++;
+    } else {
+      // Empty window (a gap in the log): jump to the first window that contains update a.
+      const next = Math.floor((t_s[a] - w - t0) / h) + 1;
+      if (!Number.isFinite(next)) break; // an infinite time stamp: nothing after it can be placed
+      k = Math.max(k + 1, next);
+    }
+  }
 }

@@ -71,6 +71,30 @@ export function errorTable(r: Report): TextTable {
   return { title: 'Errors against the reference', header: ['block', 'RMSE', 'max', 'ATE RMSE', 'NEES mean', 'NEES inside 95%', 'settling time [s]'], rows };
 }
 
+/**
+ * Segments of a run split by filter restarts (the `resets` block), each with its own convergence and NEES
+ * (`errors.segments`) and NIS (`channels[].nis.segments`); no rows when the run has one segment.
+ */
+export function segmentTable(r: Report): TextTable {
+  const segs = (obj(r.resets)?.segments ?? []) as { t: number; tEnd: number; epochs: number; start: string }[];
+  const title = 'Segments (each filter restart starts one; convergence and consistency per segment)';
+  const header = ['from [s]', 'to [s]', 'epochs', 'starts at', 'position settling [s]', 'velocity settling [s]', 'position NEES mean', 'NIS mean per channel'];
+  if (!Array.isArray(segs) || segs.length <= 1) return { title, header, rows: [] };
+  const errSegs = (obj(r.errors)?.segments ?? []) as Record<string, unknown>[];
+  const rows = segs.map((s) => {
+    const e = Array.isArray(errSegs) ? errSegs.find((x) => obj(x)?.t === s.t) : undefined;
+    const conv = (block: string): unknown => obj(obj(e?.[block])?.convergence)?.settleTime;
+    const nis = r.channels.map((c) => {
+      const ns = (obj(c.nis)?.segments ?? []) as { t: number; mean?: number }[];
+      const mine = Array.isArray(ns) ? ns.filter((x) => x.t >= s.t && x.t <= s.tEnd)[0] : undefined;
+      return mine ? `${c.name} ${fmtNum(mine.mean)}` : '';
+    }).filter((x) => x !== '').join(', ');
+    const start = s.start === 'log' ? 'start of the log' : s.start === 'logged' ? 'reset in the log' : 'confirmed reset';
+    return [fmtNum(s.t), fmtNum(s.tEnd), String(s.epochs), start, fmtNum(conv('position'), 2), fmtNum(conv('velocity'), 2), fmtNum(obj(obj(e?.position)?.nees)?.mean), nis || '-'];
+  });
+  return { title, header, rows };
+}
+
 /** Suspect UWB anchors, when the report has a UWB block. */
 export function anchorTable(r: Report): TextTable {
   const anchors = obj(r.uwb)?.anchors;

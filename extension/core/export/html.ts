@@ -10,7 +10,7 @@ import { alignName } from '../compareRuns';
 import { runLabel, winCounts } from '../compare';
 import { svgChart, type ChartSpec } from './svg';
 import { escapeHtml, fmtNum, baseName } from './escape';
-import { identityRows, channelTable, errorTable, anchorTable, findingTable, noteTable, worstTable, reportCharts, type TextTable } from './figures';
+import { identityRows, channelTable, errorTable, segmentTable, anchorTable, findingTable, noteTable, worstTable, reportCharts, type TextTable } from './figures';
 
 /** The Content-Security-Policy of every exported HTML report. */
 export const REPORT_CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; base-uri 'none'; form-action 'none'";
@@ -82,6 +82,7 @@ export function renderReportHtml(report: Report, series: Series[], options: Html
     identityHtml(ident),
     tableHtml(channelTable(report)),
     tableHtml(errorTable(report)),
+    tableHtml(segmentTable(report)),
     tableHtml(anchorTable(report), 5),
     tableHtml(noteTable(report), 4),
     tableHtml(findingTable(report, options.maxFindings ?? 500), 5),

@@ -6,7 +6,7 @@ import type { Report } from '../report';
 import type { Comparison } from '../compareRuns';
 import { runLabel, winCounts } from '../compare';
 import { escapeMarkdown, baseName } from './escape';
-import { identityRows, channelTable, errorTable, anchorTable, findingTable, noteTable, type TextTable } from './figures';
+import { identityRows, channelTable, errorTable, segmentTable, anchorTable, findingTable, noteTable, type TextTable } from './figures';
 import { comparisonTable, comparisonRuns, spanSentence } from './html';
 
 function tableMd(t: TextTable): string {
@@ -43,6 +43,7 @@ export function renderReportMarkdown(report: Report, options: MarkdownOptions = 
     '',
     tableMd(channelTable(report)),
     tableMd(errorTable(report)),
+    tableMd(segmentTable(report)),
     tableMd(anchorTable(report)),
     tableMd(noteTable(report)),
     tableMd(findingTable(report, options.maxFindings ?? 30)),

@@ -40,6 +40,11 @@ export interface Note {
   /** ISO date of creation (written once, never updated). */
   created?: string;
   /**
+   * True: the user confirmed a filter restart at `t` (core/notes/resets.ts); the analysis starts a new segment there.
+   * Added within `residuum.notes/1`: older versions keep it as an unknown field and write it back unchanged.
+   */
+  reset?: boolean;
+  /**
    * Fields this version does not know (written by a newer version): kept as read and written back after the known
    * fields, so an older editor never drops them.
    */
@@ -64,7 +69,7 @@ export interface NotesProblem {
  */
 export type NoteOp = { op: 'put'; note: Note } | { op: 'patch'; id: string; set: NotePatch } | { op: 'delete'; id: string };
 
-const KEY_ORDER = ['id', 't', 'tEnd', 'channel', 'updateId', 'finding', 'text', 'tags', 'status', 'author', 'created'] as const;
+const KEY_ORDER = ['id', 't', 'tEnd', 'channel', 'updateId', 'finding', 'reset', 'text', 'tags', 'status', 'author', 'created'] as const;
 const KNOWN_KEYS = new Set<string>([...KEY_ORDER, 'extra']);
 
 /** Tags as stored: trimmed, without a leading `#`, no empty ones, no repeats, in the user's order. */
@@ -173,6 +178,7 @@ function validNote(v: unknown): string | undefined {
   for (const k of ['channel', 'updateId', 'finding', 'author', 'created'] as const) {
     if (n[k] !== undefined && typeof n[k] !== 'string') return `note ${n.id}: "${k}" must be a string`;
   }
+  if (n.reset !== undefined && typeof n.reset !== 'boolean') return `note ${n.id}: "reset" must be true or false`;
   return undefined;
 }
 
@@ -227,7 +233,7 @@ export function parseNotes(text: string, file: string): { notes: Note[]; problem
     }
     seen.add(n.id);
     const note: Note = { id: n.id, t: n.t, text: n.text, tags: n.tags ?? [], status: n.status ?? 'open' };
-    for (const k of ['tEnd', 'channel', 'updateId', 'finding', 'author', 'created'] as const) if (n[k] !== undefined) (note as unknown as Record<string, unknown>)[k] = n[k];
+    for (const k of ['tEnd', 'channel', 'updateId', 'finding', 'reset', 'author', 'created'] as const) if (n[k] !== undefined) (note as unknown as Record<string, unknown>)[k] = n[k];
     const extra: Record<string, unknown> = {};
     for (const [k, x] of Object.entries(v as Record<string, unknown>)) if (!KNOWN_KEYS.has(k)) extra[k] = x;
     if (Object.keys(extra).length) note.extra = extra;
