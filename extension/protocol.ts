@@ -165,8 +165,18 @@ export interface ReportExportMessage {
   format: 'html' | 'md';
 }
 
+/**
+ * The panel's view state changed (view tab, window, cursor, worst entry): the host keeps it so it can open the panel
+ * again in the same state when the extension host restarted (VS Code does not revive a live panel then).
+ */
+export interface ViewDidChangeMessage {
+  type: 'view/didChange';
+  view: ViewState;
+}
+
 /** Every message the webview may send. */
 export type WebviewToHostMessage =
+  | ViewDidChangeMessage
   | ReportExportMessage
   | ReadyMessage
   | SeriesRequestMessage
@@ -389,6 +399,10 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
       if (t !== undefined) out.t = t;
       if (worstIndex !== undefined) out.worstIndex = worstIndex;
       return out;
+    }
+    case 'view/didChange': {
+      const view = parseViewState(value.view);
+      return view ? { type, view } : 'view/didChange: view is not a view state';
     }
     case 'cursor/didChange': {
       const { t, worstIndex } = value;

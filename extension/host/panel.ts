@@ -45,8 +45,10 @@ export interface PanelHost {
   didUpdate(panel: AnalysisPanel): void;
   /** The panel became the active one. */
   didFocus(panel: AnalysisPanel): void;
-  /** The panel closed. */
-  didDispose(panel: AnalysisPanel): void;
+  /** The panel closed (`byUser`: closed in the editor, not disposed with the extension). */
+  didDispose(panel: AnalysisPanel, byUser: boolean): void;
+  /** The panel's view state changed (tab, window, cursor, worst entry). */
+  didChangeView(panel: AnalysisPanel): void;
 }
 
 /** Escape glob metacharacters of a file name for a RelativePattern. */
@@ -73,15 +75,18 @@ export class AnalysisPanel {
   /** Settles when the first analysis finished, failed or was cancelled. */
   readonly loaded: Promise<void> = new Promise((resolve) => (this.settleLoaded = resolve));
 
-  /** Open a new panel for `uri` beside the active editor, without taking focus. */
-  static create(host: PanelHost, uri: vscode.Uri): AnalysisPanel {
+  /**
+   * Open a new panel for `uri` beside the active editor (or in `column`), without taking focus, showing `view`
+   * (used to open a panel again in its state after the extension host restarted).
+   */
+  static create(host: PanelHost, uri: vscode.Uri, column: vscode.ViewColumn = vscode.ViewColumn.Beside, view: ViewState = {}): AnalysisPanel {
     const panel = vscode.window.createWebviewPanel(
       PANEL_VIEW_TYPE,
       AnalysisPanel.title(uri),
-      { viewColumn: vscode.ViewColumn.Beside, preserveFocus: true },
+      { viewColumn: column, preserveFocus: true },
       webviewOptions(host.extensionUri),
     );
-    return new AnalysisPanel(host, panel, uri, {});
+    return new AnalysisPanel(host, panel, uri, view);
   }
 
   /** Panel title for a log. */
@@ -101,7 +106,7 @@ export class AnalysisPanel {
     panel.webview.options = webviewOptions(host.extensionUri);
     panel.webview.html = panelHtml(panel.webview, host.extensionUri);
     this.disposables.push(
-      panel.onDidDispose(() => this.dispose()),
+      panel.onDidDispose(() => this.dispose(true)),
       panel.webview.onDidReceiveMessage((m: unknown) => this.onMessage(m)),
       panel.onDidChangeViewState((e) => {
         if (e.webviewPanel.active) host.didFocus(this);
@@ -124,6 +129,11 @@ export class AnalysisPanel {
   /** Reader diagnostics of the latest run. */
   get readerDiagnostics(): readonly ReaderDiagnostic[] {
     return this.result?.diagnostics ?? [];
+  }
+
+  /** What the panel shows and where (the webview's last view state). */
+  get viewState(): ViewState {
+    return { ...this.view };
   }
 
   /** The settings this panel's log was analysed with. */
@@ -173,14 +183,14 @@ export class AnalysisPanel {
     return abs === logPath ? this.uri : vscode.Uri.file(abs);
   }
 
-  /** Close the panel and release everything. */
-  dispose(): void {
+  /** Close the panel and release everything (`byUser`: it was closed in the editor). */
+  dispose(byUser = false): void {
     if (this.disposed) return;
     this.disposed = true;
     this.loading?.abort();
     this.session?.dispose();
     if (this.reloadTimer) clearTimeout(this.reloadTimer);
-    this.host.didDispose(this);
+    this.host.didDispose(this, byUser);
     notesPanelHooks.onDisposed?.(this);
     this.panel.dispose();
     for (const d of this.disposables.splice(0)) d.dispose();
@@ -334,6 +344,10 @@ export class AnalysisPanel {
         break;
       case 'reveal/line':
         void this.revealLine(msg);
+        break;
+      case 'view/didChange':
+        this.view = msg.view;
+        this.host.didChangeView(this);
         break;
       case 'cursor/didChange':
         this.view = { ...this.view, cursor_s: msg.t };
