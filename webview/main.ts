@@ -109,8 +109,9 @@ let lastPosted = '';
 function persist(): void {
   if (!uri) return;
   panelApi.setState({ uri, view });
+  // Only once a revision is shown: before that the view is the host's to give (a panel opened again in a state).
   const text = JSON.stringify(view);
-  if (text !== lastPosted) {
+  if (init && text !== lastPosted) {
     lastPosted = text;
     panelApi.post({ type: 'view/didChange', view: { ...view } });
   }

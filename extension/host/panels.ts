@@ -156,6 +156,7 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
       this.keepTimer = undefined;
       const kept: Record<string, KeptPanel> = {};
       for (const [uri, p] of this.byUri) kept[uri] = { title: AnalysisPanel.title(p.uri), view: p.viewState };
+      this.output.debug(`kept panels: ${JSON.stringify(kept)}`);
       void this.workspaceState?.update(KEPT_PANELS_KEY, kept);
     }, 200);
   }
@@ -183,7 +184,7 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
       }
     }
     for (const { tab, uri, view } of orphansToRevive(tabs, kept, (u) => this.byUri.has(u))) {
-      this.output.info(`opening the panel of ${uri} again (its tab was left without a panel, e.g. after an extension host restart)`);
+      this.output.info(`opening the panel of ${uri} again in view state ${JSON.stringify(view)} (its tab was left without a panel, e.g. after an extension host restart)`);
       await vscode.window.tabGroups.close(tab.tab, true).then(undefined, () => undefined);
       if (this.shuttingDown || this.byUri.has(uri)) continue;
       const log = vscode.Uri.parse(uri, true);

@@ -104,7 +104,7 @@ async function waitForRestoredPanel(): Promise<FrameLocator> {
   return f;
 }
 
-describe('a growing log, a reload and an extension host restart in a real VS Code', () => {
+describe('Residuum panel lifecycle in a real VS Code', () => {
   beforeAll(async () => {
     const tools = h.ensureTools();
     if (!existsSync(DEMO_LOG)) throw new Error(`the demo log ${DEMO_LOG} is missing (created by the demo generator)`);
