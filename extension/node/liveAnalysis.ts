@@ -108,12 +108,12 @@ export class LiveAnalysis {
       this.tail = undefined;
       restarted = 'mapping';
     }
-    this.tail ??= this.newTail(parsed, mapPath, settings.memoryBudgetBytes);
+    const size = await this.sizeOf();
+    this.tail ??= this.newTail(parsed, mapPath, settings.memoryBudgetBytes, size);
     this.key = key;
     const tail = this.tail;
 
     let start = tail.bytesRead;
-    const size = await this.sizeOf();
     const onProgress = runOptions.onProgress;
     this.onChunk = onProgress && size !== undefined
       ? (chunk, at) => {
@@ -156,12 +156,14 @@ export class LiveAnalysis {
   private onChunk: ((chunk: Uint8Array, start: number) => void) | undefined;
 
   private newTail(parsed: { mapping?: Mapping; diagnostics: Diagnostic[] } | undefined, mapPath: string | undefined,
-    memoryBudgetBytes: number): FileTail {
+    memoryBudgetBytes: number, sizeHint: number | undefined): FileTail {
     const mapping = parsed?.mapping;
     return new FileTail(this.logPath, {
       mapping,
       mapName: mapPath,
       memoryBudgetBytes,
+      // The size when the tail starts lets the reader reserve its columns once (they grow as the log does).
+      ...(sizeHint !== undefined ? { sizeHint } : {}),
       files: this.options.files,
       prepare: (reader) => {
         this.hashReset();
