@@ -215,10 +215,20 @@ export interface ResetUnconfirmMessage {
   t: number;
 }
 
+/**
+ * The panel's view state changed (view tab, window, cursor, worst entry): the host keeps it so it can open the panel
+ * again in the same state when the extension host restarted (VS Code does not revive a live panel then).
+ */
+export interface ViewDidChangeMessage {
+  type: 'view/didChange';
+  view: ViewState;
+}
+
 /** Every message the webview may send. */
 export type WebviewToHostMessage =
   | ResetConfirmMessage
   | ResetUnconfirmMessage
+  | ViewDidChangeMessage
   | ReportExportMessage
   | CompareAddMessage
   | CompareAlignMessage
@@ -239,6 +249,20 @@ export type WebviewToHostMessage =
 // ---------------------------------------------------------------------------------------------------------------
 // Host -> webview
 
+/** How the host read the log for one revision (a growing log is read from the last byte read). */
+export interface ReadInfo {
+  /** `tail`: from byte `start` to the end (start 0 on the first run or a restart); `whole`: the whole run again. */
+  mode: 'tail' | 'whole';
+  /** Byte offset of the main log this run started reading at. */
+  start: number;
+  /** Bytes of the main log read by this run. */
+  bytes: number;
+  /** Size of the main log read so far (the next run's `start` in tail mode), bytes. */
+  total: number;
+  /** Set when the log was read again from the start because it was truncated or replaced, or its mapping changed. */
+  restarted?: 'truncated' | 'replaced' | 'mapping';
+}
+
 /** Everything the panel needs to draw (sent after `ready` and again after each re-read). */
 export interface InitMessage {
   type: 'init';
@@ -257,6 +281,8 @@ export interface InitMessage {
   view?: ViewState;
   /** One line shown above the views (e.g. "The log was truncated and re-read."). */
   notice?: string;
+  /** How the log was read for this revision. */
+  read?: ReadInfo;
 }
 
 /** The envelope answering one `series/request` (columns as float64 ArrayBuffers of equal length). */
@@ -524,6 +550,10 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
       if (t !== undefined) out.t = t;
       if (worstIndex !== undefined) out.worstIndex = worstIndex;
       return out;
+    }
+    case 'view/didChange': {
+      const view = parseViewState(value.view);
+      return view ? { type, view } : 'view/didChange: view is not a view state';
     }
     case 'cursor/didChange': {
       const { t, worstIndex } = value;

@@ -106,8 +106,18 @@ function log(level: 'info' | 'warning' | 'error', message: string): void {
   panelApi.post({ type: 'log/write', level, message });
 }
 
+let lastPosted = '';
+
+/** Keep the view state with the webview (setState) and tell the host when it changed (see ViewDidChangeMessage). */
 function persist(): void {
-  if (uri) panelApi.setState({ uri, view });
+  if (!uri) return;
+  panelApi.setState({ uri, view });
+  // Only once a revision is shown: before that the view is the host's to give (a panel opened again in a state).
+  const text = JSON.stringify(view);
+  if (init && text !== lastPosted) {
+    lastPosted = text;
+    panelApi.post({ type: 'view/didChange', view: { ...view } });
+  }
 }
 
 function toFloat64(b: ArrayBuffer | ArrayBufferView | undefined): Float64Array | undefined {
@@ -151,6 +161,24 @@ function showStatus(msg: StatusMessage): void {
 
 // ---------------------------------------------------------------------------------------------------------------
 // Building the views
+
+/**
+ * Facts of the revision shown, as attributes of `main#app` for tests and the editor bench: the revision, the epochs
+ * analysed, and which bytes of the log the host read for it (a growing log is read from the last byte read).
+ */
+function markRevision(message: InitMessage): void {
+  app.dataset.revision = String(message.revision);
+  app.dataset.epochs = String(message.report.time.epochs);
+  const read = message.read;
+  if (read) {
+    app.dataset.readMode = read.mode;
+    app.dataset.readStart = String(read.start);
+    app.dataset.readBytes = String(read.bytes);
+    app.dataset.readTotal = String(read.total);
+    if (read.restarted) app.dataset.readRestarted = read.restarted;
+    else delete app.dataset.readRestarted;
+  }
+}
 
 function destroyCharts(): void {
   for (const e of entries) e.chart.destroy();
@@ -215,6 +243,7 @@ function render(message: InitMessage): void {
   }
   app.dataset.state = 'ready';
   app.setAttribute('aria-busy', 'false');
+  markRevision(message);
   persist();
   requestAll();
   applySelection();

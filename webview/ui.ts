@@ -96,7 +96,8 @@ export function tabs(items: readonly { id: string; label: string; count?: number
   const initial = tabIds.get(active) ?? 'tab-0';
   root.setAttribute('activeid', initial);
   root.addEventListener('change', () => {
-    const activeId = root.getAttribute('activeid') ?? (root as HTMLElement & { activeid?: string }).activeid;
+    // The property first: the toolkit reflects `activeid` to the attribute only after the change event.
+    const activeId = (root as HTMLElement & { activeid?: string }).activeid ?? root.getAttribute('activeid');
     const item = items.find((it) => tabIds.get(it.id) === activeId);
     if (item) onSelect(item.id);
   });

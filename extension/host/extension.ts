@@ -34,7 +34,7 @@ export function activate(context: vscode.ExtensionContext): ResiduumApi {
   const diagnostics = vscode.languages.createDiagnosticCollection('residuum');
   const status = vscode.window.createStatusBarItem('residuum.summary', vscode.StatusBarAlignment.Right, 100);
   status.name = 'Residuum consistency';
-  const manager = new PanelManager(context.extensionUri, output, diagnostics, status);
+  const manager = new PanelManager(context.extensionUri, output, diagnostics, status, context.workspaceState);
 
   const open = async (uri: vscode.Uri): Promise<void> => {
     await manager.open(uri).loaded;

@@ -21,6 +21,7 @@ import {
   type HostToWebviewMessage,
   type HistogramInfo,
   type InitMessage,
+  type ReadInfo,
   type RevealLineMessage,
   type ViewState,
 } from '../protocol';
@@ -28,8 +29,10 @@ import { readConfiguration, type EditorConfiguration } from './configuration';
 import { nisHistogram } from './histogram';
 import { notesPanelHooks } from './notesPanelHook';
 import { panelHtml, webviewOptions } from './html';
+import { describeRead, restartNotice } from './liveText';
 import { stepIndex } from './ranking';
-import { AnalysisError, runAnalysis, runComparison, runMonteCarlo, type AnalysisResult } from './runAnalysis';
+import type { WorkerRequest } from './analysisWorker';
+import { AnalysisError, AnalysisSession, runComparison, runMonteCarlo, type AnalysisResult } from './runAnalysis';
 import { compareReadyMessage, compareStateMessage, monteCarloReadyMessage, monteCarloStateMessage } from './runsMessages';
 import { expandRunUris, pickCompareRuns, pickMonteCarloRuns } from './runsPick';
 import { SeriesStore } from './seriesStore';
@@ -48,8 +51,10 @@ export interface PanelHost {
   didUpdate(panel: AnalysisPanel): void;
   /** The panel became the active one. */
   didFocus(panel: AnalysisPanel): void;
-  /** The panel closed. */
-  didDispose(panel: AnalysisPanel): void;
+  /** The panel closed (`byUser`: closed in the editor, not disposed with the extension). */
+  didDispose(panel: AnalysisPanel, byUser: boolean): void;
+  /** The panel's view state changed (tab, window, cursor, worst entry). */
+  didChangeView(panel: AnalysisPanel): void;
 }
 
 /** Escape glob metacharacters of a file name for a RelativePattern. */
@@ -68,8 +73,7 @@ export class AnalysisPanel {
   private loading: AbortController | undefined;
   private reloadPending = false;
   private error: string | undefined;
-  private notice: string | undefined;
-  private lastSize: number | undefined;
+  private session: AnalysisSession | undefined;
   private reloadTimer: ReturnType<typeof setTimeout> | undefined;
   private disposed = false;
   private config: EditorConfiguration;
@@ -88,15 +92,18 @@ export class AnalysisPanel {
   /** Settles when the first analysis finished, failed or was cancelled. */
   readonly loaded: Promise<void> = new Promise((resolve) => (this.settleLoaded = resolve));
 
-  /** Open a new panel for `uri` beside the active editor, without taking focus. */
-  static create(host: PanelHost, uri: vscode.Uri): AnalysisPanel {
+  /**
+   * Open a new panel for `uri` beside the active editor (or in `column`), without taking focus, showing `view`
+   * (used to open a panel again in its state after the extension host restarted).
+   */
+  static create(host: PanelHost, uri: vscode.Uri, column: vscode.ViewColumn = vscode.ViewColumn.Beside, view: ViewState = {}): AnalysisPanel {
     const panel = vscode.window.createWebviewPanel(
       PANEL_VIEW_TYPE,
       AnalysisPanel.title(uri),
-      { viewColumn: vscode.ViewColumn.Beside, preserveFocus: true },
+      { viewColumn: column, preserveFocus: true },
       webviewOptions(host.extensionUri),
     );
-    return new AnalysisPanel(host, panel, uri, {});
+    return new AnalysisPanel(host, panel, uri, view);
   }
 
   /** Panel title for a log. */
@@ -116,7 +123,7 @@ export class AnalysisPanel {
     panel.webview.options = webviewOptions(host.extensionUri);
     panel.webview.html = panelHtml(panel.webview, host.extensionUri);
     this.disposables.push(
-      panel.onDidDispose(() => this.dispose()),
+      panel.onDidDispose(() => this.dispose(true)),
       panel.webview.onDidReceiveMessage((m: unknown) => this.onMessage(m)),
       panel.onDidChangeViewState((e) => {
         if (e.webviewPanel.active) host.didFocus(this);
@@ -141,15 +148,23 @@ export class AnalysisPanel {
     return this.result?.diagnostics ?? [];
   }
 
+  /** What the panel shows and where (the webview's last view state). */
+  get viewState(): ViewState {
+    return { ...this.view };
+  }
+
   /** The settings this panel's log was analysed with. */
   get configuration(): EditorConfiguration {
     return this.config;
   }
 
-  /** Worst entries and findings count for in-host tests (undefined until the first analysis finished). */
-  state(): { worst: WorstEntry[]; findings: number } | undefined {
+  /** Worst entries, findings count and how the log was last read, for in-host tests (undefined until analysed). */
+  state(): { worst: WorstEntry[]; findings: number; epochs: number; read?: ReadInfo } | undefined {
     const r = this.result?.report;
-    return r ? { worst: r.worst, findings: r.findings.length } : undefined;
+    if (!r) return undefined;
+    const out: { worst: WorstEntry[]; findings: number; epochs: number; read?: ReadInfo } = { worst: r.worst, findings: r.findings.length, epochs: r.time.epochs };
+    if (this.result?.read) out.read = this.result.read;
+    return out;
   }
 
   /** Show the panel (in its column) without taking focus. */
@@ -287,15 +302,16 @@ export class AnalysisPanel {
     }
   }
 
-  /** Close the panel and release everything. */
-  dispose(): void {
+  /** Close the panel and release everything (`byUser`: it was closed in the editor). */
+  dispose(byUser = false): void {
     if (this.disposed) return;
     this.disposed = true;
     this.loading?.abort();
+    this.session?.dispose();
     this.comparing?.abort();
     this.monteCarloRunning?.abort();
     if (this.reloadTimer) clearTimeout(this.reloadTimer);
-    this.host.didDispose(this);
+    this.host.didDispose(this, byUser);
     notesPanelHooks.onDisposed?.(this);
     this.panel.dispose();
     for (const d of this.disposables.splice(0)) d.dispose();
@@ -337,7 +353,13 @@ export class AnalysisPanel {
     this.post({ type: 'status', state: 'loading', uri: this.uri.toString() });
     const name = path.basename(this.uri.fsPath);
     const workerFile = vscode.Uri.joinPath(this.host.extensionUri, 'dist', 'analysisWorker.js').fsPath;
-    const request = { path: this.uri.fsPath, map: this.mapPath(), settings: this.config.analysis };
+    const request: WorkerRequest = { path: this.uri.fsPath, map: this.mapPath(), settings: this.config.analysis };
+    // One session per request: new settings or another mapping path start a new one (which reads from the start).
+    if (this.session && JSON.stringify(this.session.request) !== JSON.stringify(request)) {
+      this.session.dispose();
+      this.session = undefined;
+    }
+    const session = (this.session ??= new AnalysisSession(workerFile, request));
     const started = Date.now();
     try {
       const result = await vscode.window.withProgress(
@@ -347,7 +369,7 @@ export class AnalysisPanel {
         (progress, token) => {
           token.onCancellationRequested(() => controller.abort());
           let reported = 0;
-          return runAnalysis(workerFile, request, (fraction) => {
+          return session.run((fraction) => {
             const percent = Math.round(fraction * 100);
             if (percent > reported) {
               progress.report({ increment: percent - reported, message: `${percent}% read` });
@@ -359,7 +381,7 @@ export class AnalysisPanel {
       );
       if (this.disposed) return;
       this.accept(result);
-      this.host.output.info(`analysed ${this.uri.fsPath} in ${Date.now() - started} ms (${result.report.time.epochs} epochs, ${result.series.length} series)`);
+      this.host.output.info(`analysed ${this.uri.fsPath} in ${Date.now() - started} ms (${result.report.time.epochs} epochs, ${result.series.length} series; ${describeRead(result.read)})`);
     } catch (e) {
       if (this.disposed) return;
       if (e instanceof DOMException && e.name === 'AbortError') {
@@ -395,8 +417,9 @@ export class AnalysisPanel {
     }
     this.revision++;
     if (this.view.worstIndex !== undefined && this.view.worstIndex >= result.report.worst.length) this.view = { ...this.view, worstIndex: undefined };
-    this.sendInit(this.notice);
-    this.notice = undefined;
+    const notice = restartNotice(result.read);
+    if (notice) this.host.output.info(`${this.uri.fsPath}: ${notice}`);
+    this.sendInit(notice);
     this.host.didUpdate(this);
     notesPanelHooks.onAnalysed?.(this);
   }
@@ -423,6 +446,7 @@ export class AnalysisPanel {
       histograms: this.histograms,
       view: this.view,
     };
+    if (r.read) message.read = r.read;
     if (notice) message.notice = notice;
     this.post(message);
     this.resendRuns();
@@ -452,6 +476,10 @@ export class AnalysisPanel {
         break;
       case 'reveal/line':
         void this.revealLine(msg);
+        break;
+      case 'view/didChange':
+        this.view = msg.view;
+        this.host.didChangeView(this);
         break;
       case 'cursor/didChange':
         this.view = { ...this.view, cursor_s: msg.t };
@@ -533,7 +561,10 @@ export class AnalysisPanel {
     return own !== undefined ? ((own + 1) as vscode.ViewColumn) : vscode.ViewColumn.Beside;
   }
 
-  /** Watch the log and its default mapping file; re-read on change (debounced), say so on truncation or deletion. */
+  /**
+   * Watch the log and its default mapping file; re-read on change (debounced). The session reads only what was
+   * appended, and from the start (with a note) when the log was truncated or replaced or the mapping changed.
+   */
   private watch(): void {
     if (this.uri.scheme !== 'file') return;
     const dir = vscode.Uri.file(path.dirname(this.uri.fsPath));
@@ -541,33 +572,27 @@ export class AnalysisPanel {
     const watcher = vscode.workspace.createFileSystemWatcher(new vscode.RelativePattern(dir, `{${base},${base}.map.json}`));
     this.disposables.push(
       watcher,
-      watcher.onDidChange(() => this.scheduleReload(false)),
-      watcher.onDidCreate(() => this.scheduleReload(true)),
+      watcher.onDidChange(() => this.scheduleReload()),
+      watcher.onDidCreate(() => this.scheduleReload()),
       watcher.onDidDelete((u) => {
-        if (u.toString() !== this.uri.toString()) return this.scheduleReload(false);
+        if (u.toString() !== this.uri.toString()) return this.scheduleReload();
         this.host.output.warn(`${this.uri.fsPath} was deleted`);
         this.sendInit('The log was deleted; the panel shows its last reading.');
       }),
     );
-    void this.statSize().then((s) => (this.lastSize = s));
   }
 
-  private scheduleReload(created: boolean): void {
+  private scheduleReload(): void {
     if (this.reloadTimer) clearTimeout(this.reloadTimer);
     this.reloadTimer = setTimeout(() => {
       this.reloadTimer = undefined;
-      void this.checkAndReload(created);
+      void this.checkAndReload();
     }, RELOAD_DEBOUNCE_MS);
   }
 
-  private async checkAndReload(created: boolean): Promise<void> {
-    const size = await this.statSize();
-    if (size === undefined) return;
-    if (created) this.notice = 'The log was replaced; it was read again from the start.';
-    else if (this.lastSize !== undefined && size < this.lastSize) this.notice = 'The log became shorter (truncated or replaced); it was read again from the start.';
-    if (this.notice) this.host.output.info(`${this.uri.fsPath}: ${this.notice}`);
-    this.lastSize = size;
-    // The reader has no incremental API yet, so a grown log is read again whole (in the worker, off this thread).
+  private async checkAndReload(): Promise<void> {
+    // A deleted log (a delete event may follow) keeps its last reading.
+    if ((await this.statSize()) === undefined) return;
     await this.load('change');
   }
 

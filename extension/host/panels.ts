@@ -6,9 +6,15 @@
 import * as vscode from 'vscode';
 import type { WorstEntry } from '../core/report';
 import { parsePersistedState, type ViewState } from '../protocol';
-import { AnalysisPanel, type PanelHost } from './panel';
+import { AnalysisPanel, PANEL_VIEW_TYPE, type PanelHost } from './panel';
 import { toProblems } from './problems';
 import { headlineInside95 } from './ranking';
+import { orphansToRevive, parseKeptPanels, type KeptPanel } from './revive';
+
+/** Workspace-state key of the open panels' logs and view states (see revive.ts). */
+const KEPT_PANELS_KEY = 'residuum.openPanels';
+/** How long after activation the serializer has to revive visible panels before a tab counts as orphaned, ms. */
+const REVIVE_GRACE_MS = 2500;
 
 /** Manages every analysis panel of the extension. */
 export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
@@ -18,12 +24,25 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
   /** Column names of `unknown-column` diagnostics, by {@link unknownColumnKey} (read by the quick fix). */
   readonly unknownColumns = new Map<string, string>();
 
+  private shuttingDown = false;
+  private keepTimer: ReturnType<typeof setTimeout> | undefined;
+  private reviveTimer: ReturnType<typeof setTimeout> | undefined;
+  private readonly watchTabs: vscode.Disposable | undefined;
+
   constructor(
     readonly extensionUri: vscode.Uri,
     readonly output: vscode.LogOutputChannel,
     private readonly diagnostics: vscode.DiagnosticCollection,
     private readonly statusItem: vscode.StatusBarItem,
-  ) {}
+    private readonly workspaceState?: vscode.Memento,
+  ) {
+    if (workspaceState) {
+      // After the serializer had its chance, open again the panels whose tabs no panel owns (revive.ts); and again
+      // whenever such a tab is shown later.
+      this.scheduleRevive(REVIVE_GRACE_MS);
+      this.watchTabs = vscode.window.tabGroups.onDidChangeTabs(() => this.scheduleRevive(REVIVE_GRACE_MS));
+    }
+  }
 
   /** Open (or reveal) the panel of `uri` beside the active editor. */
   open(uri: vscode.Uri): AnalysisPanel {
@@ -36,6 +55,7 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     const panel = AnalysisPanel.create(this, uri);
     this.byUri.set(uri.toString(), panel);
     this.didFocus(panel);
+    this.scheduleKeep();
     return panel;
   }
 
@@ -85,9 +105,17 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     for (const p of this.all()) if (e.affectsConfiguration('residuum', p.uri)) p.reconfigure();
   }
 
-  /** Close every panel. */
+  /** Close every panel (the extension stops: the kept panels stay kept for the next activation). */
   dispose(): void {
+    this.shuttingDown = true;
+    if (this.keepTimer) clearTimeout(this.keepTimer);
+    if (this.reviveTimer) clearTimeout(this.reviveTimer);
+    this.watchTabs?.dispose();
     for (const p of this.all()) p.dispose();
+  }
+
+  didChangeView(panel: AnalysisPanel): void {
+    if (this.byUri.get(panel.uri.toString()) === panel) this.scheduleKeep();
   }
 
   didUpdate(panel: AnalysisPanel): void {
@@ -100,8 +128,11 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     this.updateStatus();
   }
 
-  didDispose(panel: AnalysisPanel): void {
-    if (this.byUri.get(panel.uri.toString()) === panel) this.byUri.delete(panel.uri.toString());
+  didDispose(panel: AnalysisPanel, byUser: boolean): void {
+    if (this.byUri.get(panel.uri.toString()) === panel) {
+      this.byUri.delete(panel.uri.toString());
+      if (byUser && !this.shuttingDown) this.scheduleKeep();
+    }
     this.editors.delete(panel);
     if (this.active === panel) this.active = this.all().at(-1);
     const other = this.find(panel.uri);
@@ -114,6 +145,54 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     const panel = new AnalysisPanel(this, webviewPanel, uri, view);
     this.byUri.set(uri.toString(), panel);
     this.didFocus(panel);
+    this.scheduleKeep();
+  }
+
+  /** Write the open panels' logs and view states to the workspace state (debounced). */
+  private scheduleKeep(): void {
+    if (!this.workspaceState || this.shuttingDown) return;
+    if (this.keepTimer) clearTimeout(this.keepTimer);
+    this.keepTimer = setTimeout(() => {
+      this.keepTimer = undefined;
+      const kept: Record<string, KeptPanel> = {};
+      for (const [uri, p] of this.byUri) kept[uri] = { title: AnalysisPanel.title(p.uri), view: p.viewState };
+      this.output.debug(`kept panels: ${JSON.stringify(kept)}`);
+      void this.workspaceState?.update(KEPT_PANELS_KEY, kept);
+    }, 200);
+  }
+
+  private scheduleRevive(delay_ms: number): void {
+    if (this.shuttingDown) return;
+    if (this.reviveTimer) clearTimeout(this.reviveTimer);
+    this.reviveTimer = setTimeout(() => {
+      this.reviveTimer = undefined;
+      void this.reviveOrphans();
+    }, delay_ms);
+  }
+
+  /** Open again, in the same column and state, the visible Residuum tabs that no panel owns (see revive.ts). */
+  private async reviveOrphans(): Promise<void> {
+    if (!this.workspaceState || this.shuttingDown) return;
+    const kept = parseKeptPanels(this.workspaceState.get(KEPT_PANELS_KEY));
+    if (kept.size === 0) return;
+    const tabs: { label: string; active: boolean; tab: vscode.Tab; column: vscode.ViewColumn }[] = [];
+    for (const group of vscode.window.tabGroups.all) {
+      for (const tab of group.tabs) {
+        if (tab.input instanceof vscode.TabInputWebview && tab.input.viewType.endsWith(PANEL_VIEW_TYPE)) {
+          tabs.push({ label: tab.label, active: tab.isActive, tab, column: group.viewColumn });
+        }
+      }
+    }
+    for (const { tab, uri, view } of orphansToRevive(tabs, kept, (u) => this.byUri.has(u))) {
+      this.output.info(`opening the panel of ${uri} again in view state ${JSON.stringify(view)} (its tab was left without a panel, e.g. after an extension host restart)`);
+      await vscode.window.tabGroups.close(tab.tab, true).then(undefined, () => undefined);
+      if (this.shuttingDown || this.byUri.has(uri)) continue;
+      const log = vscode.Uri.parse(uri, true);
+      const panel = AnalysisPanel.create(this, log, tab.column, view);
+      this.byUri.set(uri, panel);
+      this.didFocus(panel);
+    }
+    this.scheduleKeep();
   }
 
   private all(): AnalysisPanel[] {

@@ -16,16 +16,32 @@ export interface TailResult {
   restarted?: 'truncated' | 'replaced';
 }
 
+/** Options of a {@link FileTail}: those of its LogReader, plus the file layer and two hooks. */
+export interface FileTailOptions extends LogReaderOptions {
+  /** File layer (node:fs by default; tests inject faults). */
+  files?: FileLayer;
+  /** Called with every new LogReader (the first, and each after a restart), before any byte is pushed. */
+  prepare?: (reader: LogReader) => void;
+  /** Called with every chunk pushed and the byte offset it starts at (0: the first chunk of a new reader). */
+  onChunk?: (chunk: Uint8Array, start: number) => void;
+}
+
 /** A growing log followed by repeated {@link poll} calls. */
 export class FileTail {
   private reader: LogReader;
   private identity: { ino: number; dev: number } | undefined;
   private readonly files: FileLayer;
 
-  /** Follow `filePath`; `options` as for a LogReader, `files` the file layer (node:fs by default; tests inject). */
-  constructor(readonly filePath: string, private readonly options: LogReaderOptions & { files?: FileLayer } = {}) {
+  /** Follow `filePath`; `options` as for a LogReader, plus the file layer and hooks ({@link FileTailOptions}). */
+  constructor(readonly filePath: string, private readonly options: FileTailOptions = {}) {
     this.files = options.files ?? NODE_FILES;
-    this.reader = new LogReader(filePath, options);
+    this.reader = this.newReader();
+  }
+
+  private newReader(): LogReader {
+    const reader = new LogReader(this.filePath, this.options);
+    this.options.prepare?.(reader);
+    return reader;
   }
 
   /** Bytes of the file read so far. */
@@ -51,6 +67,7 @@ export class FileTail {
       this.identity = { ino: st.ino, dev: st.dev };
       try {
         for await (const chunk of fileByteSource(this.filePath, { start: this.reader.bytesRead, files: this.files }).chunks()) {
+          this.options.onChunk?.(chunk, this.reader.bytesRead);
           this.reader.push(chunk);
         }
         return restarted ? { log: this.reader.snapshot(), restarted } : { log: this.reader.snapshot() };
@@ -69,7 +86,7 @@ export class FileTail {
 
   private restart(why: 'truncated' | 'replaced', size: number): void {
     const before = this.reader.bytesRead;
-    this.reader = new LogReader(this.filePath, this.options);
+    this.reader = this.newReader();
     const what = why === 'replaced'
       ? `${this.filePath} was replaced by another file while it was being followed`
       : `${this.filePath} was truncated while it was being followed (it shrank to ${size} bytes after ${before} had been read)`;
