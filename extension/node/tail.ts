@@ -50,7 +50,7 @@ export class FileTail {
       }
       this.identity = { ino: st.ino, dev: st.dev };
       try {
-        for await (const chunk of fileByteSource(this.filePath, { start: this.reader.bytesRead, files: this.files }).chunks()) {
+        for await (const chunk of fileByteSource(this.filePath, { start: this.reader.bytesRead, files: this.files, reuse: true }).chunks()) {
           this.reader.push(chunk);
         }
         return restarted ? { log: this.reader.snapshot(), restarted } : { log: this.reader.snapshot() };
