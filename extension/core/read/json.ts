@@ -17,7 +17,7 @@ import { decodeUtf8 } from './utf8';
 import { parseWallClock } from './wallclock';
 import { choleskyFactor, asymmetry } from '../linalg/cholesky';
 import { clip } from './diagnostics';
-import { JsonLineScanner, LEAF_NUM, LEAF_STR, SCAN_BLANK, SCAN_OK, numberTag, stringTag } from './jsonShape';
+import { JsonLineScanner, LEAF_NUM, LEAF_STR, SCAN_BLANK, SCAN_GENERAL, SCAN_OK, jsonLineHotPath, numberTag, stringTag } from './jsonShape';
 
 /** Options of one JSON / JSON Lines file of a run. */
 export interface JsonFileOptions {
@@ -492,7 +492,7 @@ export class JsonlFileReader {
 
   private onLine(b: Uint8Array, s: number, e: number, line: number, run: RunBuilder): void {
     // The hot path (jsonShape.ts): lines of a learned shape fill their row straight from bytes.
-    const scanned = this.scanner.scan(b, s, e);
+    const scanned = jsonLineHotPath.enabled ? this.scanner.scan(b, s, e) : SCAN_GENERAL;
     if (scanned === SCAN_BLANK) return;
     if (scanned === SCAN_OK) {
       const shape = this.sink.shapeFor(this.scanner, line);

@@ -30,6 +30,12 @@ export const LEAF_NUM = 0x01;
 /** Shape byte standing for a string leaf. */
 export const LEAF_STR = 0x02;
 
+/**
+ * Whether JSON Lines readers use this hot path (default true). Tests turn it off to compare every record with the
+ * general path, which is the reference the hot path must equal bit for bit.
+ */
+export const jsonLineHotPath = { enabled: true };
+
 /** Deepest nesting the scanner follows (records are at most three levels deep). */
 const MAX_DEPTH = 32;
 /** Longest shape the scanner builds, bytes; longer lines take the general path. */
