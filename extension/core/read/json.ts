@@ -25,7 +25,12 @@ export interface JsonFileOptions {
   mapping?: Mapping;
   role: FileRole;
   mapName?: string;
+  /** Size of the file in bytes, when known: used to reserve the columns once instead of growing them. */
+  sizeHint?: number;
 }
+
+/** JSON Lines records looked at before the column storage is reserved from the file size. */
+const RESERVE_AFTER_LINES = 1024;
 
 const AXES = ['x', 'y', 'z'];
 const VECTORS = ['p', 'v', 'bg', 'ba', 'att'];
@@ -479,10 +484,31 @@ export class JsonlFileReader {
   private readonly sink: JsonRecordSink;
   private readonly scanner = new JsonLineScanner();
   private any = false;
+  private lines = 0;
+  private lineBytes = 0;
 
-  constructor(run: RunBuilder, readonly file: string, opts: JsonFileOptions) {
+  constructor(run: RunBuilder, readonly file: string, private readonly opts: JsonFileOptions) {
     this.sink = new JsonRecordSink(run, file, opts);
     this.splitter = new LineSplitter((b, s, e, line) => this.onLine(b, s, e, line, run));
+  }
+
+  /**
+   * After the first lines, reserve every stream that grew in proportion to the file size (as the CSV reader does),
+   * so the columns are allocated once instead of doubling (each doubling copies and faults in fresh memory).
+   */
+  private countLine(bytes: number, run: RunBuilder): void {
+    this.lines++;
+    this.lineBytes += bytes;
+    const size = this.opts.sizeHint;
+    if (this.lines !== RESERVE_AFTER_LINES || !size || size <= 0) return;
+    const lines = (size / (this.lineBytes / this.lines)) * 1.02;
+    for (const b of run.builders()) {
+      if (b.length === 0) continue;
+      const want = Math.ceil(b.length + ((b.length / this.lines) * lines));
+      // Under a memory budget that would not grant the whole reservation, growth (and decimation) go on as before.
+      if (b.guard && b.guard.capacityFor(b, want) < want) continue;
+      b.reserve(want);
+    }
   }
 
   /** Bytes consumed so far. */
@@ -491,6 +517,7 @@ export class JsonlFileReader {
   }
 
   private onLine(b: Uint8Array, s: number, e: number, line: number, run: RunBuilder): void {
+    if (this.lines < RESERVE_AFTER_LINES) this.countLine(e - s + 1, run);
     // The hot path (jsonShape.ts): lines of a learned shape fill their row straight from bytes.
     const scanned = jsonLineHotPath.enabled ? this.scanner.scan(b, s, e) : SCAN_GENERAL;
     if (scanned === SCAN_BLANK) return;
