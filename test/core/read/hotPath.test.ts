@@ -267,3 +267,20 @@ describe('CSV reader across chunk boundaries', () => {
     }
   });
 });
+
+describe('medianInPlace (selection instead of a sort, for the time-gap checks)', () => {
+  it('equals the median of the sorted values on seeded random arrays with ties', async () => {
+    const { medianInPlace } = await import('../../../extension/core/read/checks');
+    const rnd = mulberry32(42);
+    for (let n = 0; n < 400; n++) {
+      const len = 1 + Math.floor(rnd() * 300);
+      const ties = rnd() < 0.5;
+      const a = Float64Array.from({ length: len }, () => (ties ? Math.floor(rnd() * 5) * 0.01 : rnd() * 0.02 + 0.005));
+      const sorted = Float64Array.from(a).sort();
+      const m = len >> 1;
+      const expected = len % 2 ? sorted[m] : 0.5 * (sorted[m - 1] + sorted[m]);
+      expect(medianInPlace(a)).toBe(expected);
+    }
+    expect(Number.isNaN(medianInPlace(new Float64Array(0)))).toBe(true);
+  });
+});
