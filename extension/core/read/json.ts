@@ -501,10 +501,10 @@ export class JsonlFileReader {
     this.lineBytes += bytes;
     const size = this.opts.sizeHint;
     if (this.lines !== RESERVE_AFTER_LINES || !size || size <= 0) return;
-    const lines = (size / (this.lineBytes / this.lines)) * 1.02;
+    const lines = (size / (this.lineBytes / this.lines)) * 1.02; // estimated lines of the whole file, with a margin
     for (const b of run.builders()) {
       if (b.length === 0) continue;
-      const want = Math.ceil(b.length + ((b.length / this.lines) * lines));
+      const want = Math.max(b.length + 1, Math.ceil((b.length / this.lines) * lines));
       // Under a memory budget that would not grant the whole reservation, growth (and decimation) go on as before.
       if (b.guard && b.guard.capacityFor(b, want) < want) continue;
       b.reserve(want);

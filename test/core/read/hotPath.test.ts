@@ -284,3 +284,36 @@ describe('medianInPlace (selection instead of a sort, for the time-gap checks)',
     expect(Number.isNaN(medianInPlace(new Float64Array(0)))).toBe(true);
   });
 });
+
+describe('JSON Lines columns reserved from the file size, under a memory budget', () => {
+  /** `n` state records and a 1-dof update on every 2nd. */
+  function jsonl(n: number): string {
+    const lines: string[] = [];
+    for (let i = 0; i < n; i++) {
+      lines.push(`{"kind":"state","t":${(i * 0.01).toFixed(2)},"p":[${i},${2 * i},${-i}],"q":[1,0,0,0]}`);
+      if (i % 2 === 0) lines.push(`{"kind":"update","t":${(i * 0.01).toFixed(2)},"channel":"uwb","nu":[${(i % 7) / 10}],"S":[[0.25]]}`);
+    }
+    return `${lines.join('\n')}\n`;
+  }
+
+  it('reads the whole log when the budget holds its columns once (no doubling needed), else decimates', async () => {
+    const n = 6000;
+    const text = jsonl(n);
+    const full = await readLogText(text, 'b.jsonl');
+    expect(full.state.length).toBe(n);
+    // State: t, line, file index and 7 values; the channel: t, line, file index, nu, S, id (bytes per record).
+    const needed = n * (18 + 7 * 8) + (n / 2) * (18 + 3 * 8);
+    const roomy = await readLogText(text, 'b.jsonl', { memoryBudgetBytes: Math.ceil(needed * 1.5) });
+    expect(roomy.partial).toBeUndefined();
+    expect(fingerprint(roomy)).toBe(fingerprint(full));
+    const tight = await readLogText(text, 'b.jsonl', { memoryBudgetBytes: Math.floor(needed / 3) });
+    expect(tight.partial).toBe(true);
+    expect(tight.state.length).toBeLessThan(n);
+    // Kept records are records of the full read (same time, line and values), in order.
+    const k = Math.round(n / tight.state.length);
+    for (let i = 0; i < tight.state.length; i += 97) {
+      expect(tight.state.line[i]).toBe(full.state.line[i * k]);
+      expect(tight.state.columns.get('p_y')?.[i]).toBe(full.state.columns.get('p_y')?.[i * k]);
+    }
+  });
+});
