@@ -114,7 +114,7 @@ async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memory
   const files = options.files;
   const size = statSync(logPath).size;
   const hash = createHash('sha256');
-  const raw = fileByteSource(logPath, { files });
+  const raw = fileByteSource(logPath, { files, reuse: true }); // every consumer below copies what it keeps
   let bytesRead = 0;
   let failure: Error | undefined;
   const main: ByteSource = {

@@ -66,7 +66,7 @@ export class FileTail {
       }
       this.identity = { ino: st.ino, dev: st.dev };
       try {
-        for await (const chunk of fileByteSource(this.filePath, { start: this.reader.bytesRead, files: this.files }).chunks()) {
+        for await (const chunk of fileByteSource(this.filePath, { start: this.reader.bytesRead, files: this.files, reuse: true }).chunks()) {
           this.options.onChunk?.(chunk, this.reader.bytesRead);
           this.reader.push(chunk);
         }

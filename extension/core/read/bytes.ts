@@ -1,3 +1,20 @@
+/** The byte search the line splitter needs (a Uint8Array has it; so has a Node Buffer). */
+interface ByteSearch {
+  indexOf(value: number, from: number): number;
+}
+
+/**
+ * Node's Buffer, reached through `globalThis` when present (the core has no Node types or imports): its `indexOf`
+ * is memchr, about five times as fast as `Uint8Array.prototype.indexOf` (measured on the benchmark log: newline search
+ * 5-20 ms against 40-60 ms). Elsewhere (a browser) the Uint8Array's own `indexOf` is used.
+ */
+const NodeBuffer = (globalThis as unknown as { Buffer?: { from(a: ArrayBufferLike, offset: number, length: number): ByteSearch } }).Buffer;
+
+/** A fast byte search over the bytes of `b` (same offsets). */
+function searchable(b: Uint8Array): ByteSearch {
+  return NodeBuffer ? NodeBuffer.from(b.buffer, b.byteOffset, b.byteLength) : b;
+}
+
 /** A growable byte buffer (amortised O(1) appends) for partial lines and quoted records spanning chunks. */
 export class ByteBuffer {
   bytes = new Uint8Array(256);
@@ -82,8 +99,9 @@ export class LineSplitter {
       this.emit(this.pending.bytes, 0, this.pending.length - 1);
       this.pending.clear();
     }
+    const f = searchable(b);
     if (this.pending.length > 0) {
-      const idx = b.indexOf(sep);
+      const idx = f.indexOf(sep, 0);
       if (idx < 0) { this.pending.append(b); return; }
       this.pending.append(b, 0, idx);
       this.emit(this.pending.bytes, 0, this.pending.length);
@@ -95,13 +113,13 @@ export class LineSplitter {
     // The other line-break byte (a lone CR in an LF file, an LF in a CR file) is looked up the same way: files that
     // mix LF, CRLF and CR still end a line at each.
     const other = sep === 10 ? 13 : 10;
-    let nextQuote = b.indexOf(0x22, pos);
-    let nextOther = b.indexOf(other, pos);
+    let nextQuote = f.indexOf(0x22, pos);
+    let nextOther = f.indexOf(other, pos);
     for (;;) {
-      const idx = b.indexOf(sep, pos);
+      const idx = f.indexOf(sep, pos);
       if (idx < 0) break;
-      if (nextQuote >= 0 && nextQuote < pos) nextQuote = b.indexOf(0x22, pos);
-      if (nextOther >= 0 && nextOther < pos) nextOther = b.indexOf(other, pos);
+      if (nextQuote >= 0 && nextQuote < pos) nextQuote = f.indexOf(0x22, pos);
+      if (nextOther >= 0 && nextOther < pos) nextOther = f.indexOf(other, pos);
       const quote = nextQuote >= 0 && nextQuote < idx;
       if (nextOther >= 0 && nextOther < idx) this.emitMixed(b, pos, idx);
       else this.emitQ(b, pos, idx, quote);

@@ -299,7 +299,9 @@ export class CsvFileReader {
     for (;;) {
       const kind = kinds[c];
       const start = p;
-      if (kind === CELL_NUM) {
+      if (kind === CELL_NUM && (p === e || b[p] === delim)) {
+        vals[c] = NaN; // an empty cell (a channel that did not update): what parseDecimal would say, without its general path
+      } else if (kind === CELL_NUM) {
         const st = parseDecimal(b, p, e, delim);
         p = numStop;
         if (st === NUM_OK) vals[c] = numValue[0] * scale[c] + offset[c];

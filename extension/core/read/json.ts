@@ -17,6 +17,7 @@ import { decodeUtf8 } from './utf8';
 import { parseWallClock } from './wallclock';
 import { choleskyFactor, asymmetry } from '../linalg/cholesky';
 import { clip } from './diagnostics';
+import { JsonLineScanner, LEAF_NUM, LEAF_STR, SCAN_BLANK, SCAN_GENERAL, SCAN_OK, jsonLineHotPath, numberTag, stringTag } from './jsonShape';
 
 /** Options of one JSON / JSON Lines file of a run. */
 export interface JsonFileOptions {
@@ -24,7 +25,12 @@ export interface JsonFileOptions {
   mapping?: Mapping;
   role: FileRole;
   mapName?: string;
+  /** Size of the file in bytes, when known: used to reserve the columns once instead of growing them. */
+  sizeHint?: number;
 }
+
+/** JSON Lines records looked at before the column storage is reserved from the file size. */
+const RESERVE_AFTER_LINES = 1024;
 
 const AXES = ['x', 'y', 'z'];
 const VECTORS = ['p', 'v', 'bg', 'ba', 'att'];
@@ -36,6 +42,15 @@ export class JsonRecordSink {
   private readonly plans = new Map<string, RowPlan>();
   private readonly quatOrder: 'wxyz' | 'xyzw';
   private warnedKinds = new Set<string>();
+  /** The covariance `P` of the record last flattened. */
+  private flatP: JsonValue | undefined;
+  /** While learning a shape, diagnostics are counted in {@link learnDiags} instead of reported. */
+  private learning = false;
+  private learnDiags = 0;
+  /** Learned record shapes (jsonShape.ts) by shape hash. */
+  private readonly shapes = new Map<number, FastShape[]>();
+  private shapeCount = 0;
+  private readonly idTexts = new Map<number, { bytes: Uint8Array; text: string }>();
 
   constructor(private readonly run: RunBuilder, readonly file: string, private readonly opts: JsonFileOptions) {
     this.quatOrder = opts.mapping?.conventions?.quaternionOrder ?? 'wxyz';
@@ -44,6 +59,7 @@ export class JsonRecordSink {
 
   private diag(kind: 'parse-error' | 'bad-value' | 'unknown-column' | 'bad-covariance', line: number, column: number,
     message: string, key?: string): void {
+    if (this.learning) { this.learnDiags++; return; }
     const severity = kind === 'parse-error' ? 'error' : kind === 'unknown-column' ? 'info' : 'warning';
     this.run.diagnostics.report(severity, kind, this.file, line, message, { column, key: key ?? `${this.file}:${kind}` });
   }
@@ -79,10 +95,34 @@ export class JsonRecordSink {
       this.diag('parse-error', line, column, 'A record should be a JSON object {...}; this one is not, and is skipped.');
       return;
     }
+    const kind = recordKind(value);
+    if (kind === 'reset') {
+      const t = value.t ?? value.time;
+      if (typeof t === 'number' && Number.isFinite(t)) this.run.resets.push(t);
+      else this.diag('parse-error', line, column, 'A reset record needs a numeric "t".');
+      this.run.rows++;
+      return;
+    }
+    if (!FLAT_KINDS.has(kind)) {
+      if (!this.warnedKinds.has(kind)) {
+        this.warnedKinds.add(kind);
+        this.diag('unknown-column', line, column, `Records of kind "${clip(kind)}" are not part of the log conventions; they are skipped.`, `once:${this.file}:kind:${kind}`);
+      }
+      return;
+    }
+    const flat = this.flatten(value, kind, line, column);
+    if (flat) this.dispatch(flat, line, column, this.flatP);
+  }
+
+  /**
+   * The record's values under the wide names of the conventions (state, update, imu, tdoa and range records), in the
+   * order the names first appear; a state record's covariance `P` is left in {@link flatP}. Undefined when the record
+   * is skipped (with a diagnostic). Its only effects are diagnostics, which are counted instead while {@link learning}.
+   */
+  private flatten(value: { [key: string]: JsonValue }, kind: string, line: number, column: number): Flat | undefined {
     const flat: Flat = new Map();
-    const kindRaw = value.kind;
-    const kind = typeof kindRaw === 'string' ? kindRaw.toLowerCase() : inferKind(value);
     let P: JsonValue | undefined;
+    this.flatP = undefined;
     const add = (name: string, v: JsonValue): void => { flat.set(name, v); };
     const vector = (prefix: string, name: string, v: JsonValue, axes: string[] = AXES): void => {
       if (Array.isArray(v)) {
@@ -133,7 +173,7 @@ export class JsonRecordSink {
         const ch = value.channel;
         if (typeof ch !== 'string' || ch === '') {
           this.diag('parse-error', line, column, 'An update record needs "channel": "<name>"; skipped.');
-          return;
+          return undefined;
         }
         const nuV = value.nu ?? value.innov;
         const SV = value.S;
@@ -183,25 +223,13 @@ export class JsonRecordSink {
           else add(k, v);
         }
         break;
-      case 'reset': {
-        const t = value.t ?? value.time;
-        if (typeof t === 'number' && Number.isFinite(t)) this.run.resets.push(t);
-        else this.diag('parse-error', line, column, 'A reset record needs a numeric "t".');
-        this.run.rows++;
-        return;
-      }
-      default:
-        if (!this.warnedKinds.has(kind)) {
-          this.warnedKinds.add(kind);
-          this.diag('unknown-column', line, column, `Records of kind "${clip(kind)}" are not part of the log conventions; they are skipped.`, `once:${this.file}:kind:${kind}`);
-        }
-        return;
     }
-    this.dispatch(flat, line, column, P);
+    this.flatP = P;
+    return flat;
   }
 
-  private dispatch(flat: Flat, line: number, column: number, P: JsonValue | undefined): void {
-    const names = [...flat.keys()];
+  /** The plan of a key set (compiled, with its diagnostics, the first time the set is seen). */
+  private planFor(names: string[], line: number): RowPlan {
     const sig = names.join('\u0001');
     let plan = this.plans.get(sig);
     if (!plan) {
@@ -209,43 +237,52 @@ export class JsonRecordSink {
         file: this.file, run: this.run, reportUnknown: true, mapName: this.opts.mapName });
       this.plans.set(sig, plan);
     }
+    return plan;
+  }
+
+  /** Cell `c` (named `name`) of a row of `plan` from the JSON value `v`: into `vals[c]` or `strs[c]`. */
+  private cell(plan: RowPlan, c: number, name: string, v: JsonValue, vals: Float64Array, strs: (string | undefined)[],
+    line: number, column: number): void {
+    const kind = plan.cellKind[c];
+    if (kind === CELL_STR) {
+      strs[c] = v === null ? undefined : normalizeId(typeof v === 'string' ? v : String(v));
+      return;
+    }
+    vals[c] = NaN;
+    if (kind !== CELL_NUM && kind !== CELL_TIME) return;
+    let x: number;
+    if (typeof v === 'number') x = v;
+    else if (v === null) return;
+    else if (typeof v === 'boolean') x = v ? 1 : 0;
+    else if (typeof v === 'string') {
+      x = parseNumberText(v);
+      if (numStatus === NUM_INVALID) {
+        if (kind === CELL_TIME) {
+          const w = parseWallClock(v, plan.timeZone);
+          if (!Number.isNaN(w)) { vals[c] = w + plan.offset[c]; return; }
+        }
+        this.diag('parse-error', line, column, `"${clip(name)}": "${clip(v)}" is not a number; treated as missing.`, `${this.file}:num:${name}`);
+        return;
+      }
+      if (numStatus !== NUM_OK && numStatus !== NUM_NONFINITE) return;
+    } else {
+      this.diag('parse-error', line, column, `"${clip(name)}" should be a number, not ${Array.isArray(v) ? 'an array' : 'an object'}.`, `${this.file}:num:${name}`);
+      return;
+    }
+    if (Number.isNaN(x)) return;
+    if (!Number.isFinite(x)) {
+      this.diag('bad-value', line, column, `"${clip(name)}" holds the non-finite value ${x}; treated as missing.`, `${this.file}:inf:${name}`);
+      return;
+    }
+    vals[c] = x * plan.scale[c] + plan.offset[c];
+  }
+
+  private dispatch(flat: Flat, line: number, column: number, P: JsonValue | undefined): void {
+    const names = [...flat.keys()];
+    const plan = this.planFor(names, line);
     const vals = new Float64Array(names.length);
     const strs: (string | undefined)[] = new Array<string | undefined>(names.length);
-    names.forEach((name, c) => {
-      const v = flat.get(name) as JsonValue;
-      const kind = plan.cellKind[c];
-      if (kind === CELL_STR) {
-        strs[c] = v === null ? undefined : normalizeId(typeof v === 'string' ? v : String(v));
-        return;
-      }
-      vals[c] = NaN;
-      if (kind !== CELL_NUM && kind !== CELL_TIME) return;
-      let x: number;
-      if (typeof v === 'number') x = v;
-      else if (v === null) return;
-      else if (typeof v === 'boolean') x = v ? 1 : 0;
-      else if (typeof v === 'string') {
-        x = parseNumberText(v);
-        if (numStatus === NUM_INVALID) {
-          if (kind === CELL_TIME) {
-            const w = parseWallClock(v, plan.timeZone);
-            if (!Number.isNaN(w)) { vals[c] = w + plan.offset[c]; return; }
-          }
-          this.diag('parse-error', line, column, `"${clip(name)}": "${clip(v)}" is not a number; treated as missing.`, `${this.file}:num:${name}`);
-          return;
-        }
-        if (numStatus !== NUM_OK && numStatus !== NUM_NONFINITE) return;
-      } else {
-        this.diag('parse-error', line, column, `"${clip(name)}" should be a number, not ${Array.isArray(v) ? 'an array' : 'an object'}.`, `${this.file}:num:${name}`);
-        return;
-      }
-      if (Number.isNaN(x)) return;
-      if (!Number.isFinite(x)) {
-        this.diag('bad-value', line, column, `"${clip(name)}" holds the non-finite value ${x}; treated as missing.`, `${this.file}:inf:${name}`);
-        return;
-      }
-      vals[c] = x * plan.scale[c] + plan.offset[c];
-    });
+    names.forEach((name, c) => this.cell(plan, c, name, flat.get(name) as JsonValue, vals, strs, line, column));
     const target = plan.target;
     const before = target.length;
     const droppedBefore = target.dropped;
@@ -255,6 +292,113 @@ export class JsonRecordSink {
         this.diag('parse-error', line, column, 'A covariance "P" was given in a record with no time or state; skipped.');
       } else this.covariance(P, target.length - 1, line, column, vals[plan.timeCol]);
     }
+  }
+
+  /**
+   * The learned shape of the line `scanner` just scanned, learning it when new: the shape's tagged text
+   * (jsonShape.ts) goes through the general parser and {@link flatten}, which tells which flattened column each leaf
+   * fills. A shape whose records raise diagnostics while flattened, carry a covariance `P`, are not one of the
+   * flattened kinds, or put a string into a numeric column (or a number into an id column) is marked `general`: its
+   * lines keep taking the general path. Undefined when too many shapes were seen already (general path too).
+   */
+  shapeFor(scanner: JsonLineScanner, line: number): FastShape | undefined {
+    const list = this.shapes.get(scanner.hash);
+    if (list) for (const s of list) if (scanner.sameShape(s.bytes)) return s;
+    if (this.shapeCount >= MAX_SHAPES) return undefined;
+    const shape = this.learnShape(scanner, line);
+    this.shapeCount++;
+    if (list) list.push(shape); else this.shapes.set(scanner.hash, [shape]);
+    return shape;
+  }
+
+  private learnShape(scanner: JsonLineScanner, line: number): FastShape {
+    const bytes = scanner.shape.slice(0, scanner.shapeLength);
+    const general: FastShape = { bytes, general: true, leafCol: new Int32Array(0), leafStr: new Uint8Array(0),
+      init: new Float64Array(0), consts: [], vals: new Float64Array(0), strs: [] };
+    const parsed = parseJson(scanner.taggedText());
+    if (!parsed.ok || !isJsonObject(parsed.value)) return general;
+    const kind = recordKind(parsed.value);
+    if (!FLAT_KINDS.has(kind)) return general;
+    this.learning = true;
+    this.learnDiags = 0;
+    let flat: Flat | undefined;
+    try {
+      flat = this.flatten(parsed.value, kind, line, scanner.column);
+    } finally {
+      this.learning = false;
+    }
+    if (!flat || this.learnDiags > 0 || this.flatP !== undefined) return general;
+    const leaves = scanner.leaves;
+    const leafStr = new Uint8Array(leaves);
+    for (let p = 0, k = 0; p < bytes.length; p++) {
+      if (bytes[p] === LEAF_NUM) k++;
+      else if (bytes[p] === LEAF_STR) leafStr[k++] = 1;
+    }
+    const names = [...flat.keys()];
+    const plan = this.planFor(names, line);
+    const leafCol = new Int32Array(leaves).fill(-1);
+    const consts: FastShape['consts'] = [];
+    const init = new Float64Array(names.length);
+    for (let c = 0; c < names.length; c++) {
+      const v = flat.get(names[c]) as JsonValue;
+      const cellKind = plan.cellKind[c];
+      const numeric = cellKind === CELL_NUM || cellKind === CELL_TIME;
+      init[c] = cellKind === CELL_STR ? 0 : NaN;
+      if (typeof v === 'number') {
+        const k = -v - 1.25;
+        if (Number.isInteger(k) && k >= 0 && k < leaves && numberTag(k) === v && leafStr[k] === 0) {
+          if (cellKind === CELL_STR) return general;
+          if (numeric) leafCol[k] = c;
+          continue;
+        }
+        consts.push({ c, name: names[c], v });
+      } else if (typeof v === 'string') {
+        const k = v.charCodeAt(0) === 1 ? Number(v.slice(1)) : -1;
+        if (!(Number.isInteger(k) && k >= 0 && k < leaves && stringTag(k) === v && leafStr[k] === 1)) return general;
+        if (numeric) return general;
+        if (cellKind === CELL_STR) leafCol[k] = c;
+      } else if (v === null || typeof v === 'boolean') consts.push({ c, name: names[c], v });
+      else return general;
+    }
+    return { bytes, general: false, plan, leafCol, leafStr, init, consts, vals: new Float64Array(names.length),
+      strs: new Array<string | undefined>(names.length).fill(undefined) };
+  }
+
+  /** One record of a learned (not general) shape, straight from the leaves `scanner` found in the line buffer `b`. */
+  fastRecord(shape: FastShape, scanner: JsonLineScanner, b: Uint8Array, line: number): void {
+    const plan = shape.plan as RowPlan;
+    const vals = shape.vals;
+    const strs = shape.strs;
+    vals.set(shape.init);
+    for (const k of shape.consts) this.cell(plan, k.c, k.name, k.v, vals, strs, line, scanner.column);
+    const leafCol = shape.leafCol;
+    const leafStr = shape.leafStr;
+    const num = scanner.num;
+    const scale = plan.scale;
+    const offset = plan.offset;
+    for (let k = 0; k < leafCol.length; k++) {
+      const c = leafCol[k];
+      if (c < 0) continue;
+      if (leafStr[k] === 1) strs[c] = this.idText(b, scanner.strStart[k], scanner.strEnd[k]);
+      else vals[c] = num[k] * scale[c] + offset[c];
+    }
+    plan.row(vals, strs, line);
+  }
+
+  /** A string leaf as an id cell (normalizeId), cached by its bytes (ASCII, as the scanner guarantees). */
+  private idText(b: Uint8Array, start: number, end: number): string {
+    if (end - start > 64) return normalizeId(decodeUtf8(b, start, end));
+    let h = 0x811c9dc5;
+    for (let k = start; k < end; k++) h = Math.imul(h ^ b[k], 0x01000193);
+    const hit = this.idTexts.get(h);
+    if (hit && hit.bytes.length === end - start) {
+      let same = true;
+      for (let k = 0; k < hit.bytes.length; k++) if (hit.bytes[k] !== b[start + k]) { same = false; break; }
+      if (same) return hit.text;
+    }
+    const text = normalizeId(decodeUtf8(b, start, end));
+    if (this.idTexts.size < 4096) this.idTexts.set(h, { bytes: b.slice(start, end), text });
+    return text;
   }
 
   private covariance(P: JsonValue, index: number, line: number, column: number, t: number): void {
@@ -297,6 +441,35 @@ export class JsonRecordSink {
   }
 }
 
+/** Record kinds flattened into rows (the others are resets or unknown). */
+const FLAT_KINDS = new Set(['state', 'update', 'imu', 'tdoa', 'range']);
+
+/** Most record shapes learned per file; records of further shapes take the general path. */
+const MAX_SHAPES = 4096;
+
+/** A learned record shape: which flattened column each leaf fills (-1: none), or `general` when it must not be used. */
+interface FastShape {
+  bytes: Uint8Array;
+  general: boolean;
+  plan?: RowPlan;
+  leafCol: Int32Array;
+  /** 1 for a string leaf. */
+  leafStr: Uint8Array;
+  /** A row's values before its leaves: 0 for id columns, NaN otherwise (as the general path leaves them). */
+  init: Float64Array;
+  /** Cells given by the shape itself (`null`, `true`, `false`, or a number they became). */
+  consts: { c: number; name: string; v: JsonValue }[];
+  /** The row buffers, reused record after record. */
+  vals: Float64Array;
+  strs: (string | undefined)[];
+}
+
+/** The kind of a record object: its `kind` in lower case, else inferred from its keys. */
+function recordKind(value: { [key: string]: JsonValue }): string {
+  const kindRaw = value.kind;
+  return typeof kindRaw === 'string' ? kindRaw.toLowerCase() : inferKind(value);
+}
+
 function inferKind(v: { [key: string]: JsonValue }): string {
   if ('channel' in v) return 'update';
   if ('gyro' in v || 'acc' in v) return 'imu';
@@ -309,11 +482,33 @@ function inferKind(v: { [key: string]: JsonValue }): string {
 export class JsonlFileReader {
   private readonly splitter: LineSplitter;
   private readonly sink: JsonRecordSink;
+  private readonly scanner = new JsonLineScanner();
   private any = false;
+  private lines = 0;
+  private lineBytes = 0;
 
-  constructor(run: RunBuilder, readonly file: string, opts: JsonFileOptions) {
+  constructor(run: RunBuilder, readonly file: string, private readonly opts: JsonFileOptions) {
     this.sink = new JsonRecordSink(run, file, opts);
     this.splitter = new LineSplitter((b, s, e, line) => this.onLine(b, s, e, line, run));
+  }
+
+  /**
+   * After the first lines, reserve every stream that grew in proportion to the file size (as the CSV reader does),
+   * so the columns are allocated once instead of doubling (each doubling copies and faults in fresh memory).
+   */
+  private countLine(bytes: number, run: RunBuilder): void {
+    this.lines++;
+    this.lineBytes += bytes;
+    const size = this.opts.sizeHint;
+    if (this.lines !== RESERVE_AFTER_LINES || !size || size <= 0) return;
+    const lines = (size / (this.lineBytes / this.lines)) * 1.02; // estimated lines of the whole file, with a margin
+    for (const b of run.builders()) {
+      if (b.length === 0) continue;
+      const want = Math.max(b.length + 1, Math.ceil((b.length / this.lines) * lines));
+      // Under a memory budget that would not grant the whole reservation, growth (and decimation) go on as before.
+      if (b.guard && b.guard.capacityFor(b, want) < want) continue;
+      b.reserve(want);
+    }
   }
 
   /** Bytes consumed so far. */
@@ -322,6 +517,18 @@ export class JsonlFileReader {
   }
 
   private onLine(b: Uint8Array, s: number, e: number, line: number, run: RunBuilder): void {
+    if (this.lines < RESERVE_AFTER_LINES) this.countLine(e - s + 1, run);
+    // The hot path (jsonShape.ts): lines of a learned shape fill their row straight from bytes.
+    const scanned = jsonLineHotPath.enabled ? this.scanner.scan(b, s, e) : SCAN_GENERAL;
+    if (scanned === SCAN_BLANK) return;
+    if (scanned === SCAN_OK) {
+      const shape = this.sink.shapeFor(this.scanner, line);
+      if (shape && !shape.general) {
+        this.any = true;
+        this.sink.fastRecord(shape, this.scanner, b, line);
+        return;
+      }
+    }
     const text = decodeUtf8(b, s, e);
     if (text.trim() === '') return;
     this.any = true;

@@ -191,3 +191,66 @@ export function parseNumberText(raw: string): number {
   }
   return wordValue(text);
 }
+
+/**
+ * Parse a JSON number token (RFC 8259 grammar: `-?(0|[1-9][0-9]*)(\.[0-9]+)?([eE][+-]?[0-9]+)?`) starting at byte
+ * `start`, for the JSON Lines hot path. Returns the offset just past the token, or -1 when the bytes there are not
+ * such a token (`+1`, `.5`, `01`, `NaN`...: the caller falls back to the general JSON parser, which reports them).
+ * The value, bit-identical to `Number()` of the token's text, is left in `numValue[0]`: the fast path above when
+ * exact, else `Number()` of the token.
+ */
+export function parseJsonNumber(b: Uint8Array, start: number, end: number): number {
+  let i = start;
+  let neg = false;
+  if (i < end && b[i] === 0x2d) { neg = true; i++; }
+  if (i >= end) return -1;
+  let m = 0;
+  let d = (b[i] - 0x30) >>> 0;
+  if (d > 9) return -1;
+  if (d === 0) i++;
+  else {
+    while (i < end) {
+      d = (b[i] - 0x30) >>> 0;
+      if (d > 9) break;
+      m = m * 10 + d;
+      i++;
+    }
+  }
+  let exp10 = 0;
+  if (i < end && b[i] === 0x2e) {
+    i++;
+    const f0 = i;
+    while (i < end) {
+      d = (b[i] - 0x30) >>> 0;
+      if (d > 9) break;
+      m = m * 10 + d;
+      i++;
+    }
+    if (i === f0) return -1;
+    exp10 = f0 - i;
+  }
+  if (i < end && (b[i] | 0x20) === 0x65) {
+    i++;
+    let eneg = false;
+    if (i < end && (b[i] === 0x2d || b[i] === 0x2b)) { eneg = b[i] === 0x2d; i++; }
+    const e0 = i;
+    let e = 0;
+    while (i < end) {
+      d = (b[i] - 0x30) >>> 0;
+      if (d > 9) break;
+      if (e < 100000) e = e * 10 + d;
+      i++;
+    }
+    if (i === e0) return -1;
+    exp10 += eneg ? -e : e;
+  }
+  if (m < TWO53 && exp10 >= -22 && exp10 <= 22) {
+    const v = exp10 < 0 ? m / POW10[-exp10] : m * POW10[exp10];
+    numValue[0] = neg ? -v : v;
+    return i;
+  }
+  let text = '';
+  for (let p = start; p < i; p++) text += String.fromCharCode(b[p]);
+  numValue[0] = Number(text);
+  return i;
+}
