@@ -134,18 +134,45 @@ function safeRange(log: boolean): uPlot.Range.Function {
 }
 
 /**
+ * What the charts made on their first data share: the uPlot instance (undefined until then), the width in CSS pixels,
+ * the points drawn, and resize, redraw and release.
+ */
+abstract class PlotChart {
+  protected plot: uPlot | undefined;
+  /** Points drawn by the last data. */
+  points = 0;
+
+  protected constructor(protected width: number) {}
+
+  /** New width in CSS pixels. */
+  resize(width: number): void {
+    this.width = width;
+    this.plot?.setSize({ width, height: HEIGHT_PX });
+  }
+
+  /** Redraw with the current theme. */
+  redraw(): void {
+    this.plot?.redraw(false);
+  }
+
+  /** Release the chart. */
+  destroy(): void {
+    this.plot?.destroy();
+    this.plot = undefined;
+  }
+}
+
+/**
  * A chart of one series over time, with an optional band, markers, a linked cursor and window re-queries.
  * The uPlot instance is made on the first data (an empty plot has no axis range to draw).
  */
-export class TimeChart {
-  private plot: uPlot | undefined;
+export class TimeChart extends PlotChart {
   private selected: number | undefined;
   private programmatic = false;
   private window: [number, number];
-  /** Points drawn by the last `setData`. */
-  points = 0;
 
-  constructor(private readonly container: HTMLElement, private readonly options: TimeChartOptions, private width: number, private readonly theme: () => Theme) {
+  constructor(private readonly container: HTMLElement, private readonly options: TimeChartOptions, width: number, private readonly theme: () => Theme) {
+    super(width);
     this.window = options.extent;
   }
 
@@ -289,22 +316,6 @@ export class TimeChart {
     }
     this.plot.redraw(false);
   }
-
-  /** New width in CSS pixels. */
-  resize(width: number): void {
-    this.width = width;
-    this.plot?.setSize({ width, height: HEIGHT_PX });
-  }
-
-  /** Redraw with the current theme. */
-  redraw(): void {
-    this.plot?.redraw(false);
-  }
-
-  /** Release the chart. */
-  destroy(): void {
-    this.plot?.destroy();
-  }
 }
 
 /** One layer of a planar chart. */
@@ -349,13 +360,12 @@ function planarPaths(style: XyLayer['style']): uPlot.Series.PathBuilder {
 }
 
 /** A trajectory seen from above (x east, y north, equal metres per pixel) with point layers. */
-export class XyChart {
-  private plot: uPlot | undefined;
+export class XyChart extends PlotChart {
   private layers: XyLayer[] = [];
-  /** Points drawn (all layers). */
-  points = 0;
 
-  constructor(private readonly container: HTMLElement, private readonly unit: string, private width: number, private readonly theme: () => Theme) {}
+  constructor(private readonly container: HTMLElement, private readonly unit: string, width: number, private readonly theme: () => Theme) {
+    super(width);
+  }
 
   /** Draw `layers` (replaces the previous ones); returns the number of points drawn. */
   setLayers(layers: XyLayer[]): number {
@@ -419,19 +429,9 @@ export class XyChart {
   }
 
   /** New width in CSS pixels (re-fits the equal-aspect ranges). */
-  resize(width: number): void {
+  override resize(width: number): void {
     this.width = width;
     if (this.layers.length) this.setLayers(this.layers);
-  }
-
-  /** Redraw with the current theme. */
-  redraw(): void {
-    this.plot?.redraw(false);
-  }
-
-  /** Release the chart. */
-  destroy(): void {
-    this.plot?.destroy();
   }
 }
 
@@ -500,12 +500,10 @@ export interface OverlayChartOptions {
  * Curves of the same quantity from several runs over one (common) time axis: one coloured line per run, drag to
  * zoom, double click to reset. Data come merged on one x column (null where a run has no point).
  */
-export class OverlayChart {
-  private plot: uPlot | undefined;
-  /** Points drawn by the last `setData` (all curves). */
-  points = 0;
-
-  constructor(private readonly container: HTMLElement, private readonly options: OverlayChartOptions, private width: number, private readonly theme: () => Theme) {}
+export class OverlayChart extends PlotChart {
+  constructor(private readonly container: HTMLElement, private readonly options: OverlayChartOptions, width: number, private readonly theme: () => Theme) {
+    super(width);
+  }
 
   /** Draw `x` with one y column per curve; returns the number of points drawn (non-null values). */
   setData(x: readonly number[], ys: readonly (readonly (number | null)[])[]): number {
@@ -540,22 +538,5 @@ export class OverlayChart {
     );
     this.points = ys.reduce((n, c) => n + c.filter((v) => v !== null).length, 0);
     return this.points;
-  }
-
-  /** New width in CSS pixels. */
-  resize(width: number): void {
-    this.width = width;
-    this.plot?.setSize({ width, height: HEIGHT_PX });
-  }
-
-  /** Redraw with the current theme. */
-  redraw(): void {
-    this.plot?.redraw(false);
-  }
-
-  /** Release the chart. */
-  destroy(): void {
-    this.plot?.destroy();
-    this.plot = undefined;
   }
 }
