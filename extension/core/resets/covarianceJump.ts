@@ -51,40 +51,54 @@ export interface CovarianceJump {
   sigmaAfter: number;
 }
 
-/** Variances per state: name and one column (length = epochs). */
-interface VarianceColumn {
-  state: string;
-  variance: Float64Array;
-}
-
 /** The block a state belongs to: its name without an axis suffix (`_x`, `_y`, `_z`, `_w`, or a trailing index). */
 export function stateBlock(state: string): string {
   const m = /^(.*?)_(?:[xyzw]|\d+)$/.exec(state);
   return m && m[1] !== '' ? m[1] : state;
 }
 
-function varianceColumns(state: StateStream): VarianceColumn[] {
-  const n = state.length;
-  const out: VarianceColumn[] = [];
+/**
+ * Where the variances of one block are read: the diagonal offsets of its states in the row-major P matrix (stride
+ * k*k per epoch), or its `sigma_*` columns (squared when read).
+ */
+interface BlockSource {
+  name: string;
+  /** Offsets into `state.P.matrix` of epoch 0 (P form). */
+  diagonal: number[];
+  /** Sigma columns (sigma form). */
+  sigmas: Float64Array[];
+}
+
+/** The blocks of a state stream and how their variances are read (P diagonal when logged, else sigma columns). */
+function blockSources(state: StateStream): { blocks: BlockSource[]; stride: number } {
+  const byName = new Map<string, BlockSource>();
+  const get = (name: string): BlockSource => {
+    let b = byName.get(name);
+    if (!b) {
+      b = { name, diagonal: [], sigmas: [] };
+      byName.set(name, b);
+    }
+    return b;
+  };
   if (state.P && state.P.states.length > 0) {
     const k = state.P.states.length;
-    const m = state.P.matrix;
-    if (m.length >= n * k * k) {
-      state.P.states.forEach((name, c) => {
-        const v = new Float64Array(n);
-        for (let i = 0; i < n; i++) v[i] = m[i * k * k + c * k + c];
-        out.push({ state: name, variance: v });
-      });
-      return out;
+    if (state.P.matrix.length >= state.length * k * k) {
+      state.P.states.forEach((name, c) => get(stateBlock(name)).diagonal.push(c * k + c));
+      return { blocks: [...byName.values()], stride: k * k };
     }
   }
   for (const [name, col] of state.columns) {
-    if (!name.startsWith('sigma_')) continue;
-    const v = new Float64Array(n);
-    for (let i = 0; i < n; i++) v[i] = col[i] * col[i];
-    out.push({ state: name.slice('sigma_'.length), variance: v });
+    if (name.startsWith('sigma_')) get(stateBlock(name.slice('sigma_'.length))).sigmas.push(col);
   }
-  return out;
+  return { blocks: [...byName.values()], stride: 0 };
+}
+
+/** Trace of block `b` at epoch `i` (NaN when a variance is missing there). */
+function blockTrace(b: BlockSource, i: number, matrix: Float64Array | undefined, stride: number): number {
+  let tr = 0;
+  if (matrix) for (const d of b.diagonal) tr += matrix[i * stride + d];
+  for (const col of b.sigmas) tr += col[i] * col[i];
+  return tr;
 }
 
 /** Median positive step of a time column, 0 when there is none (sampled for long columns). */
@@ -100,13 +114,16 @@ function medianStep(t: Float64Array, n: number): number {
   return steps[steps.length >> 1];
 }
 
-/** Median of the finite positive values of a column (sampled for long columns: a floor needs no exact median). */
-function positiveMedian(v: Float64Array, n: number): number {
-  const stride = Math.max(1, Math.floor(n / 20000));
+/** Median of a block's finite positive traces (sampled: a floor needs no exact median). */
+function positiveMedianTrace(b: BlockSource, n: number, matrix: Float64Array | undefined, stride: number): number {
+  const every = Math.max(1, Math.floor(n / 20000));
   const xs: number[] = [];
-  for (let i = 0; i < n; i += stride) if (v[i] > 0 && Number.isFinite(v[i])) xs.push(v[i]);
+  for (let i = 0; i < n; i += every) {
+    const v = blockTrace(b, i, matrix, stride);
+    if (v > 0 && Number.isFinite(v)) xs.push(v);
+  }
   if (xs.length === 0) return NaN;
-  xs.sort((a, b) => a - b);
+  xs.sort((p, q) => p - q);
   return xs[xs.length >> 1];
 }
 
@@ -120,50 +137,44 @@ function positiveMedian(v: Float64Array, n: number): number {
 export function detectCovarianceJumps(state: StateStream, factor = DEFAULT_JUMP_FACTOR, merge_s = 1): CovarianceJump[] {
   const n = state.length;
   if (n < 2 || !(factor > 1)) return [];
-  // Traces per block.
-  const blocks = new Map<string, Float64Array>();
-  for (const { state: name, variance } of varianceColumns(state)) {
-    const b = stateBlock(name);
-    let tr = blocks.get(b);
-    if (!tr) {
-      tr = new Float64Array(n);
-      blocks.set(b, tr);
-    }
-    for (let i = 0; i < n; i++) tr[i] += variance[i]; // NaN stays NaN: that epoch is skipped for the block
-  }
+  // One pass over the epochs, every block's trace computed on the fly: no column per state or block is made
+  // (new memory is the expensive part on a long log), only a few numbers per block.
+  const { blocks, stride } = blockSources(state);
+  const matrix = stride > 0 ? state.P?.matrix : undefined;
   const t = state.t_s;
   const step = medianStep(t, n);
-  const bestRatio = new Float64Array(n);
-  const bestBlock: string[] = new Array<string>(n);
-  const before = new Float64Array(n);
-  for (const [name, tr] of blocks) {
-    const floor = FLOOR_RELATIVE * positiveMedian(tr, n);
-    if (!(floor > 0)) continue;
-    let prev = -1;
-    for (let i = 0; i < n; i++) {
-      const v = tr[i];
-      if (!(v > 0) || !Number.isFinite(v)) continue;
+  const floors = blocks.map((b) => FLOOR_RELATIVE * positiveMedianTrace(b, n, matrix, stride));
+  const prevTrace = new Float64Array(blocks.length);
+  const prevIndex = new Int32Array(blocks.length).fill(-1);
+  const out: CovarianceJump[] = [];
+  for (let i = 0; i < n; i++) {
+    let best = 0;
+    let bestBlock = -1;
+    let bestBefore = 0;
+    let bestAfter = 0;
+    for (let k = 0; k < blocks.length; k++) {
+      if (!(floors[k] > 0)) continue;
+      const v = blockTrace(blocks[k], i, matrix, stride);
+      if (!(v > 0) || !Number.isFinite(v)) continue; // NaN, zero or negative: that epoch is skipped for the block
+      const prev = prevIndex[k];
       if (prev >= 0) {
         const dt = t[i] - t[prev];
-        const raw = v / Math.max(tr[prev], floor);
+        const raw = v / Math.max(prevTrace[k], floors[k]);
         const r = step > 0 && dt > 1.5 * step ? Math.pow(raw, step / dt) : raw;
-        if (r > bestRatio[i]) {
-          bestRatio[i] = r;
-          bestBlock[i] = name;
-          before[i] = tr[prev];
+        if (r > best) {
+          best = r;
+          bestBlock = k;
+          bestBefore = prevTrace[k];
+          bestAfter = v;
         }
       }
-      prev = i;
+      prevTrace[k] = v;
+      prevIndex[k] = i;
     }
-  }
-  const out: CovarianceJump[] = [];
-  for (let i = 1; i < n; i++) {
-    if (!(bestRatio[i] >= factor)) continue;
-    const block = bestBlock[i];
-    const tr = blocks.get(block) as Float64Array;
+    if (i === 0 || !(best >= factor)) continue;
     const c: CovarianceJump = {
-      index: i, t: state.t_s[i], line: state.line[i], factor: bestRatio[i], block,
-      sigmaBefore: Math.sqrt(before[i]), sigmaAfter: Math.sqrt(tr[i]),
+      index: i, t: t[i], line: state.line[i], factor: best, block: blocks[bestBlock].name,
+      sigmaBefore: Math.sqrt(bestBefore), sigmaAfter: Math.sqrt(bestAfter),
     };
     const last = out[out.length - 1];
     if (last && Math.abs(c.t - last.t) < merge_s) {
