@@ -14,10 +14,11 @@ import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
 import { convergence, SETTLE_FACTOR, type Convergence } from './convergence';
 import { errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
 import {
-  defaultDistanceWindow, median, pathLength, relativeErrorOverDistance, relativeErrorOverTime, type RelativeErrorStats,
+  defaultDistanceWindow, pathLength, relativeErrorOverDistance, relativeErrorOverTime, type RelativeErrorStats,
 } from './relative';
-import { buildErrorTrack, type BlockName, type BlockTrack, type ErrorTrack } from './track';
-import { applyAlignmentTo, umeyama } from './umeyama';
+import { buildErrorTrack, isCompared, type BlockName, type BlockTrack, type ErrorTrack } from './track';
+import { umeyamaColumns } from './umeyama';
+import { medianInPlace } from '../stats/median';
 import { lazySeries } from '../lazySeries';
 
 export { analyzeMonteCarlo, monteCarloSeries, type MonteCarloBlock, type MonteCarloSeries } from './montecarlo';
@@ -354,55 +355,68 @@ function errorSeries(track: ErrorTrack, b: BlockTrack, series: Series[]): void {
   });
 }
 
-function ateFigures(track: ErrorTrack, settings: AnalysisSettings): AteFigures | undefined {
-  const d = track.estP.length;
-  const use: number[] = [];
-  for (let k = track.w0; k < track.w1; k++) {
+/**
+ * Epochs of the window compared with every position coordinate finite in both (ascending), into a scratch index
+ * column; returns the count.
+ */
+function positionEpochs(track: ErrorTrack, out: Int32Array): number {
+  const { estP, refP, w0, w1 } = track;
+  const d = estP.length;
+  let m = 0;
+  for (let k = w0; k < w1; k++) {
+    if (!isCompared(track, k)) continue;
     let ok = true;
-    for (let c = 0; c < d; c++) if (!Number.isFinite(track.estP[c][k]) || !Number.isFinite(track.refP[c][k])) ok = false;
-    if (ok) use.push(k);
+    for (let c = 0; c < d; c++) if (!Number.isFinite(estP[c][k]) || !Number.isFinite(refP[c][k])) { ok = false; break; }
+    if (ok) out[m++] = k;
   }
-  if (use.length < d + 1) return undefined;
-  const xs = new Float64Array(use.length * d), ys = new Float64Array(use.length * d);
-  use.forEach((k, i) => { for (let c = 0; c < d; c++) { xs[i * d + c] = track.estP[c][k]; ys[i * d + c] = track.refP[c][k]; } });
-  const a = umeyama(xs, ys, use.length, d, !!settings.alignScale);
+  return m;
+}
+
+function ateFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Array, count: number, scratch: Float64Array): AteFigures | undefined {
+  const d = track.estP.length;
+  if (count < d + 1) return undefined;
+  const a = umeyamaColumns(track.estP, track.refP, use, count, !!settings.alignScale, scratch);
   if (!a) return undefined;
-  const res = new Float64Array(d);
-  const norms: number[] = [];
-  let s = 0;
-  for (let i = 0; i < use.length; i++) {
-    applyAlignmentTo(res, a, xs, i * d);
-    let q = 0;
-    for (let c = 0; c < d; c++) { const e = ys[i * d + c] - res[c]; q += e * e; }
-    s += q; norms.push(Math.sqrt(q));
-  }
-  const max = norms.reduce((m, v) => (v > m ? v : m), 0);
   let rot: number;
   if (d === 3) rot = so3Angle(a.R);
   else rot = Math.abs(Math.atan2(a.R[2], a.R[0]));
   return {
-    rmse: Math.sqrt(s / use.length), median: median(norms), max, dims: d, scale: a.scale,
-    rotationDeg: rot * RAD2DEG, translation: Array.from(a.t),
+    rmse: Math.sqrt(a.meanSquaredError), median: medianInPlace(a.residualNorms, a.count), max: a.maxResidual, dims: d,
+    scale: a.scale, rotationDeg: rot * RAD2DEG, translation: Array.from(a.t),
   };
 }
 
-function rpeFigures(track: ErrorTrack, settings: AnalysisSettings): RpeFigures | undefined {
-  const use: number[] = [];
-  for (let k = track.w0; k < track.w1; k++) {
-    if (track.estP.every((c) => Number.isFinite(c[k])) && track.refP.every((c) => Number.isFinite(c[k]))) use.push(k);
-  }
-  if (use.length < 3) return undefined;
-  const inp = { t_s: track.t_s, use, est: track.estP, ref: track.refP, estR: track.estR, refR: track.refR };
+function rpeFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Array, count: number, scratch: Float64Array): RpeFigures | undefined {
+  if (count < 3) return undefined;
+  const used = use.subarray(0, count);
+  const inp = { t_s: track.t_s, use: used, est: track.estP, ref: track.refP, estAtt: track.estAtt, refAtt: track.refAtt, scratch };
   const out: RpeFigures = {};
-  const dt = medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0);
+  const dt = medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0, scratch);
   const time = relativeErrorOverTime(inp, settings.window_s, dt);
   if (time.count > 0) out.time = { ...time, window_s: settings.window_s };
-  const L = pathLength(track.refP, use);
+  const L = pathLength(track.refP, used);
   const D = settings.rpeDistance_m ?? defaultDistanceWindow(L);
   if (D > 0) {
     const dist = relativeErrorOverDistance(inp, D);
     if (dist.count > 0) out.distance = { ...dist, window_m: D, ...(dist.rmse !== undefined ? { rmsePercent: (100 * dist.rmse) / D } : {}) };
   }
+  return out;
+}
+
+/** ATE and RPE of the position block, sharing one index column and one scratch column. */
+function positionFigures(track: ErrorTrack, settings: AnalysisSettings): { ate?: AteFigures; rpe?: RpeFigures } {
+  const m = track.w1 - track.w0;
+  const use = new Int32Array(m);
+  const scratch = new Float64Array(m);
+  const count = positionEpochs(track, use);
+  return { ate: ateFigures(track, settings, use, count, scratch), rpe: rpeFigures(track, settings, use, count, scratch) };
+}
+
+/** src[w0..w1) with NaN where the epoch is not compared (a position column may be the log's own). */
+function comparedSlice(track: ErrorTrack, src: Float64Array): Float64Array {
+  const { w0, w1 } = track;
+  const out = new Float64Array(w1 - w0);
+  for (let k = w0; k < w1; k++) out[k - w0] = isCompared(track, k) ? src[k] : NaN;
   return out;
 }
 
@@ -413,7 +427,7 @@ function trajectorySeries(track: ErrorTrack, series: Series[]): void {
   const { w0, w1 } = track;
   const label = 'from above, x = east (m), y = north (m); points in time order, so x is NOT ascending';
   series.push(lazySeries({ key: 'trajectory/estimate', group: 'trajectory', label: `estimate ${label}`, unit: 'm' }, {
-    x: () => track.estP[ie].slice(w0, w1), y: () => track.estP[in_].slice(w0, w1), line: () => windowColumns(track).line,
+    x: () => comparedSlice(track, track.estP[ie]), y: () => comparedSlice(track, track.estP[in_]), line: () => windowColumns(track).line,
   }));
   if (track.refOwn) {
     const r = track.refOwn;
@@ -424,7 +438,7 @@ function trajectorySeries(track: ErrorTrack, series: Series[]): void {
     series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: r.p[ie].slice(r0, r1), y: r.p[in_].slice(r0, r1), line: r.line.slice(r0, r1) });
   } else {
     series.push(lazySeries({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm' }, {
-      x: () => track.refP[ie].slice(w0, w1), y: () => track.refP[in_].slice(w0, w1), line: () => windowColumns(track).line,
+      x: () => comparedSlice(track, track.refP[ie]), y: () => comparedSlice(track, track.refP[in_]), line: () => windowColumns(track).line,
     }));
   }
 }
@@ -482,7 +496,7 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     if (b.name === 'position') {
       block.position = {
         epochs: f.count, dims: b.err.length, rmse: f.rmse, rmse2d: f.rmse2d, max: f.max, rmsePerAxis: f.rmsePerAxis,
-        meanPerAxis: f.meanPerAxis, nees, ate: ateFigures(track, settings), rpe: rpeFigures(track, settings),
+        meanPerAxis: f.meanPerAxis, nees, ...positionFigures(track, settings),
       };
     } else if (b.name === 'velocity') {
       block.velocity = { epochs: f.count, rmse: f.rmse, rmse2d: f.rmse2d, max: f.max, rmsePerAxis: f.rmsePerAxis, meanPerAxis: f.meanPerAxis, nees };

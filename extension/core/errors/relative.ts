@@ -7,6 +7,8 @@
  * epoch at or after t_i + Δt (kept when within max(Δt/10, median step) of it); for a distance window D, j is the
  * first epoch where the reference path length from i reaches D. Figures: RMSE, median and max over the pairs.
  */
+import { rotationAt, type AttitudeColumns } from './attitude';
+import { medianInPlace } from '../stats/median';
 
 /** Statistics of one relative-error window. */
 export interface RelativeErrorStats {
@@ -17,42 +19,44 @@ export interface RelativeErrorStats {
   max?: number;
 }
 
-/** Median of a list of finite numbers; NaN when empty. */
+/** Median of a list of finite numbers (a copy is partially reordered); NaN when empty. */
 export function median(values: ArrayLike<number>): number {
-  if (values.length === 0) return NaN;
-  const v = Float64Array.from(values).sort(); // typed-array sort is numeric and much faster than a comparator
-  const m = v.length >> 1;
-  return v.length % 2 ? v[m] : (v[m - 1] + v[m]) / 2;
+  return medianInPlace(Float64Array.from(values));
 }
 
-function stats(errs: number[]): RelativeErrorStats {
-  if (errs.length === 0) return { count: 0 };
+/** Figures of the first `count` pair errors; `errs` is scratch (reordered by the median). */
+function stats(errs: Float64Array, count: number): RelativeErrorStats {
+  if (count === 0) return { count: 0 };
   let s = 0, mx = 0;
-  for (const e of errs) { s += e * e; if (e > mx) mx = e; }
-  return { count: errs.length, rmse: Math.sqrt(s / errs.length), max: mx, median: median(errs) };
+  for (let i = 0; i < count; i++) { const e = errs[i]; s += e * e; if (e > mx) mx = e; }
+  return { count, rmse: Math.sqrt(s / count), max: mx, median: medianInPlace(errs, count) };
 }
 
 /** Inputs shared by both windows: epochs `use` (ascending) with positions and optional attitudes (row-major 3x3). */
 export interface RelativeInput {
   t_s: Float64Array;
   /** Epoch indices to use, ascending in time. */
-  use: number[];
+  use: ArrayLike<number>;
   /** Estimate and reference positions, component columns (2 or 3). */
   est: Float64Array[];
   ref: Float64Array[];
-  /** Optional attitude matrices per epoch (9 values per epoch, row-major), both or neither. */
-  estR?: Float64Array;
-  refR?: Float64Array;
+  /** Optional attitudes on the epochs (attitude.ts), both or neither. */
+  estAtt?: AttitudeColumns;
+  refAtt?: AttitudeColumns;
+  /** Scratch for the pair errors, at least `use.length` long (made when absent). */
+  scratch?: Float64Array;
 }
 
 const de = new Float64Array(3), dr = new Float64Array(3), le = new Float64Array(3), lr = new Float64Array(3);
+const Ra = new Float64Array(9), Rb = new Float64Array(9);
 
 function pairError(inp: RelativeInput, i: number, j: number): number {
   const d = inp.est.length;
   de.fill(0); dr.fill(0);
   for (let c = 0; c < d; c++) { de[c] = inp.est[c][j] - inp.est[c][i]; dr[c] = inp.ref[c][j] - inp.ref[c][i]; }
-  if (inp.estR && inp.refR && d === 3) {
-    const a = inp.estR, b = inp.refR, oa = 9 * i, ob = 9 * i;
+  // each displacement in its own body frame at i, where both attitudes are known there
+  if (inp.estAtt && inp.refAtt && d === 3 && rotationAt(Ra, inp.estAtt, i) && rotationAt(Rb, inp.refAtt, i)) {
+    const a = Ra, b = Rb, oa = 0, ob = 0;
     for (let r = 0; r < 3; r++) {
       le[r] = a[oa + r] * de[0] + a[oa + 3 + r] * de[1] + a[oa + 6 + r] * de[2];
       lr[r] = b[ob + r] * dr[0] + b[ob + 3 + r] * dr[1] + b[ob + 6 + r] * dr[2];
@@ -66,7 +70,8 @@ function pairError(inp: RelativeInput, i: number, j: number): number {
 export function relativeErrorOverTime(inp: RelativeInput, window_s: number, medianStep_s: number): RelativeErrorStats {
   const { t_s, use } = inp;
   const tol = Math.max(window_s / 10, Number.isFinite(medianStep_s) ? medianStep_s : 0);
-  const errs: number[] = [];
+  const errs = scratchFor(inp);
+  let count = 0;
   let q = 0;
   for (let p = 0; p < use.length; p++) {
     const target = t_s[use[p]] + window_s;
@@ -75,9 +80,9 @@ export function relativeErrorOverTime(inp: RelativeInput, window_s: number, medi
     if (q >= use.length) break;
     if (t_s[use[q]] - target > tol) continue;
     const e = pairError(inp, use[p], use[q]);
-    if (Number.isFinite(e)) errs.push(e);
+    if (Number.isFinite(e)) errs[count++] = e;
   }
-  return stats(errs);
+  return stats(errs, count);
 }
 
 /** Relative error over reference path lengths of `distance_m` metres. */
@@ -89,7 +94,8 @@ export function relativeErrorOverDistance(inp: RelativeInput, distance_m: number
     for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
     s[p] = s[p - 1] + Math.sqrt(d2);
   }
-  const errs: number[] = [];
+  const errs = scratchFor(inp);
+  let count = 0;
   let q = 0;
   for (let p = 0; p < use.length; p++) {
     const target = s[p] + distance_m;
@@ -97,13 +103,17 @@ export function relativeErrorOverDistance(inp: RelativeInput, distance_m: number
     while (q < use.length && s[q] < target) q++;
     if (q >= use.length) break;
     const e = pairError(inp, use[p], use[q]);
-    if (Number.isFinite(e)) errs.push(e);
+    if (Number.isFinite(e)) errs[count++] = e;
   }
-  return stats(errs);
+  return stats(errs, count);
+}
+
+function scratchFor(inp: RelativeInput): Float64Array {
+  return inp.scratch && inp.scratch.length >= inp.use.length ? inp.scratch : new Float64Array(inp.use.length);
 }
 
 /** Reference path length over the used epochs, metres. */
-export function pathLength(ref: Float64Array[], use: number[]): number {
+export function pathLength(ref: Float64Array[], use: ArrayLike<number>): number {
   let s = 0;
   for (let p = 1; p < use.length; p++) {
     let d2 = 0;
