@@ -11,8 +11,8 @@ import type { Series, StageOutput } from '../series';
 import { chi2Interval } from '../stats/chi2';
 import { so3Angle } from '../geometry/so3';
 import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
-import { convergence, SETTLE_FACTOR, type Convergence } from './convergence';
-import { errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
+import { convergence, SETTLE_FACTOR, type Convergence, type ConvergenceScratch } from './convergence';
+import { ACF_MAX_EPOCHS, errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
 import {
   defaultDistanceWindow, pathLength, relativeErrorOverDistance, relativeErrorOverTime, type RelativeErrorStats,
 } from './relative';
@@ -144,14 +144,12 @@ export interface ErrorsBlock {
   [extra: string]: unknown;
 }
 
-/** RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean and max norm. */
-function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2, withNorms = false):
-  { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; norms?: Float64Array } {
+/** RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean, max and mean norm. */
+function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2):
+  { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; meanNorm?: number } {
   const d = err.length;
-  let s = 0, s2 = 0, mx = 0, cnt = 0;
+  let s = 0, s2 = 0, mx = 0, cnt = 0, sn = 0;
   const sa = new Array<number>(d).fill(0), ma = new Array<number>(d).fill(0);
-  // Norms only on request (a typed array, not a growing list of boxed numbers): the orientation mean needs them.
-  const norms = withNorms ? new Float64Array(Math.max(0, i1 - i0)) : undefined;
   for (let k = i0; k < i1; k++) {
     let q = 0, qh = 0, ok = true;
     for (let c = 0; c < d; c++) {
@@ -162,23 +160,21 @@ function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2, wi
     if (!ok) continue;
     for (let c = 0; c < d; c++) { sa[c] += err[c][k] * err[c][k]; ma[c] += err[c][k]; }
     const nrm = Math.sqrt(q);
-    if (norms) norms[cnt] = nrm;
+    sn += nrm;
     s += q; s2 += qh; cnt++;
     if (nrm > mx) mx = nrm;
   }
-  const used = norms?.subarray(0, cnt);
-  if (cnt === 0) return { count: 0, norms: used };
+  if (cnt === 0) return { count: 0 };
   return {
     count: cnt, rmse: Math.sqrt(s / cnt), rmse2d: Math.sqrt(s2 / cnt), max: mx,
-    rmsePerAxis: sa.map((v) => Math.sqrt(v / cnt)), meanPerAxis: ma.map((v) => v / cnt), norms: used,
+    rmsePerAxis: sa.map((v) => Math.sqrt(v / cnt)), meanPerAxis: ma.map((v) => v / cnt), meanNorm: sn / cnt,
   };
 }
 
-/** Error norm per epoch (NaN where a component is missing). */
-function normColumn(err: Float64Array[], length: number): Float64Array {
-  const out = new Float64Array(length);
+/** Error norm per epoch over [i0, i1) into `out` (NaN where a component is missing); `out` is indexed by epoch. */
+function normInto(err: Float64Array[], i0: number, i1: number, out: Float64Array): Float64Array {
   const d = err.length;
-  for (let k = 0; k < length; k++) {
+  for (let k = i0; k < i1; k++) {
     let q = 0;
     for (let c = 0; c < d; c++) q += err[c][k] * err[c][k];
     out[k] = Math.sqrt(q);
@@ -233,26 +229,41 @@ function fmt(v: number): string {
   return Math.abs(v) >= 1e-3 && Math.abs(v) < 1e7 ? String(Number(v.toPrecision(4))) : v.toExponential(3);
 }
 
+let zScratch: Float64Array[] = [];
+
+/**
+ * Autocorrelations of the block's normalised error components z = e / sigma over [i0, i1) (nees.ts), with z made
+ * only over the epochs the estimate reads (the last ACF_MAX_EPOCHS), into reused scratch columns.
+ */
+function normalisedErrorAutocorrelations(b: BlockTrack, i0: number, i1: number): Float64Array[] {
+  const a = Math.max(i0, i1 - ACF_MAX_EPOCHS);
+  const m = Math.max(0, i1 - a);
+  if (zScratch.length < b.neesErr.length || zScratch[0].length < m) {
+    zScratch = b.neesErr.map(() => new Float64Array(Math.min(ACF_MAX_EPOCHS, Math.max(m, 1))));
+  }
+  const z = b.neesErr.map((e, c) => {
+    const s = (b.sigma as Float64Array[])[c];
+    const out = zScratch[c];
+    if (!s) { out.fill(NaN, 0, m); return out; }
+    for (let k = a; k < i1; k++) out[k - a] = e[k] / s[k];
+    return out;
+  });
+  return errorAutocorrelations(z, 0, m);
+}
+
 /** Windowed NEES test of one block across all segments; fills findings and returns the windows. */
 function windowedTest(
   track: ErrorTrack, b: BlockTrack, segs: number[], settings: AnalysisSettings, findings: Finding[],
 ): { windows: NeesWindow[]; alpha: number; correlationFactor?: number } {
   const nees = b.nees as Float64Array;
   const dof = b.neesErr.length;
-  const z = b.neesErr.map((e, c) => {
-    const s = (b.sigma as Float64Array[])[c];
-    const out = new Float64Array(track.length);
-    if (!s) return out.fill(NaN);
-    for (let k = 0; k < track.length; k++) out[k] = e[k] / s[k];
-    return out;
-  });
   const perSeg: { bounds: number[]; rs: Float64Array[] }[] = [];
   let total = 0;
   let longest = -1, longestLen = 0, correlationFactor: number | undefined;
   for (let s = 0; s + 1 < segs.length; s++) {
     const i0 = segs[s], i1 = segs[s + 1];
     const bounds = windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
-    const rs = errorAutocorrelations(z, i0, i1);
+    const rs = normalisedErrorAutocorrelations(b, i0, i1);
     perSeg.push({ bounds, rs });
     total += bounds.length - 1;
     if (i1 - i0 > longestLen) { longestLen = i1 - i0; longest = s; }
@@ -485,10 +496,8 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
   };
   if (track.frameAssumed && track.estP.length >= 2) block.notes.push('frame not given: the trajectory plot assumes ENU (x east, y north)');
 
-  const norms = new Map<BlockName, Float64Array>();
   for (const b of track.blocks) {
-    const f = errorFigures(b.err, w0, w1, 2, b.name === 'orientation');
-    norms.set(b.name, normColumn(b.err, track.length));
+    const f = errorFigures(b.err, w0, w1, 2);
     const nees = neesFigures(track, b, segs, settings, findings, series);
     errorSeries(track, b, series);
     const w3 = within3Sigma(b, w0, w1);
@@ -501,10 +510,7 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     } else if (b.name === 'velocity') {
       block.velocity = { epochs: f.count, rmse: f.rmse, rmse2d: f.rmse2d, max: f.max, rmsePerAxis: f.rmsePerAxis, meanPerAxis: f.meanPerAxis, nees };
     } else {
-      const ang = f.norms;
-      let angSum = 0;
-      if (ang) for (let i = 0; i < ang.length; i++) angSum += ang[i];
-      const meanDeg = ang && ang.length ? (angSum / ang.length) * RAD2DEG : undefined;
+      const meanDeg = f.meanNorm !== undefined ? f.meanNorm * RAD2DEG : undefined;
       block.orientation = {
         epochs: f.count, rmseDeg: f.rmse !== undefined ? f.rmse * RAD2DEG : undefined,
         maxDeg: f.max !== undefined ? f.max * RAD2DEG : undefined, meanDeg,
@@ -527,14 +533,16 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     }
   }
 
-  // segments and convergence
+  // segments and convergence: one norm column and one set of work columns for every block and segment
+  const norm = new Float64Array(track.length);
+  const scratch: ConvergenceScratch = { idx: new Int32Array(w1 - w0), level: new Float64Array(w1 - w0) };
   for (let s = 0; s + 1 < segs.length; s++) {
     const i0 = segs[s], i1 = segs[s + 1];
     if (i1 <= i0) continue;
     const seg: SegmentErrors = { t: t_s[i0], tEnd: t_s[i1 - 1], epochs: i1 - i0 };
     for (const b of track.blocks) {
       const f = errorFigures(b.err, i0, i1);
-      const conv = convergence(t_s, norms.get(b.name) as Float64Array, i0, i1, smooth_s);
+      const conv = convergence(t_s, normInto(b.err, i0, i1, norm), i0, i1, smooth_s, scratch);
       const ns = b.nees ? neesSummary(b.nees, b.neesErr.length, settings.confidence, i0, i1) : undefined;
       const nees = ns && ns.count > 0 ? { mean: ns.mean, inside95: ns.inside95 } : undefined;
       if (b.name === 'orientation') {
