@@ -34,6 +34,7 @@ import {
   type Track, type ValueSummary,
 } from './residuals';
 import type { Vec3_m } from './vec3';
+import { lazySeries } from '../lazySeries';
 
 /** The channel rule and the per-anchor statistics function, re-exported for callers of the stage. */
 export { isTdoaChannel, isRangeChannel, parsePairId } from './collect';
@@ -189,13 +190,24 @@ function truthTrack(log: NavLog, settings: AnalysisSettings): Track | undefined 
   }
   const off = settings.referenceOffset_m;
   if (track && off) {
-    for (let k = 0; k < track.length; k++) {
-      track.x[k] += off[0];
-      track.y[k] += off[1];
-      track.z[k] += off[2];
+    // a new track: its columns may be views of the log's
+    const n = track.length;
+    const shifted: Track = { t_s: track.t_s, x: new Float64Array(n), y: new Float64Array(n), z: new Float64Array(n), length: n };
+    for (let k = 0; k < n; k++) {
+      shifted.x[k] = track.x[k] + off[0];
+      shifted.y[k] = track.y[k] + off[1];
+      shifted.z[k] = track.z[k] + off[2];
     }
+    track = shifted;
   }
   return track;
+}
+
+/** src[idx[0]], src[idx[1]], ... as a new column. */
+function gather(src: Float64Array, idx: readonly number[]): Float64Array {
+  const out = new Float64Array(idx.length);
+  for (let q = 0; q < idx.length; q++) out[q] = src[idx[q]];
+  return out;
 }
 
 function estimateTrack(log: NavLog): Track | undefined {
@@ -675,31 +687,26 @@ export function analyzeUwb(
   }
 
   // ---- Series: residuals per link, innovations per link, anchors ----
+  // Columns made when first read (lazySeries.ts): a caller that wants only the report never pays for them.
   for (let L = 0; L < nL; L++) {
     const res = resTruth && linkResTruth[L].count > 0 ? resTruth : resEst && linkResEst[L].count > 0 ? resEst : undefined;
     if (res) {
       const idx = rawByLink[L];
-      series.push({
+      series.push(lazySeries({
         key: `uwb/residual/${links.keys[L]}`,
         group: 'uwb',
         label: `${links.b[L] >= 0 ? 'Pair' : 'Anchor'} ${links.keys[L]} residual against ${res === resTruth ? 'ground truth' : 'the estimate'}`,
         unit: 'm',
-        x: Float64Array.from(idx, (k) => raw.t_s[k]),
-        y: Float64Array.from(idx, (k) => res[k]),
-        line: Float64Array.from(idx, (k) => raw.line[k]),
-      });
+      }, { x: () => gather(raw.t_s, idx), y: () => gather(res, idx), line: () => gather(raw.line, idx) }));
     }
     const idx = updByLink[L];
     if (idx.length > 0) {
-      series.push({
+      series.push(lazySeries({
         key: `uwb/innovation/${links.keys[L]}`,
         group: 'uwb',
         label: `${links.b[L] >= 0 ? 'Pair' : 'Anchor'} ${links.keys[L]} innovation`,
         unit: 'm',
-        x: Float64Array.from(idx, (k) => upd.t_s[k]),
-        y: Float64Array.from(idx, (k) => upd.nu[k]),
-        line: Float64Array.from(idx, (k) => upd.line[k]),
-      });
+      }, { x: () => gather(upd.t_s, idx), y: () => gather(upd.nu, idx), line: () => gather(upd.line, idx) }));
     }
   }
   const placed = anchors.ids.map((id, a) => ({ id, p: positions[a] })).filter((x): x is { id: string; p: Vec3_m } => x.p !== undefined);
