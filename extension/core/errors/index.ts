@@ -14,7 +14,7 @@ import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
 import { convergence, SETTLE_FACTOR, type Convergence, type ConvergenceScratch } from './convergence';
 import { ACF_MAX_EPOCHS, errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
 import {
-  defaultDistanceWindow, pathLength, relativeErrorOverDistance, relativeErrorOverTime, type RelativeErrorStats,
+  defaultDistanceWindow, relativeErrors, type RelativeErrorStats,
 } from './relative';
 import { buildErrorTrack, isCompared, type BlockName, type BlockTrack, type ErrorTrack } from './track';
 import { umeyamaColumns } from './umeyama';
@@ -403,13 +403,12 @@ function rpeFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Arr
   const inp = { t_s: track.t_s, use: used, est: track.estP, ref: track.refP, estAtt: track.estAtt, refAtt: track.refAtt, scratch };
   const out: RpeFigures = {};
   const dt = medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0, scratch);
-  const time = relativeErrorOverTime(inp, settings.window_s, dt);
-  if (time.count > 0) out.time = { ...time, window_s: settings.window_s };
-  const L = pathLength(track.refP, used);
-  const D = settings.rpeDistance_m ?? defaultDistanceWindow(L);
-  if (D > 0) {
-    const dist = relativeErrorOverDistance(inp, D);
-    if (dist.count > 0) out.distance = { ...dist, window_m: D, ...(dist.rmse !== undefined ? { rmsePercent: (100 * dist.rmse) / D } : {}) };
+  const r = relativeErrors(inp, settings.window_s, dt, (L) => settings.rpeDistance_m ?? defaultDistanceWindow(L));
+  if (r.time.count > 0) out.time = { ...r.time, window_s: settings.window_s };
+  const D = r.distance_m;
+  if (r.distance && r.distance.count > 0) {
+    const dist = r.distance;
+    out.distance = { ...dist, window_m: D, ...(dist.rmse !== undefined ? { rmsePercent: (100 * dist.rmse) / D } : {}) };
   }
   return out;
 }

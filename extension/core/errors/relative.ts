@@ -51,15 +51,21 @@ const de = new Float64Array(3), dr = new Float64Array(3), le = new Float64Array(
 const Ra = new Float64Array(9), Rb = new Float64Array(9);
 
 function pairError(inp: RelativeInput, i: number, j: number): number {
+  // each displacement in its own body frame at i, where both attitudes are known there
+  const rotated = !!inp.estAtt && !!inp.refAtt && inp.est.length === 3 && rotationAt(Ra, inp.estAtt, i) && rotationAt(Rb, inp.refAtt, i);
+  return pairErrorWith(inp, i, j, rotated);
+}
+
+/** The pair error with the attitudes at i already in Ra, Rb (`rotated`), or without attitudes. */
+function pairErrorWith(inp: RelativeInput, i: number, j: number, rotated: boolean): number {
   const d = inp.est.length;
   de.fill(0); dr.fill(0);
   for (let c = 0; c < d; c++) { de[c] = inp.est[c][j] - inp.est[c][i]; dr[c] = inp.ref[c][j] - inp.ref[c][i]; }
-  // each displacement in its own body frame at i, where both attitudes are known there
-  if (inp.estAtt && inp.refAtt && d === 3 && rotationAt(Ra, inp.estAtt, i) && rotationAt(Rb, inp.refAtt, i)) {
-    const a = Ra, b = Rb, oa = 0, ob = 0;
+  if (rotated) {
+    const a = Ra, b = Rb;
     for (let r = 0; r < 3; r++) {
-      le[r] = a[oa + r] * de[0] + a[oa + 3 + r] * de[1] + a[oa + 6 + r] * de[2];
-      lr[r] = b[ob + r] * dr[0] + b[ob + 3 + r] * dr[1] + b[ob + 6 + r] * dr[2];
+      le[r] = a[r] * de[0] + a[3 + r] * de[1] + a[6 + r] * de[2];
+      lr[r] = b[r] * dr[0] + b[3 + r] * dr[1] + b[6 + r] * dr[2];
     }
     if (Number.isFinite(le[0] + le[1] + le[2] + lr[0] + lr[1] + lr[2])) return Math.hypot(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
   }
@@ -110,6 +116,67 @@ export function relativeErrorOverDistance(inp: RelativeInput, distance_m: number
 
 function scratchFor(inp: RelativeInput): Float64Array {
   return inp.scratch && inp.scratch.length >= inp.use.length ? inp.scratch : new Float64Array(inp.use.length);
+}
+
+/** Both relative errors of one run and the reference path length they share. */
+export interface RelativeErrors {
+  time: RelativeErrorStats;
+  /** Absent when the distance window is not positive. */
+  distance?: RelativeErrorStats;
+  distance_m: number;
+  pathLength_m: number;
+}
+
+/**
+ * {@link relativeErrorOverTime} and {@link relativeErrorOverDistance} in one pass over the epochs: the attitudes at
+ * each start epoch are computed once for both pairs, and the path length comes from the same cumulative distances.
+ * Same figures as the two functions.
+ * @param distanceFor the distance window for the reference path length (e.g. {@link defaultDistanceWindow})
+ */
+export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_s: number, distanceFor: (pathLength_m: number) => number): RelativeErrors {
+  const { t_s, use, ref } = inp;
+  const n = use.length;
+  const s = new Float64Array(n);
+  for (let p = 1; p < n; p++) {
+    let d2 = 0;
+    for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
+    s[p] = s[p - 1] + Math.sqrt(d2);
+  }
+  const pathLength_m = n > 0 ? s[n - 1] : 0;
+  const D = distanceFor(pathLength_m);
+  const withDistance = D > 0;
+  const tol = Math.max(window_s / 10, Number.isFinite(medianStep_s) ? medianStep_s : 0);
+  const errsT = scratchFor(inp);
+  const errsD = withDistance ? new Float64Array(n) : errsT;
+  let countT = 0, countD = 0;
+  let qT = 0, qD = 0;
+  let timeDone = false, distanceDone = !withDistance;
+  const hasAtt = !!inp.estAtt && !!inp.refAtt && inp.est.length === 3;
+  for (let p = 0; p < n && !(timeDone && distanceDone); p++) {
+    const i = use[p];
+    let jT = -1, jD = -1;
+    if (!timeDone) {
+      const target = t_s[i] + window_s;
+      if (qT < p) qT = p;
+      while (qT < n && t_s[use[qT]] < target) qT++;
+      if (qT >= n) timeDone = true;
+      else if (!(t_s[use[qT]] - target > tol)) jT = use[qT];
+    }
+    if (!distanceDone) {
+      const target = s[p] + D;
+      if (qD < p) qD = p;
+      while (qD < n && s[qD] < target) qD++;
+      if (qD >= n) distanceDone = true;
+      else jD = use[qD];
+    }
+    if (jT < 0 && jD < 0) continue;
+    const rotated = hasAtt && rotationAt(Ra, inp.estAtt as AttitudeColumns, i) && rotationAt(Rb, inp.refAtt as AttitudeColumns, i);
+    if (jT >= 0) { const e = pairErrorWith(inp, i, jT, rotated); if (Number.isFinite(e)) errsT[countT++] = e; }
+    if (jD >= 0) { const e = pairErrorWith(inp, i, jD, rotated); if (Number.isFinite(e)) errsD[countD++] = e; }
+  }
+  return {
+    time: stats(errsT, countT), ...(withDistance ? { distance: stats(errsD, countD) } : {}), distance_m: D, pathLength_m,
+  };
 }
 
 /** Reference path length over the used epochs, metres. */
