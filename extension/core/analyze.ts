@@ -12,6 +12,7 @@ import { analyzeErrors } from './errors/index';
 import { analyzeBias } from './imu/index';
 import { analyzeUwb } from './uwb/index';
 import { finiteJson } from './finite';
+import { selectInPlace } from './stats/median';
 
 /** Version of the tool written into every report (kept in step with package.json by a test). */
 export const TOOL_VERSION = '0.1.0';
@@ -126,14 +127,14 @@ export function timeSummary(log: NavLog): Report['time'] {
 /** Median of the positive steps of a time column (sampled for long columns: exact enough for a summary). */
 export function medianStep(t: Float64Array, n: number): number {
   const stride = Math.max(1, Math.floor(n / 100_000));
-  const steps: number[] = [];
+  const steps = new Float64Array(Math.ceil(n / stride));
+  let m = 0;
   for (let i = stride; i < n; i += stride) {
     const d = t[i] - t[i - 1];
-    if (d > 0 && Number.isFinite(d)) steps.push(d);
+    if (d > 0 && Number.isFinite(d)) steps[m++] = d;
   }
-  if (steps.length === 0) return 0;
-  steps.sort((a, b) => a - b);
-  return steps[steps.length >> 1];
+  if (m === 0) return 0;
+  return selectInPlace(steps, m >> 1, m); // the upper middle value, as after a sort
 }
 
 /** Reader diagnostics (warnings and errors) as findings; info-level ones stay in the reader's list. */
