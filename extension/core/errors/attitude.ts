@@ -34,19 +34,25 @@ export const QUAT_NORM_TOLERANCE = 0.1;
 
 const q = new Float64Array(4);
 
+/** How precisely {@link rotationAt} takes the norm: as the stored errors always did, or with a plain square root. */
+export type NormArithmetic = 'exact' | 'fast';
+
 /**
  * Rotation matrix `nav_R_body` (row-major 3x3) of epoch `k` into `out`. Returns false, leaving `out` unspecified,
  * when the epoch has no usable attitude (missing, non-finite, or a logged norm off by more than 10%).
  */
-export function rotationAt(out: Float64Array, a: AttitudeColumns, k: number): boolean {
+export function rotationAt(out: Float64Array, a: AttitudeColumns, k: number, arithmetic: NormArithmetic = 'exact'): boolean {
   let w = a.w[k], x = a.x[k], y = a.y[k], z = a.z[k];
   if (a.normalisation !== 'unit') {
-    const nrm = Math.hypot(w, x, y, z);
+    // 'fast': a plain square root instead of Math.hypot, which guards against an overflow that a norm near 1 cannot
+    // reach and is many times slower; the two differ by at most a unit in the last place (aggregates such as the
+    // relative error do not see it; the per-epoch orientation errors keep the exact arithmetic)
+    const nrm = arithmetic === 'fast' ? Math.sqrt(w * w + x * x + y * y + z * z) : Math.hypot(w, x, y, z);
     if (!(Number.isFinite(nrm) && Math.abs(nrm - 1) <= QUAT_NORM_TOLERANCE)) return false;
     w /= nrm; x /= nrm; y /= nrm; z /= nrm;
     if (a.normalisation === 'loggedTwice') {
       // as quatNormalize: multiply by the reciprocal of the norm
-      const n2 = Math.hypot(w, x, y, z);
+      const n2 = arithmetic === 'fast' ? Math.sqrt(w * w + x * x + y * y + z * z) : Math.hypot(w, x, y, z);
       const s = n2 > 0 && Number.isFinite(n2) ? 1 / n2 : NaN;
       w *= s; x *= s; y *= s; z *= s;
     }

@@ -67,9 +67,14 @@ function pairErrorWith(inp: RelativeInput, i: number, j: number, rotated: boolea
       le[r] = a[r] * de[0] + a[3 + r] * de[1] + a[6 + r] * de[2];
       lr[r] = b[r] * dr[0] + b[3 + r] * dr[1] + b[6 + r] * dr[2];
     }
-    if (Number.isFinite(le[0] + le[1] + le[2] + lr[0] + lr[1] + lr[2])) return Math.hypot(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
+    if (Number.isFinite(le[0] + le[1] + le[2] + lr[0] + lr[1] + lr[2])) return norm3(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
   }
-  return Math.hypot(de[0] - dr[0], de[1] - dr[1], de[2] - dr[2]);
+  return norm3(de[0] - dr[0], de[1] - dr[1], de[2] - dr[2]);
+}
+
+/** |a| of a 3-vector as a plain square root (see attitude.ts on the fast norm). */
+function norm3(x: number, y: number, z: number): number {
+  return Math.sqrt(x * x + y * y + z * z);
 }
 
 /** Relative error over time windows of `window_s` seconds. */
@@ -170,7 +175,8 @@ export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_
       else jD = use[qD];
     }
     if (jT < 0 && jD < 0) continue;
-    const rotated = hasAtt && rotationAt(Ra, inp.estAtt as AttitudeColumns, i) && rotationAt(Rb, inp.refAtt as AttitudeColumns, i);
+    // the relative error is a figure over many pairs: the fast norm (attitude.ts) does not change it
+    const rotated = hasAtt && rotationAt(Ra, inp.estAtt as AttitudeColumns, i, 'fast') && rotationAt(Rb, inp.refAtt as AttitudeColumns, i, 'fast');
     if (jT >= 0) { const e = pairErrorWith(inp, i, jT, rotated); if (Number.isFinite(e)) errsT[countT++] = e; }
     if (jD >= 0) { const e = pairErrorWith(inp, i, jD, rotated); if (Number.isFinite(e)) errsD[countD++] = e; }
   }
