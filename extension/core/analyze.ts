@@ -12,6 +12,7 @@ import { analyzeErrors } from './errors/index';
 import { analyzeBias } from './imu/index';
 import { analyzeUwb } from './uwb/index';
 import { finiteJson } from './finite';
+import { emptyScratch } from './scratch';
 import { selectInPlace } from './stats/median';
 
 /** Version of the tool written into every report (kept in step with package.json by a test). */
@@ -55,6 +56,7 @@ export function analyzeLog(log: NavLog, settings: AnalysisSettings, info: Source
     return out;
   };
 
+  emptyScratch(); // work columns shared by the stages (scratch.ts), none left from an earlier run
   const channels = timed('channels', () => analyzeChannels(log, settings));
   const errors = timed('errors', () => analyzeErrors(log, settings));
   const bias = timed('bias', () => analyzeBias(log, settings));
@@ -105,6 +107,7 @@ export function analyzeLog(log: NavLog, settings: AnalysisSettings, info: Source
     findings,
     worst: channels.worst,
   };
+  emptyScratch();
   const clean = timed('finite', () => finiteJson(report) as Report);
   return { report: clean, series: [...channels.series, ...errors.series, ...bias.series, ...uwb.series] };
 }

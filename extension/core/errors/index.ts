@@ -20,6 +20,7 @@ import { buildErrorTrack, isCompared, type BlockName, type BlockTrack, type Erro
 import { umeyamaColumns } from './umeyama';
 import { medianInPlace } from '../stats/median';
 import { lazySeries } from '../lazySeries';
+import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 
 export { analyzeMonteCarlo, monteCarloSeries, type MonteCarloBlock, type MonteCarloSeries } from './montecarlo';
 export { buildErrorTrack, type ErrorTrack } from './track';
@@ -229,8 +230,6 @@ function fmt(v: number): string {
   return Math.abs(v) >= 1e-3 && Math.abs(v) < 1e7 ? String(Number(v.toPrecision(4))) : v.toExponential(3);
 }
 
-let zScratch: Float64Array[] = [];
-
 /**
  * Autocorrelations of the block's normalised error components z = e / sigma over [i0, i1) (nees.ts), with z made
  * only over the epochs the estimate reads (the last ACF_MAX_EPOCHS), into reused scratch columns.
@@ -238,17 +237,16 @@ let zScratch: Float64Array[] = [];
 function normalisedErrorAutocorrelations(b: BlockTrack, i0: number, i1: number): Float64Array[] {
   const a = Math.max(i0, i1 - ACF_MAX_EPOCHS);
   const m = Math.max(0, i1 - a);
-  if (zScratch.length < b.neesErr.length || zScratch[0].length < m) {
-    zScratch = b.neesErr.map(() => new Float64Array(Math.min(ACF_MAX_EPOCHS, Math.max(m, 1))));
-  }
   const z = b.neesErr.map((e, c) => {
     const s = (b.sigma as Float64Array[])[c];
-    const out = zScratch[c];
+    const out = takeFloat64(m);
     if (!s) { out.fill(NaN, 0, m); return out; }
     for (let k = a; k < i1; k++) out[k - a] = e[k] / s[k];
     return out;
   });
-  return errorAutocorrelations(z, 0, m);
+  const rs = errorAutocorrelations(z, 0, m);
+  giveBack(...z);
+  return rs;
 }
 
 /** Windowed NEES test of one block across all segments; fills findings and returns the windows. */
@@ -416,10 +414,12 @@ function rpeFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Arr
 /** ATE and RPE of the position block, sharing one index column and one scratch column. */
 function positionFigures(track: ErrorTrack, settings: AnalysisSettings): { ate?: AteFigures; rpe?: RpeFigures } {
   const m = track.w1 - track.w0;
-  const use = new Int32Array(m);
-  const scratch = new Float64Array(m);
+  const use = takeInt32(m);
+  const scratch = takeFloat64(m);
   const count = positionEpochs(track, use);
-  return { ate: ateFigures(track, settings, use, count, scratch), rpe: rpeFigures(track, settings, use, count, scratch) };
+  const out = { ate: ateFigures(track, settings, use, count, scratch), rpe: rpeFigures(track, settings, use, count, scratch) };
+  giveBack(use, scratch);
+  return out;
 }
 
 /** src[w0..w1) with NaN where the epoch is not compared (a position column may be the log's own). */
@@ -533,8 +533,8 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
   }
 
   // segments and convergence: one norm column and one set of work columns for every block and segment
-  const norm = new Float64Array(track.length);
-  const scratch: ConvergenceScratch = { idx: new Int32Array(w1 - w0), level: new Float64Array(w1 - w0) };
+  const norm = takeFloat64(track.length);
+  const scratch: ConvergenceScratch = { idx: takeInt32(w1 - w0), level: takeFloat64(w1 - w0) };
   for (let s = 0; s + 1 < segs.length; s++) {
     const i0 = segs[s], i1 = segs[s + 1];
     if (i1 <= i0) continue;
@@ -557,6 +557,7 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     }
     block.segments.push(seg);
   }
+  giveBack(norm, scratch.idx, scratch.level);
 
   trajectorySeries(track, series);
   return { block, findings, series };

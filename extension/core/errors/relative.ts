@@ -9,6 +9,7 @@
  */
 import { rotationAt, type AttitudeColumns } from './attitude';
 import { medianInPlace } from '../stats/median';
+import { giveBack, takeFloat64 } from '../scratch';
 
 /** Statistics of one relative-error window. */
 export interface RelativeErrorStats {
@@ -141,7 +142,8 @@ export interface RelativeErrors {
 export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_s: number, distanceFor: (pathLength_m: number) => number): RelativeErrors {
   const { t_s, use, ref } = inp;
   const n = use.length;
-  const s = new Float64Array(n);
+  const s = takeFloat64(n);
+  s[0] = 0;
   for (let p = 1; p < n; p++) {
     let d2 = 0;
     for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
@@ -152,7 +154,7 @@ export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_
   const withDistance = D > 0;
   const tol = Math.max(window_s / 10, Number.isFinite(medianStep_s) ? medianStep_s : 0);
   const errsT = scratchFor(inp);
-  const errsD = withDistance ? new Float64Array(n) : errsT;
+  const errsD = withDistance ? takeFloat64(n) : errsT;
   let countT = 0, countD = 0;
   let qT = 0, qD = 0;
   let timeDone = false, distanceDone = !withDistance;
@@ -180,9 +182,11 @@ export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_
     if (jT >= 0) { const e = pairErrorWith(inp, i, jT, rotated); if (Number.isFinite(e)) errsT[countT++] = e; }
     if (jD >= 0) { const e = pairErrorWith(inp, i, jD, rotated); if (Number.isFinite(e)) errsD[countD++] = e; }
   }
-  return {
+  const out = {
     time: stats(errsT, countT), ...(withDistance ? { distance: stats(errsD, countD) } : {}), distance_m: D, pathLength_m,
   };
+  giveBack(s, withDistance ? errsD : undefined);
+  return out;
 }
 
 /** Reference path length over the used epochs, metres. */

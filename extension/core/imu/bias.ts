@@ -35,6 +35,7 @@ import type { ResolvedSpec } from './presets';
 import { fromSI } from './units';
 import { lazySeries } from '../lazySeries';
 import { medianInPlace } from '../stats/median';
+import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 
 /** Which bias. */
 export type BiasSensor = 'gyro' | 'accel';
@@ -113,9 +114,14 @@ export interface BiasScratch {
   work: Float64Array;
 }
 
-/** Work columns for a state stream of `n` records. */
+/** Work columns for a state stream of `n` records, from the shared pool (scratch.ts): give them back with {@link giveBackBiasScratch}. */
 export function biasScratch(n: number): BiasScratch {
-  return { idx: new Int32Array(n), d: new Float64Array(n), pos: new Int32Array(n), work: new Float64Array(n) };
+  return { idx: takeInt32(n), d: takeFloat64(n), pos: takeInt32(n), work: takeFloat64(n) };
+}
+
+/** Return the work columns of {@link biasScratch} to the shared pool. */
+export function giveBackBiasScratch(s: BiasScratch): void {
+  giveBack(s.idx, s.d, s.pos, s.work);
 }
 
 /** 1.4826 x median absolute deviation around `center` (consistent for a normal scale); `work` as long as `values`. */
@@ -204,11 +210,13 @@ export function analyzeBiasSensor(state: StateStream, sensor: BiasSensor, option
   const results: (AxisResult | undefined)[] = [];
   const cols = AXES.map((ax) => state.columns.get(`${PREFIX[sensor]}_${ax}`));
   if (cols.every((c) => c === undefined)) return { findings, series };
-  const scratch = options.scratch && options.scratch.d.length >= state.length ? options.scratch : biasScratch(state.length);
+  const own = !(options.scratch && options.scratch.d.length >= state.length);
+  const scratch = own ? biasScratch(state.length) : options.scratch as BiasScratch;
   for (let a = 0; a < 3; a++) {
     const col = cols[a];
     results.push(col ? analyzeAxis(state, col, state.columns.get(`sigma_${PREFIX[sensor]}_${AXES[a]}`), sensor, a, options, findings, scratch) : undefined);
   }
+  if (own) giveBackBiasScratch(scratch);
   if (results.every((r) => r === undefined)) return { findings, series };
   const nul = (f: (r: AxisResult) => number): (number | null)[] => results.map((r) => (r && Number.isFinite(f(r)) ? f(r) : null));
   const settle = results.map((r) => (r ? r.settleTime : NaN)).filter((v) => Number.isFinite(v));
