@@ -26,7 +26,7 @@ import type { AnalysisSettings } from '../settings';
 import { computeNis } from '../consistency/nis';
 import { chi2Quantile } from '../stats/chi2';
 import { blameAnchors, estimateOffsets, gateZ, isBiased, type LinkEvidence, type LinkMean } from './anchors';
-import { buildAnchorTable, collectRaw, collectUpdates, indicesByLink, type LinkTable } from './collect';
+import { buildAnchorTable, collectRaw, collectUpdates, indicesByLink, type LinkTable, type UpdateColumns } from './collect';
 import { fixTrack } from './fixTrack';
 import { geometryWindows } from './geometryWindows';
 import {
@@ -220,40 +220,29 @@ function estimateTrack(log: NavLog): Track | undefined {
   return t.length > 0 ? t : undefined;
 }
 
+/** Per-link and per-anchor tallies of the updates (step 1 of the file comment). */
+interface UpdateTallies {
+  linkOutliers: Int32Array;
+  linkRejected: Int32Array;
+  linkNisMean: Float64Array;
+  linkInnov: ValueSummary[];
+  /** Innovations per anchor, oriented as seen from that anchor, in update order. */
+  anchorNu: Float64Array[];
+  anchorNisSum: Float64Array;
+  anchorNisCount: Int32Array;
+  anchorUpdates: Int32Array;
+  anchorRejected: Int32Array;
+  anchorOutliers: Int32Array;
+  linkAnomalyTimes: number[][];
+  linkAnomalyLines: number[];
+}
+
 /**
- * Analyse the UWB measurements of a log (see the file comment). Returns no block when the log has no TDOA or
- * range updates and no raw UWB records.
- * @param log what the reader produced
- * @param settings gate (outlier probability), maxDop (high-dop threshold), timeOffset_s, referenceOffset_m, familyAlpha
- * @param nisByChannel NIS per update from the consistency stage, by channel name (computed here when absent)
- * @param options geometry window
+ * Step 1: updates per link and per anchor (counts, NIS sums, outliers beyond `gateNis`, oriented innovations).
+ * A function of its own, apart from the long stage function, so the engine optimises its loops early.
  */
-export function analyzeUwb(
-  log: NavLog,
-  settings: AnalysisSettings,
-  nisByChannel?: Map<string, Float64Array>,
-  options: UwbOptions = {},
-): StageOutput<UwbBlock> {
-  const anchors = buildAnchorTable(log);
-  const links: LinkTable = { keys: [], a: [], b: [], index: new Map() };
-  const nisOf = (ch: Channel): Float64Array => nisByChannel?.get(ch.name) ?? computeNis(ch);
-  const upd = collectUpdates(log, anchors, links, nisOf);
-  const raw = collectRaw(log, anchors, links);
-  if (upd.length === 0 && raw.length === 0) return { findings: [], series: [] };
-
-  const findings: Finding[] = [];
-  const series: Series[] = [];
-  const nA = anchors.ids.length;
+function tallyUpdates(upd: UpdateColumns, updByLink: number[][], links: LinkTable, nA: number, gateNis: number): UpdateTallies {
   const nL = links.keys.length;
-  const gateNis = chi2Quantile(settings.gate, 1);
-  const z = gateZ(settings.gate);
-  const positions = anchors.positions;
-  const hasTdoa = links.b.some((b) => b >= 0);
-  const hasRange = links.b.some((b) => b < 0);
-  const kind: UwbBlock['kind'] = hasTdoa && hasRange ? 'mixed' : hasTdoa ? 'tdoa' : 'range';
-
-  // ---- 1. Updates per link and per anchor ----
-  const updByLink = indicesByLink(upd.link, upd.t_s, upd.length, nL);
   const linkOutliers = new Int32Array(nL);
   const linkRejected = new Int32Array(nL);
   const linkNisMean = new Float64Array(nL).fill(NaN);
@@ -263,7 +252,9 @@ export function analyzeUwb(
   for (let L = 0; L < nL; L++) {
     const a = links.a[L];
     const b = links.b[L];
-    for (const k of updByLink[L]) {
+    const list = updByLink[L];
+    for (let q = 0; q < list.length; q++) {
+      const k = list[q];
       if (upd.rejected[k] || !Number.isFinite(upd.nu[k])) continue;
       anchorNuCount[a]++;
       if (b >= 0) anchorNuCount[b]++;
@@ -285,7 +276,9 @@ export function analyzeUwb(
     let nusLength = 0;
     let nisSum = 0;
     let nisCount = 0;
-    for (const k of updByLink[L]) {
+    const list = updByLink[L];
+    for (let q = 0; q < list.length; q++) {
+      const k = list[q];
       anchorUpdates[a]++;
       if (b >= 0) anchorUpdates[b]++;
       if (upd.rejected[k]) {
@@ -326,6 +319,51 @@ export function analyzeUwb(
     if (nisCount > 0) linkNisMean[L] = nisSum / nisCount;
     linkInnov.push(summarizeValues(nus.subarray(0, nusLength)));
   }
+
+  return {
+    linkOutliers, linkRejected, linkNisMean, linkInnov, anchorNu, anchorNisSum, anchorNisCount, anchorUpdates,
+    anchorRejected, anchorOutliers, linkAnomalyTimes, linkAnomalyLines,
+  };
+}
+
+/**
+ * Analyse the UWB measurements of a log (see the file comment). Returns no block when the log has no TDOA or
+ * range updates and no raw UWB records.
+ * @param log what the reader produced
+ * @param settings gate (outlier probability), maxDop (high-dop threshold), timeOffset_s, referenceOffset_m, familyAlpha
+ * @param nisByChannel NIS per update from the consistency stage, by channel name (computed here when absent)
+ * @param options geometry window
+ */
+export function analyzeUwb(
+  log: NavLog,
+  settings: AnalysisSettings,
+  nisByChannel?: Map<string, Float64Array>,
+  options: UwbOptions = {},
+): StageOutput<UwbBlock> {
+  const anchors = buildAnchorTable(log);
+  const links: LinkTable = { keys: [], a: [], b: [], index: new Map() };
+  const nisOf = (ch: Channel): Float64Array => nisByChannel?.get(ch.name) ?? computeNis(ch);
+  const upd = collectUpdates(log, anchors, links, nisOf);
+  const raw = collectRaw(log, anchors, links);
+  if (upd.length === 0 && raw.length === 0) return { findings: [], series: [] };
+
+  const findings: Finding[] = [];
+  const series: Series[] = [];
+  const nA = anchors.ids.length;
+  const nL = links.keys.length;
+  const gateNis = chi2Quantile(settings.gate, 1);
+  const z = gateZ(settings.gate);
+  const positions = anchors.positions;
+  const hasTdoa = links.b.some((b) => b >= 0);
+  const hasRange = links.b.some((b) => b < 0);
+  const kind: UwbBlock['kind'] = hasTdoa && hasRange ? 'mixed' : hasTdoa ? 'tdoa' : 'range';
+
+  // ---- 1. Updates per link and per anchor ----
+  const updByLink = indicesByLink(upd.link, upd.t_s, upd.length, nL);
+  const {
+    linkOutliers, linkRejected, linkNisMean, linkInnov, anchorNu, anchorNisSum, anchorNisCount, anchorUpdates,
+    anchorRejected, anchorOutliers, linkAnomalyTimes, linkAnomalyLines,
+  } = tallyUpdates(upd, updByLink, links, nA, gateNis);
 
   // ---- 2. Residuals of raw records against truth and estimate ----
   const truth = truthTrack(log, settings);
