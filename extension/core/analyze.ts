@@ -13,6 +13,8 @@ import { analyzeBias } from './imu/index';
 import { analyzeUwb } from './uwb/index';
 import { analyzeResets, withConfirmedResets } from './resets/index';
 import { finiteJson } from './finite';
+import { emptyScratch } from './scratch';
+import { selectInPlace } from './stats/median';
 
 /** Version of the tool written into every report (kept in step with package.json by a test). */
 export const TOOL_VERSION = '0.1.0';
@@ -55,6 +57,7 @@ export function analyzeLog(own: NavLog, settings: AnalysisSettings, info: Source
     return out;
   };
 
+  emptyScratch(); // work columns shared by the stages (scratch.ts), none left from an earlier run
   // Filter restarts: the log's own plus those the user confirmed split every stage into segments (core/resets).
   const resets = timed('resets', () => analyzeResets(own, settings));
   const log = withConfirmedResets(own, settings);
@@ -110,6 +113,7 @@ export function analyzeLog(own: NavLog, settings: AnalysisSettings, info: Source
     findings,
     worst: channels.worst,
   };
+  emptyScratch();
   const clean = timed('finite', () => finiteJson(report) as Report);
   return { report: clean, series: [...channels.series, ...errors.series, ...bias.series, ...uwb.series] };
 }
@@ -132,14 +136,14 @@ export function timeSummary(log: NavLog): Report['time'] {
 /** Median of the positive steps of a time column (sampled for long columns: exact enough for a summary). */
 export function medianStep(t: Float64Array, n: number): number {
   const stride = Math.max(1, Math.floor(n / 100_000));
-  const steps: number[] = [];
+  const steps = new Float64Array(Math.ceil(n / stride));
+  let m = 0;
   for (let i = stride; i < n; i += stride) {
     const d = t[i] - t[i - 1];
-    if (d > 0 && Number.isFinite(d)) steps.push(d);
+    if (d > 0 && Number.isFinite(d)) steps[m++] = d;
   }
-  if (steps.length === 0) return 0;
-  steps.sort((a, b) => a - b);
-  return steps[steps.length >> 1];
+  if (m === 0) return 0;
+  return selectInPlace(steps, m >> 1, m); // the upper middle value, as after a sort
 }
 
 /** Reader diagnostics (warnings and errors) as findings; info-level ones stay in the reader's list. */

@@ -154,14 +154,23 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     const prefix = prefixSums(nisC, m);
     const tV = tC.subarray(0, m);
     const nV = nisC.subarray(0, m);
-    const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks);
+    // the summary now; the panel's per-update columns when the series is first read (lazySeries.ts)
+    const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks, false);
     const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks);
-    const lineW = new Float64Array(m);
-    for (let q = 0; q < m; q++) lineW[q] = lineCol[idxC[q]];
-    series.push({
-      key: `nisWindow/${name}`, group: 'innovations', label: `${name} windowed NIS`, unit: '1',
-      x: tV.slice(), y: slide.mean, line: lineW, lo: slide.lo, hi: slide.hi,
-    });
+    const confidence = settings.confidence;
+    let columns: ReturnType<typeof slidingAverage> | undefined;
+    const slideColumns = (): ReturnType<typeof slidingAverage> => (columns ??= slidingAverage(tV, nV, m, dof, spec, confidence, prefix, breaks));
+    series.push(lazySeries({ key: `nisWindow/${name}`, group: 'innovations', label: `${name} windowed NIS`, unit: '1' }, {
+      x: () => tV.slice(),
+      y: () => slideColumns().mean,
+      line: () => {
+        const lineW = new Float64Array(m);
+        for (let q = 0; q < m; q++) lineW[q] = lineCol[idxC[q]];
+        return lineW;
+      },
+      lo: () => slideColumns().lo,
+      hi: () => slideColumns().hi,
+    }));
     const windowText = spec.kind === 'seconds' ? `${formatNumber(spec.size)} s` : `${spec.size} updates`;
     nisSummary.window = {
       ...(spec.kind === 'seconds' ? { size_s: spec.size } : { sizeUpdates: spec.size }),

@@ -111,15 +111,19 @@ export function prefixSums(values: Float64Array, n: number): Float64Array {
 /**
  * Sliding average of `nis[0..n)` (accepted updates, finite) at times `t_s`, with bands at `confidence` for the
  * panel and the share of full windows inside the 95% bounds.
+ * @param breaks first update of each later segment (windows never straddle a filter restart)
+ * @param withColumns false: only `full` and `fullInside95` (the per-update columns come back empty), for a caller
+ *   that makes the panel's columns later, if at all
  */
 export function slidingAverage(
   t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, confidence: number,
-  prefix = prefixSums(nis, n), breaks: readonly number[] = [],
+  prefix = prefixSums(nis, n), breaks: readonly number[] = [], withColumns = true,
 ): SlidingAverage {
-  const mean = new Float64Array(n);
-  const count = new Float64Array(n);
-  const lo = new Float64Array(n).fill(NaN);
-  const hi = new Float64Array(n).fill(NaN);
+  const size_ = withColumns ? n : 0;
+  const mean = new Float64Array(size_);
+  const count = new Float64Array(size_);
+  const lo = new Float64Array(size_).fill(NaN);
+  const hi = new Float64Array(size_).fill(NaN);
   const band = new BoundsCache(confidence, dof);
   const band95 = confidence === 0.95 ? band : new BoundsCache(0.95, dof);
   const byUpdates = spec.kind === 'updates';
@@ -148,15 +152,19 @@ export function slidingAverage(
     }
     const k = i - j + 1;
     const m = (prefix[i + 1] - prefix[j]) / k;
-    mean[i] = m;
-    count[i] = k;
+    if (withColumns) {
+      mean[i] = m;
+      count[i] = k;
+    }
     // Bands only for full windows: the short windows at the start would each need their own quantiles.
     if (isFull) {
-      band.ensure(k);
-      lo[i] = band.lower(k);
-      hi[i] = band.upper(k);
+      if (withColumns) {
+        band.ensure(k);
+        lo[i] = band.lower(k);
+        hi[i] = band.upper(k);
+      }
       full++;
-      if (band95 !== band) band95.ensure(k);
+      band95.ensure(k); // a no-op when the band above is the 95% one and was just filled
       if (m >= band95.lower(k) && m <= band95.upper(k)) fullInside95++;
     }
   }

@@ -9,6 +9,7 @@
  *   before the first or after the last reference sample.
  */
 import { quatNormalize, quatSlerp } from '../geometry/quat';
+import { medianInPlace } from '../stats/median';
 
 /** Largest bracketing interval, in median reference steps, that may be interpolated across. */
 export const MAX_GAP_STEPS = 5;
@@ -20,18 +21,19 @@ export const ALIGN_OUTSIDE_SPAN = 1;
 /** The bracketing reference samples are too far apart, or one of them lacks the value. */
 export const ALIGN_IN_GAP = 2;
 
-/** Median of the positive steps of an ascending time column (NaN with fewer than two samples). */
-export function medianStep(t_s: Float64Array, length: number): number {
-  const steps = new Float64Array(Math.max(0, length - 1));
+/**
+ * Median of the positive steps of an ascending time column (NaN with fewer than two samples).
+ * @param scratch optional work column of at least `length - 1` values (overwritten)
+ */
+export function medianStep(t_s: Float64Array, length: number, scratch?: Float64Array): number {
+  const steps = scratch && scratch.length >= length - 1 ? scratch : new Float64Array(Math.max(0, length - 1));
   let n = 0;
   for (let i = 1; i < length; i++) {
     const d = t_s[i] - t_s[i - 1];
     if (d > 0 && Number.isFinite(d)) steps[n++] = d;
   }
   if (n === 0) return NaN;
-  const s = steps.subarray(0, n).sort();
-  const m = n >> 1;
-  return n % 2 ? s[m] : (s[m - 1] + s[m]) / 2;
+  return medianInPlace(steps, n);
 }
 
 /** Per-epoch bracket of a reference: rows `left`/`right` and fraction `f` in [0, 1], or a status. */

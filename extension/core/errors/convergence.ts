@@ -29,22 +29,34 @@ export interface Convergence {
   initialLevel?: number;
 }
 
-/** Convergence of `norm` (per epoch, NaN where absent) over epochs [i0, i1) with times t_s. */
-export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i1: number, smooth_s: number): Convergence {
-  const idx: number[] = [];
-  for (let k = i0; k < i1; k++) if (Number.isFinite(norm[k]) && Number.isFinite(t_s[k])) idx.push(k);
-  if (idx.length < 4) return {};
+/** Work columns of {@link convergence}, reusable across calls: each at least as long as the segment. */
+export interface ConvergenceScratch {
+  idx: Int32Array;
+  level: Float64Array;
+}
+
+/**
+ * Convergence of `norm` (per epoch, NaN where absent) over epochs [i0, i1) with times t_s.
+ * @param scratch optional work columns of at least i1 - i0 values (made when absent or too short)
+ */
+export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i1: number, smooth_s: number,
+  scratch?: ConvergenceScratch): Convergence {
+  const len = Math.max(0, i1 - i0);
+  const idx = scratch && scratch.idx.length >= len ? scratch.idx : new Int32Array(len);
+  let count = 0;
+  for (let k = i0; k < i1; k++) if (Number.isFinite(norm[k]) && Number.isFinite(t_s[k])) idx[count++] = k;
+  if (count < 4) return {};
   const tStart = t_s[i0];
-  const tEnd = t_s[idx[idx.length - 1]];
+  const tEnd = t_s[idx[count - 1]];
   const half = tStart + (tEnd - tStart) / 2;
   let ss = 0, sc = 0;
-  for (const k of idx) if (t_s[k] >= half) { ss += norm[k] * norm[k]; sc++; }
+  for (let m = 0; m < count; m++) { const k = idx[m]; if (t_s[k] >= half) { ss += norm[k] * norm[k]; sc++; } }
   if (sc === 0) return {};
   const steady = Math.sqrt(ss / sc);
   // trailing RMS over smooth_s (two pointers)
-  const level = new Float64Array(idx.length);
+  const level = scratch && scratch.level.length >= len ? scratch.level : new Float64Array(len);
   let j = 0, acc = 0;
-  for (let m = 0; m < idx.length; m++) {
+  for (let m = 0; m < count; m++) {
     const k = idx[m];
     acc += norm[k] * norm[k];
     while (t_s[idx[j]] < t_s[k] - smooth_s) { acc -= norm[idx[j]] * norm[idx[j]]; j++; }
@@ -52,10 +64,10 @@ export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i
   }
   const limit = SETTLE_FACTOR * steady;
   let lastAbove = -1;
-  for (let m = 0; m < idx.length; m++) if (level[m] > limit) lastAbove = m;
+  for (let m = 0; m < count; m++) if (level[m] > limit) lastAbove = m;
   const out: Convergence = { steadyState: steady };
   if (lastAbove < 0) { out.settleTime = 0; out.tSettled = tStart; return out; }
-  if (lastAbove === idx.length - 1) return out; // never settled
+  if (lastAbove === count - 1) return out; // never settled
   const settledAt = t_s[idx[lastAbove + 1]];
   out.settleTime = settledAt - tStart;
   out.tSettled = settledAt;

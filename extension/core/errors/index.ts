@@ -11,14 +11,16 @@ import type { Series, StageOutput } from '../series';
 import { chi2Interval } from '../stats/chi2';
 import { so3Angle } from '../geometry/so3';
 import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
-import { convergence, SETTLE_FACTOR, type Convergence } from './convergence';
-import { errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
+import { convergence, SETTLE_FACTOR, type Convergence, type ConvergenceScratch } from './convergence';
+import { ACF_MAX_EPOCHS, errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
 import {
-  defaultDistanceWindow, median, pathLength, relativeErrorOverDistance, relativeErrorOverTime, type RelativeErrorStats,
+  defaultDistanceWindow, relativeErrors, type RelativeErrorStats,
 } from './relative';
-import { buildErrorTrack, type BlockName, type BlockTrack, type ErrorTrack } from './track';
-import { applyAlignmentTo, umeyama } from './umeyama';
+import { buildErrorTrack, isCompared, type BlockName, type BlockTrack, type ErrorTrack } from './track';
+import { umeyamaColumns } from './umeyama';
+import { medianInPlace } from '../stats/median';
 import { lazySeries } from '../lazySeries';
+import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 
 export { analyzeMonteCarlo, monteCarloSeries, type MonteCarloBlock, type MonteCarloSeries } from './montecarlo';
 export { buildErrorTrack, type ErrorTrack } from './track';
@@ -143,14 +145,12 @@ export interface ErrorsBlock {
   [extra: string]: unknown;
 }
 
-/** RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean and max norm. */
-function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2, withNorms = false):
-  { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; norms?: Float64Array } {
+/** RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean, max and mean norm. */
+function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2):
+  { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; meanNorm?: number } {
   const d = err.length;
-  let s = 0, s2 = 0, mx = 0, cnt = 0;
+  let s = 0, s2 = 0, mx = 0, cnt = 0, sn = 0;
   const sa = new Array<number>(d).fill(0), ma = new Array<number>(d).fill(0);
-  // Norms only on request (a typed array, not a growing list of boxed numbers): the orientation mean needs them.
-  const norms = withNorms ? new Float64Array(Math.max(0, i1 - i0)) : undefined;
   for (let k = i0; k < i1; k++) {
     let q = 0, qh = 0, ok = true;
     for (let c = 0; c < d; c++) {
@@ -161,23 +161,21 @@ function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2, wi
     if (!ok) continue;
     for (let c = 0; c < d; c++) { sa[c] += err[c][k] * err[c][k]; ma[c] += err[c][k]; }
     const nrm = Math.sqrt(q);
-    if (norms) norms[cnt] = nrm;
+    sn += nrm;
     s += q; s2 += qh; cnt++;
     if (nrm > mx) mx = nrm;
   }
-  const used = norms?.subarray(0, cnt);
-  if (cnt === 0) return { count: 0, norms: used };
+  if (cnt === 0) return { count: 0 };
   return {
     count: cnt, rmse: Math.sqrt(s / cnt), rmse2d: Math.sqrt(s2 / cnt), max: mx,
-    rmsePerAxis: sa.map((v) => Math.sqrt(v / cnt)), meanPerAxis: ma.map((v) => v / cnt), norms: used,
+    rmsePerAxis: sa.map((v) => Math.sqrt(v / cnt)), meanPerAxis: ma.map((v) => v / cnt), meanNorm: sn / cnt,
   };
 }
 
-/** Error norm per epoch (NaN where a component is missing). */
-function normColumn(err: Float64Array[], length: number): Float64Array {
-  const out = new Float64Array(length);
+/** Error norm per epoch over [i0, i1) into `out` (NaN where a component is missing); `out` is indexed by epoch. */
+function normInto(err: Float64Array[], i0: number, i1: number, out: Float64Array): Float64Array {
   const d = err.length;
-  for (let k = 0; k < length; k++) {
+  for (let k = i0; k < i1; k++) {
     let q = 0;
     for (let c = 0; c < d; c++) q += err[c][k] * err[c][k];
     out[k] = Math.sqrt(q);
@@ -232,26 +230,38 @@ function fmt(v: number): string {
   return Math.abs(v) >= 1e-3 && Math.abs(v) < 1e7 ? String(Number(v.toPrecision(4))) : v.toExponential(3);
 }
 
+/**
+ * Autocorrelations of the block's normalised error components z = e / sigma over [i0, i1) (nees.ts), with z made
+ * only over the epochs the estimate reads (the last ACF_MAX_EPOCHS), into reused scratch columns.
+ */
+function normalisedErrorAutocorrelations(b: BlockTrack, i0: number, i1: number): Float64Array[] {
+  const a = Math.max(i0, i1 - ACF_MAX_EPOCHS);
+  const m = Math.max(0, i1 - a);
+  const z = b.neesErr.map((e, c) => {
+    const s = (b.sigma as Float64Array[])[c];
+    const out = takeFloat64(m);
+    if (!s) { out.fill(NaN, 0, m); return out; }
+    for (let k = a; k < i1; k++) out[k - a] = e[k] / s[k];
+    return out;
+  });
+  const rs = errorAutocorrelations(z, 0, m);
+  giveBack(...z);
+  return rs;
+}
+
 /** Windowed NEES test of one block across all segments; fills findings and returns the windows. */
 function windowedTest(
   track: ErrorTrack, b: BlockTrack, segs: number[], settings: AnalysisSettings, findings: Finding[],
 ): { windows: NeesWindow[]; alpha: number; correlationFactor?: number } {
   const nees = b.nees as Float64Array;
   const dof = b.neesErr.length;
-  const z = b.neesErr.map((e, c) => {
-    const s = (b.sigma as Float64Array[])[c];
-    const out = new Float64Array(track.length);
-    if (!s) return out.fill(NaN);
-    for (let k = 0; k < track.length; k++) out[k] = e[k] / s[k];
-    return out;
-  });
   const perSeg: { bounds: number[]; rs: Float64Array[] }[] = [];
   let total = 0;
   let longest = -1, longestLen = 0, correlationFactor: number | undefined;
   for (let s = 0; s + 1 < segs.length; s++) {
     const i0 = segs[s], i1 = segs[s + 1];
     const bounds = windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
-    const rs = errorAutocorrelations(z, i0, i1);
+    const rs = normalisedErrorAutocorrelations(b, i0, i1);
     perSeg.push({ bounds, rs });
     total += bounds.length - 1;
     if (i1 - i0 > longestLen) { longestLen = i1 - i0; longest = s; }
@@ -354,55 +364,69 @@ function errorSeries(track: ErrorTrack, b: BlockTrack, series: Series[]): void {
   });
 }
 
-function ateFigures(track: ErrorTrack, settings: AnalysisSettings): AteFigures | undefined {
-  const d = track.estP.length;
-  const use: number[] = [];
-  for (let k = track.w0; k < track.w1; k++) {
+/**
+ * Epochs of the window compared with every position coordinate finite in both (ascending), into a scratch index
+ * column; returns the count.
+ */
+function positionEpochs(track: ErrorTrack, out: Int32Array): number {
+  const { estP, refP, w0, w1 } = track;
+  const d = estP.length;
+  let m = 0;
+  for (let k = w0; k < w1; k++) {
+    if (!isCompared(track, k)) continue;
     let ok = true;
-    for (let c = 0; c < d; c++) if (!Number.isFinite(track.estP[c][k]) || !Number.isFinite(track.refP[c][k])) ok = false;
-    if (ok) use.push(k);
+    for (let c = 0; c < d; c++) if (!Number.isFinite(estP[c][k]) || !Number.isFinite(refP[c][k])) { ok = false; break; }
+    if (ok) out[m++] = k;
   }
-  if (use.length < d + 1) return undefined;
-  const xs = new Float64Array(use.length * d), ys = new Float64Array(use.length * d);
-  use.forEach((k, i) => { for (let c = 0; c < d; c++) { xs[i * d + c] = track.estP[c][k]; ys[i * d + c] = track.refP[c][k]; } });
-  const a = umeyama(xs, ys, use.length, d, !!settings.alignScale);
+  return m;
+}
+
+function ateFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Array, count: number, scratch: Float64Array): AteFigures | undefined {
+  const d = track.estP.length;
+  if (count < d + 1) return undefined;
+  const a = umeyamaColumns(track.estP, track.refP, use, count, !!settings.alignScale, scratch);
   if (!a) return undefined;
-  const res = new Float64Array(d);
-  const norms: number[] = [];
-  let s = 0;
-  for (let i = 0; i < use.length; i++) {
-    applyAlignmentTo(res, a, xs, i * d);
-    let q = 0;
-    for (let c = 0; c < d; c++) { const e = ys[i * d + c] - res[c]; q += e * e; }
-    s += q; norms.push(Math.sqrt(q));
-  }
-  const max = norms.reduce((m, v) => (v > m ? v : m), 0);
   let rot: number;
   if (d === 3) rot = so3Angle(a.R);
   else rot = Math.abs(Math.atan2(a.R[2], a.R[0]));
   return {
-    rmse: Math.sqrt(s / use.length), median: median(norms), max, dims: d, scale: a.scale,
-    rotationDeg: rot * RAD2DEG, translation: Array.from(a.t),
+    rmse: Math.sqrt(a.meanSquaredError), median: medianInPlace(a.residualNorms, a.count), max: a.maxResidual, dims: d,
+    scale: a.scale, rotationDeg: rot * RAD2DEG, translation: Array.from(a.t),
   };
 }
 
-function rpeFigures(track: ErrorTrack, settings: AnalysisSettings): RpeFigures | undefined {
-  const use: number[] = [];
-  for (let k = track.w0; k < track.w1; k++) {
-    if (track.estP.every((c) => Number.isFinite(c[k])) && track.refP.every((c) => Number.isFinite(c[k]))) use.push(k);
-  }
-  if (use.length < 3) return undefined;
-  const inp = { t_s: track.t_s, use, est: track.estP, ref: track.refP, estR: track.estR, refR: track.refR };
+function rpeFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Array, count: number, scratch: Float64Array): RpeFigures | undefined {
+  if (count < 3) return undefined;
+  const used = use.subarray(0, count);
+  const inp = { t_s: track.t_s, use: used, est: track.estP, ref: track.refP, estAtt: track.estAtt, refAtt: track.refAtt, scratch };
   const out: RpeFigures = {};
-  const dt = medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0);
-  const time = relativeErrorOverTime(inp, settings.window_s, dt);
-  if (time.count > 0) out.time = { ...time, window_s: settings.window_s };
-  const L = pathLength(track.refP, use);
-  const D = settings.rpeDistance_m ?? defaultDistanceWindow(L);
-  if (D > 0) {
-    const dist = relativeErrorOverDistance(inp, D);
-    if (dist.count > 0) out.distance = { ...dist, window_m: D, ...(dist.rmse !== undefined ? { rmsePercent: (100 * dist.rmse) / D } : {}) };
+  const dt = medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0, scratch);
+  const r = relativeErrors(inp, settings.window_s, dt, (L) => settings.rpeDistance_m ?? defaultDistanceWindow(L));
+  if (r.time.count > 0) out.time = { ...r.time, window_s: settings.window_s };
+  const D = r.distance_m;
+  if (r.distance && r.distance.count > 0) {
+    const dist = r.distance;
+    out.distance = { ...dist, window_m: D, ...(dist.rmse !== undefined ? { rmsePercent: (100 * dist.rmse) / D } : {}) };
   }
+  return out;
+}
+
+/** ATE and RPE of the position block, sharing one index column and one scratch column. */
+function positionFigures(track: ErrorTrack, settings: AnalysisSettings): { ate?: AteFigures; rpe?: RpeFigures } {
+  const m = track.w1 - track.w0;
+  const use = takeInt32(m);
+  const scratch = takeFloat64(m);
+  const count = positionEpochs(track, use);
+  const out = { ate: ateFigures(track, settings, use, count, scratch), rpe: rpeFigures(track, settings, use, count, scratch) };
+  giveBack(use, scratch);
+  return out;
+}
+
+/** src[w0..w1) with NaN where the epoch is not compared (a position column may be the log's own). */
+function comparedSlice(track: ErrorTrack, src: Float64Array): Float64Array {
+  const { w0, w1 } = track;
+  const out = new Float64Array(w1 - w0);
+  for (let k = w0; k < w1; k++) out[k - w0] = isCompared(track, k) ? src[k] : NaN;
   return out;
 }
 
@@ -413,7 +437,7 @@ function trajectorySeries(track: ErrorTrack, series: Series[]): void {
   const { w0, w1 } = track;
   const label = 'from above, x = east (m), y = north (m); points in time order, so x is NOT ascending';
   series.push(lazySeries({ key: 'trajectory/estimate', group: 'trajectory', label: `estimate ${label}`, unit: 'm' }, {
-    x: () => track.estP[ie].slice(w0, w1), y: () => track.estP[in_].slice(w0, w1), line: () => windowColumns(track).line,
+    x: () => comparedSlice(track, track.estP[ie]), y: () => comparedSlice(track, track.estP[in_]), line: () => windowColumns(track).line,
   }));
   if (track.refOwn) {
     const r = track.refOwn;
@@ -424,7 +448,7 @@ function trajectorySeries(track: ErrorTrack, series: Series[]): void {
     series.push({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm', x: r.p[ie].slice(r0, r1), y: r.p[in_].slice(r0, r1), line: r.line.slice(r0, r1) });
   } else {
     series.push(lazySeries({ key: 'trajectory/reference', group: 'trajectory', label: `reference ${label}`, unit: 'm' }, {
-      x: () => track.refP[ie].slice(w0, w1), y: () => track.refP[in_].slice(w0, w1), line: () => windowColumns(track).line,
+      x: () => comparedSlice(track, track.refP[ie]), y: () => comparedSlice(track, track.refP[in_]), line: () => windowColumns(track).line,
     }));
   }
 }
@@ -471,10 +495,8 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
   };
   if (track.frameAssumed && track.estP.length >= 2) block.notes.push('frame not given: the trajectory plot assumes ENU (x east, y north)');
 
-  const norms = new Map<BlockName, Float64Array>();
   for (const b of track.blocks) {
-    const f = errorFigures(b.err, w0, w1, 2, b.name === 'orientation');
-    norms.set(b.name, normColumn(b.err, track.length));
+    const f = errorFigures(b.err, w0, w1, 2);
     const nees = neesFigures(track, b, segs, settings, findings, series);
     errorSeries(track, b, series);
     const w3 = within3Sigma(b, w0, w1);
@@ -482,15 +504,12 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     if (b.name === 'position') {
       block.position = {
         epochs: f.count, dims: b.err.length, rmse: f.rmse, rmse2d: f.rmse2d, max: f.max, rmsePerAxis: f.rmsePerAxis,
-        meanPerAxis: f.meanPerAxis, nees, ate: ateFigures(track, settings), rpe: rpeFigures(track, settings),
+        meanPerAxis: f.meanPerAxis, nees, ...positionFigures(track, settings),
       };
     } else if (b.name === 'velocity') {
       block.velocity = { epochs: f.count, rmse: f.rmse, rmse2d: f.rmse2d, max: f.max, rmsePerAxis: f.rmsePerAxis, meanPerAxis: f.meanPerAxis, nees };
     } else {
-      const ang = f.norms;
-      let angSum = 0;
-      if (ang) for (let i = 0; i < ang.length; i++) angSum += ang[i];
-      const meanDeg = ang && ang.length ? (angSum / ang.length) * RAD2DEG : undefined;
+      const meanDeg = f.meanNorm !== undefined ? f.meanNorm * RAD2DEG : undefined;
       block.orientation = {
         epochs: f.count, rmseDeg: f.rmse !== undefined ? f.rmse * RAD2DEG : undefined,
         maxDeg: f.max !== undefined ? f.max * RAD2DEG : undefined, meanDeg,
@@ -513,14 +532,16 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     }
   }
 
-  // segments and convergence
+  // segments and convergence: one norm column and one set of work columns for every block and segment
+  const norm = takeFloat64(track.length);
+  const scratch: ConvergenceScratch = { idx: takeInt32(w1 - w0), level: takeFloat64(w1 - w0) };
   for (let s = 0; s + 1 < segs.length; s++) {
     const i0 = segs[s], i1 = segs[s + 1];
     if (i1 <= i0) continue;
     const seg: SegmentErrors = { t: t_s[i0], tEnd: t_s[i1 - 1], epochs: i1 - i0 };
     for (const b of track.blocks) {
       const f = errorFigures(b.err, i0, i1);
-      const conv = convergence(t_s, norms.get(b.name) as Float64Array, i0, i1, smooth_s);
+      const conv = convergence(t_s, normInto(b.err, i0, i1, norm), i0, i1, smooth_s, scratch);
       const ns = b.nees ? neesSummary(b.nees, b.neesErr.length, settings.confidence, i0, i1) : undefined;
       const nees = ns && ns.count > 0 ? { mean: ns.mean, inside95: ns.inside95 } : undefined;
       if (b.name === 'orientation') {
@@ -536,6 +557,7 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     }
     block.segments.push(seg);
   }
+  giveBack(norm, scratch.idx, scratch.level);
 
   trajectorySeries(track, series);
   return { block, findings, series };

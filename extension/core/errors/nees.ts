@@ -249,6 +249,12 @@ export function windowBoundaries(t_s: Float64Array, i0: number, i1: number, wind
   return b;
 }
 
+/** The law of a window's NEES sum for one epoch count: approximations and the bounds of its mean. */
+interface WindowLaw {
+  nu: number; a: number; b: number; g: number; h: number; nEff: number;
+  lo: number; hi: number; cLo: number; cHi: number;
+}
+
 /**
  * Window statistics of one block's NEES over the given boundaries (one segment), under the autocorrelations `rs`
  * of the normalised error components. The family-corrected level per window, `alphaPerWindow`, is set by the
@@ -259,10 +265,12 @@ export function neesWindows(
   confidence: number, alphaPerWindow: number,
 ): NeesWindow[] {
   const out: NeesWindow[] = [];
-  const cache = new Map<number, { nu: number; a: number; b: number; g: number; h: number; nEff: number }>();
+  // Everything but the window's sum depends only on its epoch count: one set of quantiles per distinct count.
+  const cache = new Map<number, WindowLaw>();
   const rho = new Float64Array(rs.length ? rs[0].length : 0);
   for (let k = 0; k < rho.length; k++) { let s = 0; for (const r of rs) s += r[k] * r[k]; rho[k] = s / rs.length; }
   const comps = rs.length === dof ? rs : Array.from({ length: dof }, () => new Float64Array(0));
+  const half = (1 - confidence) / 2;
   for (let w = 0; w + 1 < bounds.length; w++) {
     const a0 = bounds[w], b0 = bounds[w + 1];
     let s = 0, cnt = 0;
@@ -271,7 +279,15 @@ export function neesWindows(
     let ap = cache.get(cnt);
     if (!ap) {
       const cum = windowCumulants(cnt, comps);
-      ap = { ...pearsonApproximation(cum), g: cum.kappa2 / (2 * cum.kappa1), h: (2 * cum.kappa1 * cum.kappa1) / cum.kappa2, nEff: effectiveSampleSize(cnt, rho) };
+      const pa = pearsonApproximation(cum);
+      const g = cum.kappa2 / (2 * cum.kappa1), h = (2 * cum.kappa1 * cum.kappa1) / cum.kappa2;
+      ap = {
+        ...pa, g, h, nEff: effectiveSampleSize(cnt, rho),
+        lo: (g * chi2Quantile(half, h)) / cnt,
+        hi: (pa.a * chi2Quantile(1 - half, pa.nu) + pa.b) / cnt,
+        cLo: (g * chi2Quantile(alphaPerWindow / 2, h)) / cnt,
+        cHi: (pa.a * chi2Quantile(1 - alphaPerWindow / 2, pa.nu) + pa.b) / cnt,
+      };
       cache.set(cnt, ap);
     }
     const mean = s / cnt;
@@ -280,12 +296,8 @@ export function neesWindows(
     const upper = x > 0 ? chi2Sf(x, ap.nu) : 1;
     const lower = chi2Cdf(s / ap.g, ap.h);
     const p = Math.min(1, 2 * Math.min(lower, upper));
-    const half = (1 - confidence) / 2;
-    const lo = (ap.g * chi2Quantile(half, ap.h)) / cnt;
-    const hi = (ap.a * chi2Quantile(1 - half, ap.nu) + ap.b) / cnt;
+    const { lo, hi, cLo, cHi } = ap;
     const flagged = p < alphaPerWindow;
-    const cLo = (ap.g * chi2Quantile(alphaPerWindow / 2, ap.h)) / cnt;
-    const cHi = (ap.a * chi2Quantile(1 - alphaPerWindow / 2, ap.nu) + ap.b) / cnt;
     out.push({
       t: t_s[a0], tEnd: t_s[b0 - 1], count: cnt, mean, nEff: ap.nEff, bounds: [Math.max(0, lo), hi],
       correctedBounds: [Math.max(0, cLo), cHi], p, flagged,

@@ -7,6 +7,9 @@
  * epoch at or after t_i + Δt (kept when within max(Δt/10, median step) of it); for a distance window D, j is the
  * first epoch where the reference path length from i reaches D. Figures: RMSE, median and max over the pairs.
  */
+import { rotationAt, type AttitudeColumns } from './attitude';
+import { medianInPlace } from '../stats/median';
+import { giveBack, takeFloat64 } from '../scratch';
 
 /** Statistics of one relative-error window. */
 export interface RelativeErrorStats {
@@ -17,56 +20,70 @@ export interface RelativeErrorStats {
   max?: number;
 }
 
-/** Median of a list of finite numbers; NaN when empty. */
+/** Median of a list of finite numbers (a copy is partially reordered); NaN when empty. */
 export function median(values: ArrayLike<number>): number {
-  if (values.length === 0) return NaN;
-  const v = Float64Array.from(values).sort(); // typed-array sort is numeric and much faster than a comparator
-  const m = v.length >> 1;
-  return v.length % 2 ? v[m] : (v[m - 1] + v[m]) / 2;
+  return medianInPlace(Float64Array.from(values));
 }
 
-function stats(errs: number[]): RelativeErrorStats {
-  if (errs.length === 0) return { count: 0 };
+/** Figures of the first `count` pair errors; `errs` is scratch (reordered by the median). */
+function stats(errs: Float64Array, count: number): RelativeErrorStats {
+  if (count === 0) return { count: 0 };
   let s = 0, mx = 0;
-  for (const e of errs) { s += e * e; if (e > mx) mx = e; }
-  return { count: errs.length, rmse: Math.sqrt(s / errs.length), max: mx, median: median(errs) };
+  for (let i = 0; i < count; i++) { const e = errs[i]; s += e * e; if (e > mx) mx = e; }
+  return { count, rmse: Math.sqrt(s / count), max: mx, median: medianInPlace(errs, count) };
 }
 
 /** Inputs shared by both windows: epochs `use` (ascending) with positions and optional attitudes (row-major 3x3). */
 export interface RelativeInput {
   t_s: Float64Array;
   /** Epoch indices to use, ascending in time. */
-  use: number[];
+  use: ArrayLike<number>;
   /** Estimate and reference positions, component columns (2 or 3). */
   est: Float64Array[];
   ref: Float64Array[];
-  /** Optional attitude matrices per epoch (9 values per epoch, row-major), both or neither. */
-  estR?: Float64Array;
-  refR?: Float64Array;
+  /** Optional attitudes on the epochs (attitude.ts), both or neither. */
+  estAtt?: AttitudeColumns;
+  refAtt?: AttitudeColumns;
+  /** Scratch for the pair errors, at least `use.length` long (made when absent). */
+  scratch?: Float64Array;
 }
 
 const de = new Float64Array(3), dr = new Float64Array(3), le = new Float64Array(3), lr = new Float64Array(3);
+const Ra = new Float64Array(9), Rb = new Float64Array(9);
 
 function pairError(inp: RelativeInput, i: number, j: number): number {
+  // each displacement in its own body frame at i, where both attitudes are known there
+  const rotated = !!inp.estAtt && !!inp.refAtt && inp.est.length === 3 && rotationAt(Ra, inp.estAtt, i) && rotationAt(Rb, inp.refAtt, i);
+  return pairErrorWith(inp, i, j, rotated);
+}
+
+/** The pair error with the attitudes at i already in Ra, Rb (`rotated`), or without attitudes. */
+function pairErrorWith(inp: RelativeInput, i: number, j: number, rotated: boolean): number {
   const d = inp.est.length;
   de.fill(0); dr.fill(0);
   for (let c = 0; c < d; c++) { de[c] = inp.est[c][j] - inp.est[c][i]; dr[c] = inp.ref[c][j] - inp.ref[c][i]; }
-  if (inp.estR && inp.refR && d === 3) {
-    const a = inp.estR, b = inp.refR, oa = 9 * i, ob = 9 * i;
+  if (rotated) {
+    const a = Ra, b = Rb;
     for (let r = 0; r < 3; r++) {
-      le[r] = a[oa + r] * de[0] + a[oa + 3 + r] * de[1] + a[oa + 6 + r] * de[2];
-      lr[r] = b[ob + r] * dr[0] + b[ob + 3 + r] * dr[1] + b[ob + 6 + r] * dr[2];
+      le[r] = a[r] * de[0] + a[3 + r] * de[1] + a[6 + r] * de[2];
+      lr[r] = b[r] * dr[0] + b[3 + r] * dr[1] + b[6 + r] * dr[2];
     }
-    if (Number.isFinite(le[0] + le[1] + le[2] + lr[0] + lr[1] + lr[2])) return Math.hypot(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
+    if (Number.isFinite(le[0] + le[1] + le[2] + lr[0] + lr[1] + lr[2])) return norm3(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
   }
-  return Math.hypot(de[0] - dr[0], de[1] - dr[1], de[2] - dr[2]);
+  return norm3(de[0] - dr[0], de[1] - dr[1], de[2] - dr[2]);
+}
+
+/** |a| of a 3-vector as a plain square root (see attitude.ts on the fast norm). */
+function norm3(x: number, y: number, z: number): number {
+  return Math.sqrt(x * x + y * y + z * z);
 }
 
 /** Relative error over time windows of `window_s` seconds. */
 export function relativeErrorOverTime(inp: RelativeInput, window_s: number, medianStep_s: number): RelativeErrorStats {
   const { t_s, use } = inp;
   const tol = Math.max(window_s / 10, Number.isFinite(medianStep_s) ? medianStep_s : 0);
-  const errs: number[] = [];
+  const errs = scratchFor(inp);
+  let count = 0;
   let q = 0;
   for (let p = 0; p < use.length; p++) {
     const target = t_s[use[p]] + window_s;
@@ -75,9 +92,9 @@ export function relativeErrorOverTime(inp: RelativeInput, window_s: number, medi
     if (q >= use.length) break;
     if (t_s[use[q]] - target > tol) continue;
     const e = pairError(inp, use[p], use[q]);
-    if (Number.isFinite(e)) errs.push(e);
+    if (Number.isFinite(e)) errs[count++] = e;
   }
-  return stats(errs);
+  return stats(errs, count);
 }
 
 /** Relative error over reference path lengths of `distance_m` metres. */
@@ -89,7 +106,8 @@ export function relativeErrorOverDistance(inp: RelativeInput, distance_m: number
     for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
     s[p] = s[p - 1] + Math.sqrt(d2);
   }
-  const errs: number[] = [];
+  const errs = scratchFor(inp);
+  let count = 0;
   let q = 0;
   for (let p = 0; p < use.length; p++) {
     const target = s[p] + distance_m;
@@ -97,13 +115,82 @@ export function relativeErrorOverDistance(inp: RelativeInput, distance_m: number
     while (q < use.length && s[q] < target) q++;
     if (q >= use.length) break;
     const e = pairError(inp, use[p], use[q]);
-    if (Number.isFinite(e)) errs.push(e);
+    if (Number.isFinite(e)) errs[count++] = e;
   }
-  return stats(errs);
+  return stats(errs, count);
+}
+
+function scratchFor(inp: RelativeInput): Float64Array {
+  return inp.scratch && inp.scratch.length >= inp.use.length ? inp.scratch : new Float64Array(inp.use.length);
+}
+
+/** Both relative errors of one run and the reference path length they share. */
+export interface RelativeErrors {
+  time: RelativeErrorStats;
+  /** Absent when the distance window is not positive. */
+  distance?: RelativeErrorStats;
+  distance_m: number;
+  pathLength_m: number;
+}
+
+/**
+ * {@link relativeErrorOverTime} and {@link relativeErrorOverDistance} in one pass over the epochs: the attitudes at
+ * each start epoch are computed once for both pairs, and the path length comes from the same cumulative distances.
+ * Same figures as the two functions.
+ * @param distanceFor the distance window for the reference path length (e.g. {@link defaultDistanceWindow})
+ */
+export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_s: number, distanceFor: (pathLength_m: number) => number): RelativeErrors {
+  const { t_s, use, ref } = inp;
+  const n = use.length;
+  const s = takeFloat64(n);
+  s[0] = 0;
+  for (let p = 1; p < n; p++) {
+    let d2 = 0;
+    for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
+    s[p] = s[p - 1] + Math.sqrt(d2);
+  }
+  const pathLength_m = n > 0 ? s[n - 1] : 0;
+  const D = distanceFor(pathLength_m);
+  const withDistance = D > 0;
+  const tol = Math.max(window_s / 10, Number.isFinite(medianStep_s) ? medianStep_s : 0);
+  const errsT = scratchFor(inp);
+  const errsD = withDistance ? takeFloat64(n) : errsT;
+  let countT = 0, countD = 0;
+  let qT = 0, qD = 0;
+  let timeDone = false, distanceDone = !withDistance;
+  const hasAtt = !!inp.estAtt && !!inp.refAtt && inp.est.length === 3;
+  for (let p = 0; p < n && !(timeDone && distanceDone); p++) {
+    const i = use[p];
+    let jT = -1, jD = -1;
+    if (!timeDone) {
+      const target = t_s[i] + window_s;
+      if (qT < p) qT = p;
+      while (qT < n && t_s[use[qT]] < target) qT++;
+      if (qT >= n) timeDone = true;
+      else if (!(t_s[use[qT]] - target > tol)) jT = use[qT];
+    }
+    if (!distanceDone) {
+      const target = s[p] + D;
+      if (qD < p) qD = p;
+      while (qD < n && s[qD] < target) qD++;
+      if (qD >= n) distanceDone = true;
+      else jD = use[qD];
+    }
+    if (jT < 0 && jD < 0) continue;
+    // the relative error is a figure over many pairs: the fast norm (attitude.ts) does not change it
+    const rotated = hasAtt && rotationAt(Ra, inp.estAtt as AttitudeColumns, i, 'fast') && rotationAt(Rb, inp.refAtt as AttitudeColumns, i, 'fast');
+    if (jT >= 0) { const e = pairErrorWith(inp, i, jT, rotated); if (Number.isFinite(e)) errsT[countT++] = e; }
+    if (jD >= 0) { const e = pairErrorWith(inp, i, jD, rotated); if (Number.isFinite(e)) errsD[countD++] = e; }
+  }
+  const out = {
+    time: stats(errsT, countT), ...(withDistance ? { distance: stats(errsD, countD) } : {}), distance_m: D, pathLength_m,
+  };
+  giveBack(s, withDistance ? errsD : undefined);
+  return out;
 }
 
 /** Reference path length over the used epochs, metres. */
-export function pathLength(ref: Float64Array[], use: number[]): number {
+export function pathLength(ref: Float64Array[], use: ArrayLike<number>): number {
   let s = 0;
   for (let p = 1; p < use.length; p++) {
     let d2 = 0;

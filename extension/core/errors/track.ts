@@ -13,15 +13,16 @@
  */
 import type { NavLog, StateStream } from '../model';
 import type { AnalysisSettings } from '../settings';
-import { mat3MulVec, mat3MultiplyTransposeA, mat3MultiplyTransposeB, matFromQuat, so3Log } from '../geometry/so3';
+import { mat3MulVec, mat3MultiplyTransposeA, mat3MultiplyTransposeB, so3Log } from '../geometry/so3';
 import { se3Compose, se3Inverse, se3Log } from '../geometry/se3';
 import { se23Compose, se23Inverse, se23Log } from '../geometry/se23';
 import {
   ALIGN_IN_GAP, ALIGN_OK, MAX_GAP_STEPS, bracketTimes, estimateTimeOffset, interpolateAttitude,
-  interpolateColumn, medianStep, speedProfile, type Bracket,
+  interpolateColumn, medianStep, speedProfile,
 } from './align';
 import { geodeticToLocal, type GeodeticOrigin, type LocalFrame } from './geodetic';
 import { componentSigma, neesSeries, type BlockCovariance } from './nees';
+import { normalisedQuaternionColumns, rotationAt, type AttitudeColumns } from './attitude';
 
 /** Names of the error blocks. */
 export type BlockName = 'position' | 'velocity' | 'orientation';
@@ -63,12 +64,15 @@ export interface ErrorTrack {
   blocks: BlockTrack[];
   /** Joint NEES of all blocks when the full P covers them. */
   joint?: { dof: number; states: string[]; nees: Float64Array };
-  /** Estimate and reference positions at the epochs (for ATE, RPE and the trajectory plot). */
+  /**
+   * Estimate and reference positions at the epochs (for ATE, RPE and the trajectory plot). Only the compared
+   * epochs count ({@link isCompared}): elsewhere a column may hold a value (it can be the log's own column).
+   */
   estP: Float64Array[];
   refP: Float64Array[];
-  /** Attitude matrices per epoch (9 values each) where both attitudes are known. */
-  estR?: Float64Array;
-  refR?: Float64Array;
+  /** Estimate and reference attitudes on the epochs, read on demand (attitude.ts); both or neither. */
+  estAtt?: AttitudeColumns;
+  refAtt?: AttitudeColumns;
   /** The reference's own positions (all its samples, converted), for the plot. */
   refOwn?: { t_s: Float64Array; line: Float64Array; p: Float64Array[] };
   notes: string[];
@@ -103,33 +107,23 @@ function positionsOf(
   return { p: h ? out : [out[0], out[1], undefined], origin: o };
 }
 
-/** Normalised quaternion columns (an epoch whose norm is not within 10% of 1 becomes NaN), or undefined. */
-function quatColumns(s: StateStream, prefix: string): Float64Array[] | undefined {
+/** The quaternion columns of a stream (`q_w q_x q_y q_z` after `prefix`), or undefined. */
+function quaternionColumns(s: StateStream, prefix: string): Float64Array[] | undefined {
   const q = columnsOf(s.columns, prefix, ['q_w', 'q_x', 'q_y', 'q_z']);
-  if (!allDefined(q)) return undefined;
-  const n = s.length;
-  const [qw, qx, qy, qz] = q;
-  const ow = new Float64Array(n), ox = new Float64Array(n), oy = new Float64Array(n), oz = new Float64Array(n);
-  // Scalar locals instead of a scratch quaternion per epoch; Math.hypot as in quatNorm, so the values are the same.
-  for (let k = 0; k < n; k++) {
-    const w = qw[k], x = qx[k], y = qy[k], z = qz[k];
-    const nrm = Math.hypot(w, x, y, z);
-    if (Number.isFinite(nrm) && Math.abs(nrm - 1) <= 0.1) {
-      ow[k] = w / nrm; ox[k] = x / nrm; oy[k] = y / nrm; oz[k] = z / nrm;
-    } else {
-      ow[k] = NaN; ox[k] = NaN; oy[k] = NaN; oz[k] = NaN;
-    }
-  }
-  return [ow, ox, oy, oz];
+  return allDefined(q) ? q : undefined;
+}
+
+/** Attitude columns read as the given normalisation. */
+function attitudeOf(q: Float64Array[], normalisation: AttitudeColumns['normalisation']): AttitudeColumns {
+  return { w: q[0], x: q[1], y: q[2], z: q[3], normalisation };
 }
 
 const scratchA = new Float64Array(9);
 const scratchB = new Float64Array(9);
 
-/** Copy the 3x3 matrix of epoch k (9 values per epoch) into `out` (no view allocated per epoch). */
-function copyMat(out: Float64Array, all: Float64Array, k: number): Float64Array {
-  for (let i = 0; i < 9; i++) out[i] = all[9 * k + i];
-  return out;
+/** Whether epoch k of a track is compared: inside the time window with a reference value. */
+export function isCompared(track: Pick<ErrorTrack, 'w0' | 'w1' | 'status'>, k: number): boolean {
+  return k >= track.w0 && k < track.w1 && track.status[k] === ALIGN_OK;
 }
 
 /** t + offset for the first `length` stamps. */
@@ -161,6 +155,13 @@ function blockCovariance(state: StateStream, states: string[], sigmaNames: strin
   return undefined;
 }
 
+/** r - p at the compared epochs, NaN elsewhere (one pass, every value written once). */
+function differenceColumn(r: Float64Array, p: Float64Array, n: number, compared: (k: number) => boolean): Float64Array {
+  const e = new Float64Array(n);
+  for (let k = 0; k < n; k++) e[k] = compared(k) ? r[k] - p[k] : NaN;
+  return e;
+}
+
 /**
  * Build the error track of one run. Returns undefined when the log has no reference (neither `gt_` columns nor a
  * reference stream) or no estimated position, attitude or velocity to compare.
@@ -178,8 +179,10 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   // Reference positions first (they fix the geodetic origin), then the estimate's.
   const refPos = positionsOf(refStream, prefix, frame, undefined);
   const estPos = positionsOf(state, '', frame, refPos?.origin);
-  const refQ = quatColumns(refStream, prefix);
-  const estQ = quatColumns(state, '');
+  const refQRaw = quaternionColumns(refStream, prefix);
+  const estQRaw = quaternionColumns(state, '');
+  // A reference at its own rate is interpolated from unit quaternions; one in the same records is read in place.
+  const refQ = refQRaw && ref ? normalisedQuaternionColumns(refQRaw[0], refQRaw[1], refQRaw[2], refQRaw[3], ref.length) : refQRaw;
   // velocity: 3-D when both have v_z, else horizontal (v_x, v_y) when both have those
   const refV3 = columnsOf(refStream.columns, prefix, ['v_x', 'v_y', 'v_z']);
   const estV3 = columnsOf(state.columns, '', ['v_x', 'v_y', 'v_z']);
@@ -188,7 +191,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   const estV = estV3.slice(0, velDims);
   const hasPos = !!(refPos && estPos);
   const hasVel = allDefined(refV) && allDefined(estV);
-  const hasAtt = !!(refQ && estQ);
+  const hasAtt = !!(refQ && estQRaw);
   if (!hasPos && !hasVel && !hasAtt) return undefined;
 
   // --- time alignment -------------------------------------------------------------------------------------
@@ -207,7 +210,12 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   }
 
   const [w0, w1] = windowRange(state.t_s, n, settings.window);
-  let br: Bracket;
+  const off = settings.referenceOffset_m;
+  const lever = settings.leverArm_m;
+  let rp: (Float64Array | undefined)[] = [];
+  let rv: Float64Array[] = [];
+  let refAtt: AttitudeColumns | undefined;
+  let status: Uint8Array;
   if (ref) {
     const valid = new Uint8Array(ref.length);
     for (let i = 0; i < ref.length; i++) {
@@ -218,60 +226,47 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
       valid[i] = ok ? 1 : 0;
     }
     const step = medianStep(ref.t_s, ref.length);
-    br = bracketTimes(state.t_s, n, ref.t_s, ref.length, offset, valid, MAX_GAP_STEPS * step * (1 + 1e-9));
+    const br = bracketTimes(state.t_s, n, ref.t_s, ref.length, offset, valid, MAX_GAP_STEPS * step * (1 + 1e-9));
+    const interp = (c: Float64Array | undefined): Float64Array | undefined =>
+      c ? interpolateColumn(c, br, new Float64Array(n)) : undefined;
+    rp = refPos ? refPos.p.map(interp) : [];
+    rv = hasVel ? (refV as Float64Array[]).map((c) => interp(c) as Float64Array) : [];
+    if (refQ) {
+      const out: [Float64Array, Float64Array, Float64Array, Float64Array] = [new Float64Array(n), new Float64Array(n), new Float64Array(n), new Float64Array(n)];
+      interpolateAttitude(refQ[0], refQ[1], refQ[2], refQ[3], br, out);
+      refAtt = attitudeOf(out, 'unit');
+    }
+    status = br.status;
   } else {
-    const left = new Int32Array(n), right = new Int32Array(n), fraction = new Float64Array(n), status = new Uint8Array(n);
+    // The reference is in the estimate's own records: every epoch is its own bracket, so its columns are read in
+    // place (no interpolated copies); an epoch is compared when its reference position (or attitude) is there.
+    status = new Uint8Array(n);
     const [c0, c1, c2] = refPos ? refPos.p : [];
-    const q0 = refPos ? undefined : refQ?.[0];
+    const qAtt = !refPos && refQ ? attitudeOf(refQ, 'logged') : undefined;
     for (let k = 0; k < n; k++) {
       let ok = true;
       if (refPos) ok = (!c0 || Number.isFinite(c0[k])) && (!c1 || Number.isFinite(c1[k])) && (!c2 || Number.isFinite(c2[k]));
-      else if (q0) ok = Number.isFinite(q0[k]);
-      left[k] = right[k] = ok ? k : -1;
+      else if (qAtt) ok = rotationAt(scratchA, qAtt, k);
       status[k] = ok ? ALIGN_OK : ALIGN_IN_GAP;
     }
-    br = { left, right, fraction, status };
+    // The frame offset and lever arm below change the reference positions: they get their own copy then.
+    rp = refPos ? refPos.p.map((c) => (c && (off || lever) ? c.slice(0, n) : c)) : [];
+    rv = hasVel ? (refV as Float64Array[]) : [];
+    if (refQ) refAtt = attitudeOf(refQ, 'loggedTwice');
   }
-
-  const interp = (c: Float64Array | undefined): Float64Array | undefined =>
-    c ? interpolateColumn(c, br, new Float64Array(n)) : undefined;
-
-  const rp = refPos ? refPos.p.map(interp) : [];
-  const rv = hasVel ? (refV as Float64Array[]).map((c) => interp(c) as Float64Array) : [];
-  let rq: Float64Array[] | undefined;
-  if (refQ) {
-    const out: [Float64Array, Float64Array, Float64Array, Float64Array] = [new Float64Array(n), new Float64Array(n), new Float64Array(n), new Float64Array(n)];
-    interpolateAttitude(refQ[0], refQ[1], refQ[2], refQ[3], br, out);
-    rq = out;
-  }
-
-  // Attitude matrices where known (est and ref), used by the lever arm, orientation errors and RPE.
-  const estR = estQ ? new Float64Array(9 * n).fill(NaN) : undefined;
-  const refR = rq ? new Float64Array(9 * n).fill(NaN) : undefined;
-  const q = new Float64Array(4), m = new Float64Array(9);
-  for (let k = w0; k < w1; k++) {
-    if (estQ && estR) {
-      for (let i = 0; i < 4; i++) q[i] = estQ[i][k];
-      if (Number.isFinite(q[0])) { matFromQuat(m, q); estR.set(m, 9 * k); }
-    }
-    if (rq && refR) {
-      for (let i = 0; i < 4; i++) q[i] = rq[i][k];
-      if (Number.isFinite(q[0])) { matFromQuat(m, q); refR.set(m, 9 * k); }
-    }
-  }
+  const estAtt = estQRaw ? attitudeOf(estQRaw, 'logged') : undefined;
+  const compared = (k: number): boolean => k >= w0 && k < w1 && status[k] === ALIGN_OK;
 
   // Frame offset and lever arm on the reference positions.
-  const off = settings.referenceOffset_m;
-  const lever = settings.leverArm_m;
   if (refPos && (off || lever)) {
-    if (lever && !refR && !estR) notes.push('leverArm_m ignored: neither the reference nor the estimate has an attitude');
+    if (lever && !refAtt && !estAtt) notes.push('leverArm_m ignored: neither the reference nor the estimate has an attitude');
     const l = new Float64Array(3), lr = new Float64Array(3);
     for (let k = w0; k < w1; k++) {
       for (let c = 0; c < rp.length; c++) { const col = rp[c]; if (col && off) col[k] += off[c]; }
       if (lever) {
-        const src = refR && Number.isFinite(refR[9 * k]) ? refR : estR && Number.isFinite(estR[9 * k]) ? estR : undefined;
-        if (!src) continue;
-        const R = copyMat(scratchA, src, k);
+        const R = scratchA;
+        // the reference's attitude where it has one, else the estimate's
+        if (!((refAtt && rotationAt(R, refAtt, k)) || (estAtt && rotationAt(R, estAtt, k)))) continue;
         l[0] = lever[0]; l[1] = lever[1]; l[2] = lever[2];
         mat3MulVec(lr, R, l);
         for (let c = 0; c < rp.length; c++) { const col = rp[c]; if (col) col[k] += lr[c]; }
@@ -279,7 +274,6 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     }
   }
 
-  const inWindow = (k: number): boolean => k >= w0 && k < w1 && br.status[k] === ALIGN_OK;
   const blocks: BlockTrack[] = [];
   const side = log.conventions.attitudeErrorSide;
   const group = log.conventions.errorGroup ?? 'SO3xR3';
@@ -292,14 +286,9 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     if (dims === 2) notes.push('position compared in 2-D: no height in the estimate or the reference');
     const err: Float64Array[] = [];
     for (let c = 0; c < dims; c++) {
-      const e = new Float64Array(n).fill(NaN);
       const r = rp[c] as Float64Array, p = estPos.p[c] as Float64Array;
-      const ep = new Float64Array(n).fill(NaN), rr = new Float64Array(n).fill(NaN);
-      for (let k = w0; k < w1; k++) {
-        if (!inWindow(k)) continue;
-        e[k] = r[k] - p[k]; ep[k] = p[k]; rr[k] = r[k];
-      }
-      err.push(e); estP.push(ep); refP.push(rr);
+      err.push(differenceColumn(r, p, n, compared));
+      estP.push(p); refP.push(r);
     }
     const names = ['p_x', 'p_y', 'p_z'].slice(0, dims);
     const cov = blockCovariance(state, names, names.map((s) => `sigma_${s}`));
@@ -308,27 +297,24 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   // --- velocity --------------------------------------------------------------------------------------------
   if (hasVel) {
-    const err = (estV as Float64Array[]).map((p, c) => {
-      const e = new Float64Array(n).fill(NaN);
-      for (let k = w0; k < w1; k++) if (inWindow(k)) e[k] = rv[c][k] - p[k];
-      return e;
-    });
+    const err = (estV as Float64Array[]).map((p, c) => differenceColumn(rv[c], p, n, compared));
     const names = ['v_x', 'v_y', 'v_z'].slice(0, velDims);
     if (velDims === 2) notes.push('velocity compared in 2-D: no vertical velocity in the estimate or the reference');
     blocks.push({ name: 'velocity', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
   }
 
   // --- orientation -----------------------------------------------------------------------------------------
-  if (hasAtt && estR && refR) {
-    const err = [0, 1, 2].map(() => new Float64Array(n).fill(NaN));
+  if (hasAtt && estAtt && refAtt) {
+    const ex = new Float64Array(n), ey = new Float64Array(n), ez = new Float64Array(n);
     const E = new Float64Array(9), v = new Float64Array(3);
-    for (let k = w0; k < w1; k++) {
-      if (!inWindow(k) || !Number.isFinite(estR[9 * k]) || !Number.isFinite(refR[9 * k])) continue;
-      const Re = copyMat(scratchA, estR, k), Rt = copyMat(scratchB, refR, k);
+    const Re = scratchA, Rt = scratchB;
+    for (let k = 0; k < n; k++) {
+      if (!compared(k) || !rotationAt(Re, estAtt, k) || !rotationAt(Rt, refAtt, k)) { ex[k] = ey[k] = ez[k] = NaN; continue; }
       if (side === 'body') mat3MultiplyTransposeA(E, Re, Rt); else mat3MultiplyTransposeB(E, Rt, Re);
       so3Log(v, E);
-      err[0][k] = v[0]; err[1][k] = v[1]; err[2][k] = v[2];
+      ex[k] = v[0]; ey[k] = v[1]; ez[k] = v[2];
     }
+    const err = [ex, ey, ez];
     const names = ['att_x', 'att_y', 'att_z'];
     blocks.push({ name: 'orientation', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
   }
@@ -338,7 +324,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   const vel = blocks.find((b) => b.name === 'velocity');
   const att = blocks.find((b) => b.name === 'orientation');
   if (group !== 'SO3xR3') {
-    if (!pos || !att || pos.err.length !== 3 || !estR || !refR) {
+    if (!pos || !att || pos.err.length !== 3 || !estAtt || !refAtt) {
       notes.push(`invariant errors (${group}) need 3-D position and attitude in both the estimate and the reference; plain errors are used`);
     } else {
       const useVel = group === 'SE23' && !!vel && vel.err.length === 3;
@@ -352,7 +338,9 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
       for (let k = w0; k < w1; k++) {
         if (!Number.isFinite(att.err[0][k]) || !Number.isFinite(pos.err[0][k])) continue;
         if (useVel && !Number.isFinite((vel as BlockTrack).err[0][k])) continue;
-        for (let i = 0; i < 9; i++) { Xe[i] = estR[9 * k + i]; Xt[i] = refR[9 * k + i]; }
+        // both attitudes are there: the orientation error is finite
+        rotationAt(scratchA, estAtt, k); rotationAt(scratchB, refAtt, k);
+        for (let i = 0; i < 9; i++) { Xe[i] = scratchA[i]; Xt[i] = scratchB[i]; }
         for (let c = 0; c < 3; c++) {
           const pe = estP[c][k], pt = refP[c][k];
           if (useVel) {
@@ -407,7 +395,6 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     refOwn = { t_s: shiftT, line: ref.line.slice(0, ref.length), p };
   }
 
-  const status = br.status;
   if (frameAssumed && (refPos?.origin || blocks.length > 0)) {
     // only matters for geodetic conversion and the trajectory plot's axes
     if (refPos?.origin) notes.push('frame not given in the log: geodetic reference converted to ENU');
@@ -415,6 +402,6 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   return {
     t_s: state.t_s, line: state.line, file: state.file, length: n, w0, w1, status, source: ref ? 'reference' : 'state', frame, frameAssumed,
     timeOffset_s: offset, timeOffsetEstimated: offsetEstimated, origin: refPos?.origin, blocks, joint,
-    estP, refP, estR: hasAtt ? estR : undefined, refR: hasAtt ? refR : undefined, refOwn, notes,
+    estP, refP, estAtt: hasAtt ? estAtt : undefined, refAtt: hasAtt ? refAtt : undefined, refOwn, notes,
   };
 }

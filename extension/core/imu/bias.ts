@@ -34,6 +34,8 @@ import { BIAS_INSTABILITY_FACTOR } from './noiseFigures';
 import type { ResolvedSpec } from './presets';
 import { fromSI } from './units';
 import { lazySeries } from '../lazySeries';
+import { medianInPlace } from '../stats/median';
+import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 
 /** Which bias. */
 export type BiasSensor = 'gyro' | 'accel';
@@ -92,43 +94,41 @@ const AXES = ['x', 'y', 'z'];
 const UNIT: Record<BiasSensor, string> = { gyro: 'rad/s', accel: 'm/s^2' };
 const SHOW_UNIT: Record<BiasSensor, string> = { gyro: 'deg/h', accel: 'ug' };
 
-/** The k-th smallest value of `a` (0-based), partially reordering `a` in place (Hoare's quickselect). */
-function selectInPlace(a: Float64Array, k: number): number {
-  let lo = 0;
-  let hi = a.length - 1;
-  while (hi > lo) {
-    const pivot = a[(lo + hi) >> 1];
-    let i = lo;
-    let j = hi;
-    while (i <= j) {
-      while (a[i] < pivot) i++;
-      while (a[j] > pivot) j--;
-      if (i <= j) { const tmp = a[i]; a[i] = a[j]; a[j] = tmp; i++; j--; }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return a[k];
-  }
-  return a[k];
-}
-
 /** Median of finite numbers (a copy is partially reordered: O(n) expected). NaN for empty. */
 export function median(values: ArrayLike<number>): number {
-  const v = Float64Array.from(values);
-  if (v.length === 0) return NaN;
-  const h = v.length >> 1;
-  const upper = selectInPlace(v, h);
-  if (v.length % 2) return upper;
-  let lower = -Infinity; // the largest value below position h, after the partition
-  for (let i = 0; i < h; i++) if (v[i] > lower) lower = v[i];
-  return (lower + upper) / 2;
+  return medianInPlace(Float64Array.from(values));
 }
 
-/** 1.4826 x median absolute deviation around `center` (consistent for a normal scale). */
-function madScale(values: ArrayLike<number>, center: number): number {
-  const dev = new Float64Array(values.length);
-  for (let i = 0; i < values.length; i++) dev[i] = Math.abs(values[i] - center);
-  return 1.4826 * median(dev);
+/** Median of finite numbers, copied into `work` (at least as long) and selected there; NaN for empty. */
+function medianWith(values: Float64Array, work: Float64Array): number {
+  const n = values.length;
+  work.set(values);
+  return medianInPlace(work, n);
+}
+
+/** Work columns of one axis's analysis, shared by the axes and sensors of a log (each at least the stream's length). */
+export interface BiasScratch {
+  idx: Int32Array;
+  d: Float64Array;
+  pos: Int32Array;
+  work: Float64Array;
+}
+
+/** Work columns for a state stream of `n` records, from the shared pool (scratch.ts): give them back with {@link giveBackBiasScratch}. */
+export function biasScratch(n: number): BiasScratch {
+  return { idx: takeInt32(n), d: takeFloat64(n), pos: takeInt32(n), work: takeFloat64(n) };
+}
+
+/** Return the work columns of {@link biasScratch} to the shared pool. */
+export function giveBackBiasScratch(s: BiasScratch): void {
+  giveBack(s.idx, s.d, s.pos, s.work);
+}
+
+/** 1.4826 x median absolute deviation around `center` (consistent for a normal scale); `work` as long as `values`. */
+function madScale(values: ArrayLike<number>, center: number, work: Float64Array = new Float64Array(values.length)): number {
+  const n = values.length;
+  for (let i = 0; i < n; i++) work[i] = Math.abs(values[i] - center);
+  return 1.4826 * medianInPlace(work, n);
 }
 
 /**
@@ -136,8 +136,8 @@ function madScale(values: ArrayLike<number>, center: number): number {
  * MAD is zero), then twice the RMS of the values within 5 scales. The RMS step keeps the estimate right for coarsely
  * rounded logs, where the MAD of a few distinct values is off by tens of percent; the 5-scale cut keeps it robust.
  */
-export function robustScale(values: ArrayLike<number>, center: number): number {
-  let s = madScale(values, center);
+export function robustScale(values: ArrayLike<number>, center: number, work?: Float64Array): number {
+  let s = madScale(values, center, work && work.length >= values.length ? work : undefined);
   if (!(s > 0)) {
     let acc = 0;
     for (let i = 0; i < values.length; i++) acc += Math.abs(values[i] - center);
@@ -166,7 +166,7 @@ export function theilSenSlope(x: ArrayLike<number>, y: ArrayLike<number>): numbe
       if (dx !== 0) slopes[k++] = (y[j] - y[i]) / dx;
     }
   }
-  return median(slopes.subarray(0, k));
+  return medianInPlace(slopes, k);
 }
 
 /** One value in the unit people read (deg/h for gyro, ug for accel), as text. */
@@ -193,6 +193,8 @@ export interface BiasOptions {
   /** False-step probability per axis (0.01). */
   alpha: number;
   spec: ResolvedSpec;
+  /** Work columns (biasScratch) at least as long as the stream; made per sensor when absent. */
+  scratch?: BiasScratch;
 }
 
 /**
@@ -206,10 +208,15 @@ export function analyzeBiasSensor(state: StateStream, sensor: BiasSensor, option
   const findings: Finding[] = [];
   const series: Series[] = [];
   const results: (AxisResult | undefined)[] = [];
+  const cols = AXES.map((ax) => state.columns.get(`${PREFIX[sensor]}_${ax}`));
+  if (cols.every((c) => c === undefined)) return { findings, series };
+  const own = !(options.scratch && options.scratch.d.length >= state.length);
+  const scratch = own ? biasScratch(state.length) : options.scratch as BiasScratch;
   for (let a = 0; a < 3; a++) {
-    const col = state.columns.get(`${PREFIX[sensor]}_${AXES[a]}`);
-    results.push(col ? analyzeAxis(state, col, state.columns.get(`sigma_${PREFIX[sensor]}_${AXES[a]}`), sensor, a, options, findings) : undefined);
+    const col = cols[a];
+    results.push(col ? analyzeAxis(state, col, state.columns.get(`sigma_${PREFIX[sensor]}_${AXES[a]}`), sensor, a, options, findings, scratch) : undefined);
   }
+  if (own) giveBackBiasScratch(scratch);
   if (results.every((r) => r === undefined)) return { findings, series };
   const nul = (f: (r: AxisResult) => number): (number | null)[] => results.map((r) => (r && Number.isFinite(f(r)) ? f(r) : null));
   const settle = results.map((r) => (r ? r.settleTime : NaN)).filter((v) => Number.isFinite(v));
@@ -232,13 +239,14 @@ export function analyzeBiasSensor(state: StateStream, sensor: BiasSensor, option
 /** Analyse one axis (see the module comment for every rule). */
 function analyzeAxis(
   state: StateStream, col: Float64Array, sigmaCol: Float64Array | undefined, sensor: BiasSensor, axis: number,
-  options: BiasOptions, findings: Finding[],
+  options: BiasOptions, findings: Finding[], scratch: BiasScratch,
 ): AxisResult | undefined {
   const t = state.t_s;
   const n = state.length;
   const name = `${sensor} bias ${AXES[axis]}`;
+  const work = scratch.work;
   // finite samples with increasing time
-  const idxAll = new Int32Array(n);
+  const idxAll = scratch.idx;
   let count = 0;
   let lastT = -Infinity;
   for (let i = 0; i < n; i++) {
@@ -267,12 +275,14 @@ function analyzeAxis(
     for (let j = 0; j < count; j++) { xs[j] = t[idx[j]]; ys[j] = col[idx[j]]; ls[j] = state.line[idx[j]]; }
   }
   // the +-3 sigma band is made when the series is first read (lazySeries.ts), lo and hi together
+  // (the index column is scratch, reused by the next axis: the band keeps its own copy unless it is the identity)
   let band: { lo: Float64Array; hi: Float64Array } | undefined;
+  const bandIdx = sigmaCol && count < n ? idx.slice() : undefined;
   const makeBand = (sig: Float64Array): { lo: Float64Array; hi: Float64Array } => {
     if (band) return band;
-    const lo = new Float64Array(idx.length);
-    const hi = new Float64Array(idx.length);
-    for (let j = 0; j < idx.length; j++) { const sg = sig[idx[j]]; lo[j] = ys[j] - 3 * sg; hi[j] = ys[j] + 3 * sg; }
+    const lo = new Float64Array(count);
+    const hi = new Float64Array(count);
+    for (let j = 0; j < count; j++) { const sg = sig[bandIdx ? bandIdx[j] : j]; lo[j] = ys[j] - 3 * sg; hi[j] = ys[j] + 3 * sg; }
     return (band = { lo, hi });
   };
   const s: Series = lazySeries(
@@ -292,8 +302,8 @@ function analyzeAxis(
   const steps: number[] = [];
   for (let j = 1; j < idx.length; j += Math.max(1, Math.floor(idx.length / 20000))) steps.push(xs[j] - xs[j - 1]);
   const dtMedian = median(steps);
-  const dAll = new Float64Array(idx.length - 1);
-  const posAll = new Int32Array(idx.length - 1);
+  const dAll = scratch.d;
+  const posAll = scratch.pos;
   let nd = 0;
   for (let j = 1; j < idx.length; j++) {
     const v = ys[j] - ys[j - 1];
@@ -308,14 +318,14 @@ function analyzeAxis(
     final: last, totalChange: last - first, driftPerHour: NaN, settleTime: xs[0] - t0, sigmaFinal, steps: [], h: NaN, series,
   };
   if (d.length < 20) {
-    result.driftPerHour = driftRate(xs, ys, 0);
+    result.driftPerHour = driftRate(xs, ys, 0, work);
     return result;
   }
   const ref = d.subarray(d.length >> 1);
-  const med = median(ref);
-  const scale = robustScale(ref, med);
+  const med = medianWith(ref, work);
+  const scale = robustScale(ref, med, work);
   if (!(scale > 0)) {
-    result.driftPerHour = driftRate(xs, ys, 0);
+    result.driftPerHour = driftRate(xs, ys, 0, work);
     return result;
   }
 
@@ -335,7 +345,7 @@ function analyzeAxis(
   if (settleInc < 0) settleInc = d.length >> 1;
   const settlePos = pos[settleInc] - 1; // the sample before the first settled increment
   result.settleTime = xs[settlePos] - t0;
-  result.driftPerHour = driftRate(xs, ys, settlePos);
+  result.driftPerHour = driftRate(xs, ys, settlePos, work);
 
   // steps: two-sided CUSUM on the normalised settled increments
   const nAfter = d.length - settleInc;
@@ -354,8 +364,8 @@ function analyzeAxis(
     const limit = k + 1 < bounds.length ? bounds[k + 1].p0 : idx.length - 1;
     const afterLo = Math.min(limit, p1 + 2 * (p1 - p0));
     const afterHi = Math.min(limit, afterLo + Wb);
-    const before = median(ys.subarray(beforeLo, p0 + 1));
-    const after = median(ys.subarray(afterLo, afterHi + 1));
+    const before = medianWith(ys.subarray(beforeLo, p0 + 1), work);
+    const after = medianWith(ys.subarray(afterLo, afterHi + 1), work);
     const size = after - before;
     // the step's time is the first sample that moved (p0 is the last one before the change)
     const first = Math.min(p0 + 1, p1);
@@ -378,7 +388,7 @@ function analyzeAxis(
   }
 
   // drift against the specification
-  const drift = driftCheck(xs, ys, settlePos, sensor, sigmaFinal, options.spec, bounds.map((b) => [xs[b.p0], xs[b.p1]] as [number, number]));
+  const drift = driftCheck(xs, ys, settlePos, sensor, sigmaFinal, options.spec, bounds.map((b) => [xs[b.p0], xs[b.p1]] as [number, number]), work);
   if (drift) {
     result.drift = drift;
     if (drift.ratio > 1) {
@@ -398,7 +408,7 @@ function analyzeAxis(
 }
 
 /** Block medians of (x, y) over [start, end): at most `blocks` points (time = block mean, value = block median). */
-function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks: number): { bt: Float64Array; bv: Float64Array } {
+function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks: number, work: Float64Array): { bt: Float64Array; bv: Float64Array } {
   const count = xs.length - start;
   const nb = Math.max(1, Math.min(blocks, count));
   const size = count / nb;
@@ -410,15 +420,15 @@ function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks:
     let st = 0;
     for (let i = a; i < e; i++) st += xs[i];
     bt[b] = st / (e - a);
-    bv[b] = median(ys.subarray(a, e));
+    bv[b] = medianWith(ys.subarray(a, e), work);
   }
   return { bt, bv };
 }
 
 /** Theil-Sen drift rate after `start`, SI units per hour (on at most 200 block medians). */
-function driftRate(xs: Float64Array, ys: Float64Array, start: number): number {
+function driftRate(xs: Float64Array, ys: Float64Array, start: number, work: Float64Array): number {
   if (xs.length - start < 3) return NaN;
-  const { bt, bv } = blockMedians(xs, ys, start, 200);
+  const { bt, bv } = blockMedians(xs, ys, start, 200, work);
   return theilSenSlope(bt, bv) * 3600;
 }
 
@@ -431,10 +441,10 @@ export function plausibleBiasChange(T_s: number, K: number, B: number, sigma = 0
 /** Worst window of the drift check (see the module comment). */
 function driftCheck(
   xs: Float64Array, ys: Float64Array, start: number, sensor: BiasSensor, sigmaFinal: number, spec: ResolvedSpec,
-  stepSpans: [number, number][],
+  stepSpans: [number, number][], work: Float64Array,
 ): BiasDriftCheck | undefined {
   if (xs.length - start < 10) return undefined;
-  const { bt, bv } = blockMedians(xs, ys, start, 200);
+  const { bt, bv } = blockMedians(xs, ys, start, 200, work);
   const span = bt[bt.length - 1] - bt[0];
   if (!(span > 0)) return undefined;
   const K = sensor === 'gyro' ? spec.spec.gyroRateRandomWalk : spec.spec.accRateRandomWalk;

@@ -8,7 +8,7 @@ import type { Finding } from '../report';
 import type { AnalysisSettings } from '../settings';
 import type { Series, StageOutput } from '../series';
 import { allanDeviation, type AllanCurve, type AllanOptions } from './allan';
-import { analyzeBiasSensor, gyroTruthConsistency, type BiasSensorBlock } from './bias';
+import { analyzeBiasSensor, biasScratch, giveBackBiasScratch, gyroTruthConsistency, type BiasSensorBlock } from './bias';
 import { cusumArlTwoSided } from './cusum';
 import { readNoiseFigures, type NoiseFigures } from './noiseFigures';
 import { resolveSpec, IMU_PRESETS, type ImuSpecField, type ImuSpecInput } from './presets';
@@ -123,8 +123,12 @@ export function analyzeBias(log: NavLog, settings: AnalysisSettings): StageOutpu
     if (alphaIn !== undefined && alpha !== alphaIn) {
       findings.push({ kind: 'bad-value', severity: 'warning', message: `biasStepAlpha ${alphaIn} is not in (0, 1); ${alpha} used` });
     }
-    const gyro = analyzeBiasSensor(log.state, 'gyro', { alpha, spec: resolved });
-    const accel = analyzeBiasSensor(log.state, 'accel', { alpha, spec: resolved });
+    // one set of work columns for the six axes
+    const hasBias = ['bg', 'ba'].some((p) => ['x', 'y', 'z'].some((a) => log.state.columns.has(`${p}_${a}`)));
+    const scratch = hasBias ? biasScratch(log.state.length) : undefined;
+    const gyro = analyzeBiasSensor(log.state, 'gyro', { alpha, spec: resolved, scratch });
+    const accel = analyzeBiasSensor(log.state, 'accel', { alpha, spec: resolved, scratch });
+    if (scratch) giveBackBiasScratch(scratch);
     findings.push(...gyro.findings, ...accel.findings);
     series.push(...gyro.series, ...accel.series);
     if (gyro.block) {

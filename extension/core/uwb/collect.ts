@@ -156,6 +156,8 @@ export function collectUpdates(
     if (isTdoaChannel(ch)) chosen.push({ ch, kind: 'tdoa' });
     else if (isRangeChannel(ch)) chosen.push({ ch, kind: 'range' });
   }
+  const single = chosen.length === 1 ? singleChannelUpdates(chosen[0].ch, chosen[0].kind, anchors, links, nisOf) : undefined;
+  if (single) return single;
   let total = 0;
   for (const c of chosen) total += c.ch.length;
   const out: UpdateColumns = {
@@ -171,13 +173,7 @@ export function collectUpdates(
   };
   chosen.forEach(({ ch, kind }, ci) => {
     const nis = nisOf(ch);
-    const linkOfId = ch.ids.map((id) => {
-      if (kind === 'tdoa') {
-        const pair = parsePairId(id);
-        return pair ? addLink(links, anchors, addAnchor(anchors, pair[0]), addAnchor(anchors, pair[1])) : -1;
-      }
-      return id.trim() === '' ? -1 : addLink(links, anchors, addAnchor(anchors, id), -1);
-    });
+    const linkOfId = linksOfIds(ch, kind, anchors, links);
     for (let k = 0; k < ch.length; k++) {
       const idv = ch.id[k];
       if (!(Number.isInteger(idv) && idv >= 0 && idv < linkOfId.length) || linkOfId[idv] < 0) continue;
@@ -192,6 +188,55 @@ export function collectUpdates(
     }
   });
   return out;
+}
+
+/** Link index of each interned id of a channel (-1 where the id names no link). */
+function linksOfIds(ch: Channel, kind: 'tdoa' | 'range', anchors: AnchorTable, links: LinkTable): number[] {
+  return ch.ids.map((id) => {
+    if (kind === 'tdoa') {
+      const pair = parsePairId(id);
+      return pair ? addLink(links, anchors, addAnchor(anchors, pair[0]), addAnchor(anchors, pair[1])) : -1;
+    }
+    return id.trim() === '' ? -1 : addLink(links, anchors, addAnchor(anchors, id), -1);
+  });
+}
+
+/**
+ * The updates of the only UWB channel as views of its own columns (no copies) when every update has a usable id,
+ * one innovation component, a NIS value slot and a 0/1 rejection flag; undefined otherwise (then they are copied).
+ */
+function singleChannelUpdates(
+  ch: Channel, kind: 'tdoa' | 'range', anchors: AnchorTable, links: LinkTable, nisOf: (channel: Channel) => Float64Array,
+): UpdateColumns | undefined {
+  const n = ch.length;
+  if (ch.dof !== 1) return undefined;
+  for (let k = 0; k < n; k++) {
+    const idv = ch.id[k];
+    const r = ch.rejected[k];
+    if (!(Number.isInteger(idv) && idv >= 0 && idv < ch.ids.length) || (r !== 0 && r !== 1)) return undefined;
+  }
+  const linkOfId = linksOfIds(ch, kind, anchors, links);
+  const nis = nisOf(ch);
+  const link = new Int32Array(n);
+  let ok = nis.length >= n;
+  for (let k = 0; k < n && ok; k++) {
+    const L = linkOfId[ch.id[k]];
+    if (L < 0) ok = false;
+    link[k] = L;
+  }
+  // (the copying path then finds the same anchors and links, in the same order: adding them is idempotent)
+  if (!ok) return undefined;
+  return {
+    length: n,
+    t_s: ch.t_s.subarray(0, n),
+    line: ch.line.subarray(0, n),
+    channel: new Uint16Array(n),
+    link,
+    nu: ch.nu.subarray(0, n),
+    nis: nis.subarray(0, n),
+    rejected: ch.rejected.subarray(0, n),
+    channels: [{ name: ch.name, file: ch.file, kind }],
+  };
 }
 
 /** Raw TDOA and range records (those with both anchor ids and a finite time). */

@@ -94,7 +94,9 @@ export function geometryWindows(
         bits = new Uint32Array(words);
         occupied.set(bin, bits);
       }
-      for (const a of [links.a[L], links.b[L]]) if (a >= 0) bits[a >>> 5] |= 1 << (a & 31);
+      const a = links.a[L], b = links.b[L];
+      if (a >= 0) bits[a >>> 5] |= 1 << (a & 31);
+      if (b >= 0) bits[b >>> 5] |= 1 << (b & 31);
     }
   }
   const bins = [...occupied.keys()].sort((x, y) => x - y);

@@ -26,7 +26,7 @@ import type { AnalysisSettings } from '../settings';
 import { computeNis } from '../consistency/nis';
 import { chi2Quantile } from '../stats/chi2';
 import { blameAnchors, estimateOffsets, gateZ, isBiased, type LinkEvidence, type LinkMean } from './anchors';
-import { buildAnchorTable, collectRaw, collectUpdates, indicesByLink, type LinkTable } from './collect';
+import { buildAnchorTable, collectRaw, collectUpdates, indicesByLink, type LinkTable, type UpdateColumns } from './collect';
 import { fixTrack } from './fixTrack';
 import { geometryWindows } from './geometryWindows';
 import {
@@ -34,6 +34,7 @@ import {
   type Track, type ValueSummary,
 } from './residuals';
 import type { Vec3_m } from './vec3';
+import { lazySeries } from '../lazySeries';
 
 /** The channel rule and the per-anchor statistics function, re-exported for callers of the stage. */
 export { isTdoaChannel, isRangeChannel, parsePairId } from './collect';
@@ -189,13 +190,24 @@ function truthTrack(log: NavLog, settings: AnalysisSettings): Track | undefined 
   }
   const off = settings.referenceOffset_m;
   if (track && off) {
-    for (let k = 0; k < track.length; k++) {
-      track.x[k] += off[0];
-      track.y[k] += off[1];
-      track.z[k] += off[2];
+    // a new track: its columns may be views of the log's
+    const n = track.length;
+    const shifted: Track = { t_s: track.t_s, x: new Float64Array(n), y: new Float64Array(n), z: new Float64Array(n), length: n };
+    for (let k = 0; k < n; k++) {
+      shifted.x[k] = track.x[k] + off[0];
+      shifted.y[k] = track.y[k] + off[1];
+      shifted.z[k] = track.z[k] + off[2];
     }
+    track = shifted;
   }
   return track;
+}
+
+/** src[idx[0]], src[idx[1]], ... as a new column. */
+function gather(src: Float64Array, idx: readonly number[]): Float64Array {
+  const out = new Float64Array(idx.length);
+  for (let q = 0; q < idx.length; q++) out[q] = src[idx[q]];
+  return out;
 }
 
 function estimateTrack(log: NavLog): Track | undefined {
@@ -208,40 +220,29 @@ function estimateTrack(log: NavLog): Track | undefined {
   return t.length > 0 ? t : undefined;
 }
 
+/** Per-link and per-anchor tallies of the updates (step 1 of the file comment). */
+interface UpdateTallies {
+  linkOutliers: Int32Array;
+  linkRejected: Int32Array;
+  linkNisMean: Float64Array;
+  linkInnov: ValueSummary[];
+  /** Innovations per anchor, oriented as seen from that anchor, in update order. */
+  anchorNu: Float64Array[];
+  anchorNisSum: Float64Array;
+  anchorNisCount: Int32Array;
+  anchorUpdates: Int32Array;
+  anchorRejected: Int32Array;
+  anchorOutliers: Int32Array;
+  linkAnomalyTimes: number[][];
+  linkAnomalyLines: number[];
+}
+
 /**
- * Analyse the UWB measurements of a log (see the file comment). Returns no block when the log has no TDOA or
- * range updates and no raw UWB records.
- * @param log what the reader produced
- * @param settings gate (outlier probability), maxDop (high-dop threshold), timeOffset_s, referenceOffset_m, familyAlpha
- * @param nisByChannel NIS per update from the consistency stage, by channel name (computed here when absent)
- * @param options geometry window
+ * Step 1: updates per link and per anchor (counts, NIS sums, outliers beyond `gateNis`, oriented innovations).
+ * A function of its own, apart from the long stage function, so the engine optimises its loops early.
  */
-export function analyzeUwb(
-  log: NavLog,
-  settings: AnalysisSettings,
-  nisByChannel?: Map<string, Float64Array>,
-  options: UwbOptions = {},
-): StageOutput<UwbBlock> {
-  const anchors = buildAnchorTable(log);
-  const links: LinkTable = { keys: [], a: [], b: [], index: new Map() };
-  const nisOf = (ch: Channel): Float64Array => nisByChannel?.get(ch.name) ?? computeNis(ch);
-  const upd = collectUpdates(log, anchors, links, nisOf);
-  const raw = collectRaw(log, anchors, links);
-  if (upd.length === 0 && raw.length === 0) return { findings: [], series: [] };
-
-  const findings: Finding[] = [];
-  const series: Series[] = [];
-  const nA = anchors.ids.length;
+function tallyUpdates(upd: UpdateColumns, updByLink: number[][], links: LinkTable, nA: number, gateNis: number): UpdateTallies {
   const nL = links.keys.length;
-  const gateNis = chi2Quantile(settings.gate, 1);
-  const z = gateZ(settings.gate);
-  const positions = anchors.positions;
-  const hasTdoa = links.b.some((b) => b >= 0);
-  const hasRange = links.b.some((b) => b < 0);
-  const kind: UwbBlock['kind'] = hasTdoa && hasRange ? 'mixed' : hasTdoa ? 'tdoa' : 'range';
-
-  // ---- 1. Updates per link and per anchor ----
-  const updByLink = indicesByLink(upd.link, upd.t_s, upd.length, nL);
   const linkOutliers = new Int32Array(nL);
   const linkRejected = new Int32Array(nL);
   const linkNisMean = new Float64Array(nL).fill(NaN);
@@ -251,7 +252,9 @@ export function analyzeUwb(
   for (let L = 0; L < nL; L++) {
     const a = links.a[L];
     const b = links.b[L];
-    for (const k of updByLink[L]) {
+    const list = updByLink[L];
+    for (let q = 0; q < list.length; q++) {
+      const k = list[q];
       if (upd.rejected[k] || !Number.isFinite(upd.nu[k])) continue;
       anchorNuCount[a]++;
       if (b >= 0) anchorNuCount[b]++;
@@ -273,7 +276,9 @@ export function analyzeUwb(
     let nusLength = 0;
     let nisSum = 0;
     let nisCount = 0;
-    for (const k of updByLink[L]) {
+    const list = updByLink[L];
+    for (let q = 0; q < list.length; q++) {
+      const k = list[q];
       anchorUpdates[a]++;
       if (b >= 0) anchorUpdates[b]++;
       if (upd.rejected[k]) {
@@ -314,6 +319,51 @@ export function analyzeUwb(
     if (nisCount > 0) linkNisMean[L] = nisSum / nisCount;
     linkInnov.push(summarizeValues(nus.subarray(0, nusLength)));
   }
+
+  return {
+    linkOutliers, linkRejected, linkNisMean, linkInnov, anchorNu, anchorNisSum, anchorNisCount, anchorUpdates,
+    anchorRejected, anchorOutliers, linkAnomalyTimes, linkAnomalyLines,
+  };
+}
+
+/**
+ * Analyse the UWB measurements of a log (see the file comment). Returns no block when the log has no TDOA or
+ * range updates and no raw UWB records.
+ * @param log what the reader produced
+ * @param settings gate (outlier probability), maxDop (high-dop threshold), timeOffset_s, referenceOffset_m, familyAlpha
+ * @param nisByChannel NIS per update from the consistency stage, by channel name (computed here when absent)
+ * @param options geometry window
+ */
+export function analyzeUwb(
+  log: NavLog,
+  settings: AnalysisSettings,
+  nisByChannel?: Map<string, Float64Array>,
+  options: UwbOptions = {},
+): StageOutput<UwbBlock> {
+  const anchors = buildAnchorTable(log);
+  const links: LinkTable = { keys: [], a: [], b: [], index: new Map() };
+  const nisOf = (ch: Channel): Float64Array => nisByChannel?.get(ch.name) ?? computeNis(ch);
+  const upd = collectUpdates(log, anchors, links, nisOf);
+  const raw = collectRaw(log, anchors, links);
+  if (upd.length === 0 && raw.length === 0) return { findings: [], series: [] };
+
+  const findings: Finding[] = [];
+  const series: Series[] = [];
+  const nA = anchors.ids.length;
+  const nL = links.keys.length;
+  const gateNis = chi2Quantile(settings.gate, 1);
+  const z = gateZ(settings.gate);
+  const positions = anchors.positions;
+  const hasTdoa = links.b.some((b) => b >= 0);
+  const hasRange = links.b.some((b) => b < 0);
+  const kind: UwbBlock['kind'] = hasTdoa && hasRange ? 'mixed' : hasTdoa ? 'tdoa' : 'range';
+
+  // ---- 1. Updates per link and per anchor ----
+  const updByLink = indicesByLink(upd.link, upd.t_s, upd.length, nL);
+  const {
+    linkOutliers, linkRejected, linkNisMean, linkInnov, anchorNu, anchorNisSum, anchorNisCount, anchorUpdates,
+    anchorRejected, anchorOutliers, linkAnomalyTimes, linkAnomalyLines,
+  } = tallyUpdates(upd, updByLink, links, nA, gateNis);
 
   // ---- 2. Residuals of raw records against truth and estimate ----
   const truth = truthTrack(log, settings);
@@ -675,31 +725,26 @@ export function analyzeUwb(
   }
 
   // ---- Series: residuals per link, innovations per link, anchors ----
+  // Columns made when first read (lazySeries.ts): a caller that wants only the report never pays for them.
   for (let L = 0; L < nL; L++) {
     const res = resTruth && linkResTruth[L].count > 0 ? resTruth : resEst && linkResEst[L].count > 0 ? resEst : undefined;
     if (res) {
       const idx = rawByLink[L];
-      series.push({
+      series.push(lazySeries({
         key: `uwb/residual/${links.keys[L]}`,
         group: 'uwb',
         label: `${links.b[L] >= 0 ? 'Pair' : 'Anchor'} ${links.keys[L]} residual against ${res === resTruth ? 'ground truth' : 'the estimate'}`,
         unit: 'm',
-        x: Float64Array.from(idx, (k) => raw.t_s[k]),
-        y: Float64Array.from(idx, (k) => res[k]),
-        line: Float64Array.from(idx, (k) => raw.line[k]),
-      });
+      }, { x: () => gather(raw.t_s, idx), y: () => gather(res, idx), line: () => gather(raw.line, idx) }));
     }
     const idx = updByLink[L];
     if (idx.length > 0) {
-      series.push({
+      series.push(lazySeries({
         key: `uwb/innovation/${links.keys[L]}`,
         group: 'uwb',
         label: `${links.b[L] >= 0 ? 'Pair' : 'Anchor'} ${links.keys[L]} innovation`,
         unit: 'm',
-        x: Float64Array.from(idx, (k) => upd.t_s[k]),
-        y: Float64Array.from(idx, (k) => upd.nu[k]),
-        line: Float64Array.from(idx, (k) => upd.line[k]),
-      });
+      }, { x: () => gather(upd.t_s, idx), y: () => gather(upd.nu, idx), line: () => gather(upd.line, idx) }));
     }
   }
   const placed = anchors.ids.map((id, a) => ({ id, p: positions[a] })).filter((x): x is { id: string; p: Vec3_m } => x.p !== undefined);

@@ -159,21 +159,36 @@ export interface Track {
  * ordered by time (stable). `offset_s` is added to the times.
  */
 export function makeTrack(t_s: Float64Array, x: Float64Array, y: Float64Array, z: Float64Array, length: number, offset_s = 0): Track {
-  const keep: number[] = [];
-  for (let k = 0; k < length; k++) {
-    if (Number.isFinite(t_s[k]) && Number.isFinite(x[k]) && Number.isFinite(y[k]) && Number.isFinite(z[k])) keep.push(k);
-  }
+  let n = 0;
   let sorted = true;
-  for (let k = 1; k < keep.length; k++) if (t_s[keep[k]] < t_s[keep[k - 1]]) sorted = false;
-  if (!sorted) keep.sort((a, b) => t_s[a] - t_s[b] || a - b);
-  const n = keep.length;
+  let lastT = -Infinity;
+  for (let k = 0; k < length; k++) {
+    const t = t_s[k];
+    if (Number.isFinite(t) && Number.isFinite(x[k]) && Number.isFinite(y[k]) && Number.isFinite(z[k])) {
+      n++;
+      if (t < lastT) sorted = false;
+      lastT = t;
+    }
+  }
+  // Every sample usable, in time order, no shift: the track is a view of the columns (a long log's copies cost
+  // more than everything the track is used for). Callers never write to a track's columns.
+  if (n === length && sorted && offset_s === 0) {
+    return { t_s: t_s.subarray(0, n), x: x.subarray(0, n), y: y.subarray(0, n), z: z.subarray(0, n), length: n };
+  }
+  const keep = new Int32Array(n);
+  let o = 0;
+  for (let k = 0; k < length; k++) {
+    if (Number.isFinite(t_s[k]) && Number.isFinite(x[k]) && Number.isFinite(y[k]) && Number.isFinite(z[k])) keep[o++] = k;
+  }
+  const order = sorted ? keep : Int32Array.from(Array.from(keep).sort((a, b) => t_s[a] - t_s[b] || a - b));
   const track: Track = { t_s: new Float64Array(n), x: new Float64Array(n), y: new Float64Array(n), z: new Float64Array(n), length: n };
-  keep.forEach((k, o) => {
-    track.t_s[o] = t_s[k] + offset_s;
-    track.x[o] = x[k];
-    track.y[o] = y[k];
-    track.z[o] = z[k];
-  });
+  for (let q = 0; q < n; q++) {
+    const k = order[q];
+    track.t_s[q] = t_s[k] + offset_s;
+    track.x[q] = x[k];
+    track.y[q] = y[k];
+    track.z[q] = z[k];
+  }
   return track;
 }
 

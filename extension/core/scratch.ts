@@ -1,0 +1,48 @@
+/**
+ * Work columns shared by the analysis stages of one run. Fresh memory is the largest cost of the stages on a long
+ * log (the first write to every new page is far slower than the arithmetic done on it), and the stages run one
+ * after another, so the work columns one stage has finished with serve the next one instead of new ones.
+ *
+ * Rules: a column taken is the caller's until it gives it back; its length is AT LEAST the one asked for and its
+ * contents are arbitrary (write before reading). Never give back a column that something still reads (a series,
+ * a report, a closure). The pipeline (analyze.ts) empties the pool when a run is done, so nothing is kept between
+ * runs.
+ */
+
+const float64: Float64Array[] = [];
+const int32: Int32Array[] = [];
+
+/** A Float64Array work column of at least `n` values (reused when one is free), contents arbitrary. */
+export function takeFloat64(n: number): Float64Array {
+  return take(float64, n) ?? new Float64Array(n);
+}
+
+/** An Int32Array work column of at least `n` values (reused when one is free), contents arbitrary. */
+export function takeInt32(n: number): Int32Array {
+  return take(int32, n) ?? new Int32Array(n);
+}
+
+/** Give work columns back for the next stage (they must not be read or written by the caller afterwards). */
+export function giveBack(...columns: (Float64Array | Int32Array | undefined)[]): void {
+  for (const c of columns) {
+    if (c instanceof Float64Array) float64.push(c);
+    else if (c instanceof Int32Array) int32.push(c);
+  }
+}
+
+/** Drop every pooled column (the end of a run). */
+export function emptyScratch(): void {
+  float64.length = 0;
+  int32.length = 0;
+}
+
+/** The smallest free column of at least n values, removed from the pool; undefined when none fits. */
+function take<T extends Float64Array | Int32Array>(pool: T[], n: number): T | undefined {
+  let best = -1;
+  for (let i = 0; i < pool.length; i++) {
+    if (pool[i].length >= n && (best < 0 || pool[i].length < pool[best].length)) best = i;
+  }
+  if (best < 0) return undefined;
+  const [c] = pool.splice(best, 1);
+  return c;
+}

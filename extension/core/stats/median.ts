@@ -1,0 +1,39 @@
+/**
+ * Medians by selection (Hoare's quickselect, expected O(n)) instead of a full sort: the same value a sort would
+ * give (the middle element, or the mean of the two middle ones), without the O(n log n) sort of long columns.
+ * Hand-written: the typed-array sort of the platform is the only alternative, and it sorts everything.
+ */
+
+/**
+ * The k-th smallest of a[0..n) (0-based), partially reordering `a` in place: afterwards a[0..k) <= a[k] <= a[k+1..n).
+ * Values must not be NaN.
+ */
+export function selectInPlace(a: Float64Array, k: number, n = a.length): number {
+  let lo = 0;
+  let hi = n - 1;
+  while (hi > lo) {
+    const pivot = a[(lo + hi) >> 1];
+    let i = lo;
+    let j = hi;
+    while (i <= j) {
+      while (a[i] < pivot) i++;
+      while (a[j] > pivot) j--;
+      if (i <= j) { const tmp = a[i]; a[i] = a[j]; a[j] = tmp; i++; j--; }
+    }
+    if (k <= j) hi = j;
+    else if (k >= i) lo = i;
+    else return a[k];
+  }
+  return a[k];
+}
+
+/** Median of a[0..n) (no NaN), reordering `a` in place; NaN when n = 0. */
+export function medianInPlace(a: Float64Array, n = a.length): number {
+  if (n === 0) return NaN;
+  const h = n >> 1;
+  const upper = selectInPlace(a, h, n);
+  if (n % 2) return upper;
+  let lower = -Infinity; // the largest value below position h, after the partition
+  for (let i = 0; i < h; i++) if (a[i] > lower) lower = a[i];
+  return (lower + upper) / 2;
+}
