@@ -83,8 +83,8 @@ export class FileChangedError extends Error {
 /**
  * A ByteSource over a file, read from byte `start` (default 0; used to resume a growing file from
  * `LogReader.bytesRead`) in chunks of `highWaterMark` bytes (default 1 MiB), through `files`
- * (default node:fs). With `reuse`, one buffer is read into again and again: a chunk is valid only until the next one
- * is asked for. That is what the reader (readRun, LogReader.push) needs, since it copies whatever it keeps of a chunk,
+ * (default node:fs). With `reuse`, two buffers are read into in turn (the next chunk is read while this one is
+ * parsed): a chunk is valid only until the next one is asked for. That is what the reader (readRun, LogReader.push) needs, since it copies whatever it keeps of a chunk,
  * and it saves faulting in a fresh megabyte per chunk: on the 92 MB benchmark log fresh buffers cost about 0.4 s of CPU,
  * more than the newline count itself (measured on this machine, see issue 10). Without `reuse` every chunk is its own
  * buffer (for callers that keep chunks).
@@ -120,6 +120,7 @@ export function fileByteSource(filePath: string,
       } catch (e) {
         throw describeError(filePath, e);
       }
+      let pending: Promise<number> | undefined;
       try {
         let opened: FileStatLike;
         try {
@@ -145,25 +146,40 @@ export function fileByteSource(filePath: string,
           }
           return undefined;
         };
-        let shared: Uint8Array | undefined;
+        // Double buffering: the next chunk is read (on libuv's thread pool) while the consumer parses this one, and
+        // the check for a changed file runs beside it, so the parsing thread does not wait for the disk between
+        // chunks. With `reuse` the two buffers alternate: a chunk stays valid until the next one is asked for.
+        const pair = opts.reuse ? [new Uint8Array(hwm), new Uint8Array(hwm)] : undefined;
+        let which = 0;
+        const nextBuffer = (): Uint8Array => (pair ? pair[(which ^= 1)] : new Uint8Array(hwm));
+        // A prefetched read or check may fail while the consumer still parses: it is marked handled at once (its
+        // error is thrown where it is awaited), so it is never an unhandled rejection.
+        const handled = <T>(p: Promise<T>): Promise<T> => {
+          p.catch(() => undefined);
+          return p;
+        };
+        const readAt = (buf: Uint8Array, at: number): Promise<number> =>
+          handled(handle.read(buf, 0, hwm, at).then((r) => r.bytesRead, (e: unknown) => { throw describeError(filePath, e); }));
+        let buf = nextBuffer();
+        pending = readAt(buf, pos);
         for (;;) {
           if (signal?.aborted) return;
-          const buf = opts.reuse ? (shared ??= new Uint8Array(hwm)) : new Uint8Array(hwm);
-          let n: number;
-          try {
-            n = (await handle.read(buf, 0, hwm, pos)).bytesRead;
-          } catch (e) {
-            throw describeError(filePath, e);
-          }
+          const n = await pending;
           if (n === 0) break;
           pos += n;
+          const following = nextBuffer();
+          pending = readAt(following, pos);
+          const check = handled(changed());
           yield n === hwm ? buf : buf.subarray(0, n);
-          const c = await changed();
+          buf = following;
+          const c = await check;
           if (c) throw c;
         }
         const c = await changed();
         if (c) throw c;
       } finally {
+        // A read still in flight (the consumer stopped early, or a change was found) settles before the close.
+        await pending?.catch(() => undefined);
         await handle.close().catch(() => undefined);
       }
     },
