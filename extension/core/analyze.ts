@@ -14,7 +14,7 @@ import { analyzeUwb } from './uwb/index';
 import { analyzeResets, withConfirmedResets } from './resets/index';
 import { finiteJson } from './finite';
 import { emptyScratch } from './scratch';
-import { selectInPlace } from './stats/median';
+import { sampledMedianStep } from './stats/median';
 
 /** Version of the tool written into every report (kept in step with package.json by a test). */
 export const TOOL_VERSION = '0.1.0';
@@ -130,21 +130,9 @@ export function timeSummary(log: NavLog): Report['time'] {
     if (v < start) start = v;
     if (v > end) end = v;
   }
-  return { start, end, epochs: n, ...(n > 1 ? { medianDt: medianStep(t, n) } : {}) };
+  return { start, end, epochs: n, ...(n > 1 ? { medianDt: sampledMedianStep(t, n) } : {}) };
 }
 
-/** Median of the positive steps of a time column (sampled for long columns: exact enough for a summary). */
-export function medianStep(t: Float64Array, n: number): number {
-  const stride = Math.max(1, Math.floor(n / 100_000));
-  const steps = new Float64Array(Math.ceil(n / stride));
-  let m = 0;
-  for (let i = stride; i < n; i += stride) {
-    const d = t[i] - t[i - 1];
-    if (d > 0 && Number.isFinite(d)) steps[m++] = d;
-  }
-  if (m === 0) return 0;
-  return selectInPlace(steps, m >> 1, m); // the upper middle value, as after a sort
-}
 
 /** Reader diagnostics (warnings and errors) as findings; info-level ones stay in the reader's list. */
 function diagnosticFindings(diagnostics: Diagnostic[]): Finding[] {

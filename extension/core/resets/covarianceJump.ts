@@ -27,6 +27,7 @@
  *   kept (the segment starts there) with the largest factor.
  */
 import type { StateStream } from '../model';
+import { sampledMedianStep } from '../stats/median';
 
 /** Default threshold on the one-epoch variance ratio of a block. */
 export const DEFAULT_JUMP_FACTOR = 10;
@@ -101,18 +102,6 @@ function blockTrace(b: BlockSource, i: number, matrix: Float64Array | undefined,
   return tr;
 }
 
-/** Median positive step of a time column, 0 when there is none (sampled for long columns). */
-function medianStep(t: Float64Array, n: number): number {
-  const stride = Math.max(1, Math.floor(n / 20000));
-  const steps: number[] = [];
-  for (let i = stride; i < n; i += stride) {
-    const d = t[i] - t[i - 1];
-    if (d > 0 && Number.isFinite(d)) steps.push(d);
-  }
-  if (steps.length === 0) return 0;
-  steps.sort((a, b) => a - b);
-  return steps[steps.length >> 1];
-}
 
 /** Median of a block's finite positive traces (sampled: a floor needs no exact median). */
 function positiveMedianTrace(b: BlockSource, n: number, matrix: Float64Array | undefined, stride: number): number {
@@ -142,7 +131,7 @@ export function detectCovarianceJumps(state: StateStream, factor = DEFAULT_JUMP_
   const { blocks, stride } = blockSources(state);
   const matrix = stride > 0 ? state.P?.matrix : undefined;
   const t = state.t_s;
-  const step = medianStep(t, n);
+  const step = sampledMedianStep(t, n);
   const floors = blocks.map((b) => FLOOR_RELATIVE * positiveMedianTrace(b, n, matrix, stride));
   const prevTrace = new Float64Array(blocks.length);
   const prevIndex = new Int32Array(blocks.length).fill(-1);

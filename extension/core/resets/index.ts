@@ -17,6 +17,7 @@ import type { StageOutput } from '../series';
 import { formatNumber } from '../consistency/format';
 import { DEFAULT_JUMP_FACTOR, detectCovarianceJumps } from './covarianceJump';
 import { mergeResetTimes } from './segments';
+import { sampledMedianStep } from '../stats/median';
 
 export { detectCovarianceJumps, stateBlock, DEFAULT_JUMP_FACTOR, type CovarianceJump } from './covarianceJump';
 export { mergeResetTimes, segmentBreaks } from './segments';
@@ -74,18 +75,6 @@ export function withConfirmedResets(log: NavLog, settings: AnalysisSettings): Na
   return { ...log, resets: effectiveResets(log, settings) };
 }
 
-/** Half the median positive step of the state times (how close a reset time must be to "be at" an epoch). */
-function halfStep(t: Float64Array, n: number): number {
-  const steps: number[] = [];
-  const stride = Math.max(1, Math.floor(n / 20000));
-  for (let i = stride; i < n; i += stride) {
-    const d = t[i] - t[i - 1];
-    if (d > 0 && Number.isFinite(d)) steps.push(d);
-  }
-  if (steps.length === 0) return 0;
-  steps.sort((a, b) => a - b);
-  return steps[steps.length >> 1] / 2;
-}
 
 /** Whether some time of the sorted list lies within `tol` of t. */
 function near(sorted: readonly number[], t: number, tol: number): boolean {
@@ -113,7 +102,8 @@ function analyzeResetsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
   const factor = settings.covarianceJumpFactor ?? DEFAULT_JUMP_FACTOR;
   const logged = mergeResetTimes(log.resets);
   const confirmed = mergeResetTimes(settings.confirmedResets_s);
-  const tol = Math.max(halfStep(state.t_s, n), 1e-9);
+  // Half the median step: how close a reset time must be to "be at" an epoch.
+  const tol = Math.max(sampledMedianStep(state.t_s, n) / 2, 1e-9);
   const findings: Finding[] = [];
   const candidates: ResetCandidate[] = [];
   for (const j of detectCovarianceJumps(state, factor, Math.max(settings.window_s / 5, 4 * tol))) {

@@ -37,3 +37,20 @@ export function medianInPlace(a: Float64Array, n = a.length): number {
   for (let i = 0; i < h; i++) if (a[i] > lower) lower = a[i];
   return (lower + upper) / 2;
 }
+
+/**
+ * Median of the positive finite steps of a time column (the upper middle value, as after a sort), from at most about
+ * `maxSamples` steps taken at an even stride: exact enough for a summary or a tolerance, and cheap on a long log.
+ * 0 when there is no positive step.
+ */
+export function sampledMedianStep(t: Float64Array, n: number, maxSamples = 100_000): number {
+  const stride = Math.max(1, Math.floor(n / maxSamples));
+  const steps = new Float64Array(Math.ceil(n / stride));
+  let m = 0;
+  for (let i = stride; i < n; i += stride) {
+    const d = t[i] - t[i - 1];
+    if (d > 0 && Number.isFinite(d)) steps[m++] = d;
+  }
+  if (m === 0) return 0;
+  return selectInPlace(steps, m >> 1, m);
+}
