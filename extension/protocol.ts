@@ -15,6 +15,7 @@
  * except for the small guard functions at the bottom, which are pure.
  */
 import type { Report } from './core/report';
+import type { Note } from './core/notes/sidecar';
 import type { ComparedFigure, Overlay } from './core/compare';
 
 /** One series the host holds, described without its data. */
@@ -125,17 +126,12 @@ export interface NotesRequestMessage {
   type: 'notes/request';
 }
 
-/** Add a note on an epoch (`t`), a time range (`t`..`tEnd`), a channel update or a finding. */
-export interface NotesAddMessage {
+/** The fields of a note (core/notes/sidecar.ts) that the panel sets or shows. */
+type NoteFields = 't' | 'tEnd' | 'channel' | 'updateId' | 'finding' | 'text' | 'tags';
+
+/** Add a note on an epoch (`t`), a time range (`t`..`tEnd`), a channel update or a finding (`finding`: its kind). */
+export interface NotesAddMessage extends Pick<Note, NoteFields> {
   type: 'notes/add';
-  t: number;
-  tEnd?: number;
-  channel?: string;
-  updateId?: string;
-  /** Finding kind the note is about. */
-  finding?: string;
-  text: string;
-  tags: string[];
 }
 
 /** Change a note's text, tags or status (applied to the note as it is on disk when saved). */
@@ -321,16 +317,7 @@ export interface StatusMessage {
 }
 
 /** A note as the panel shows it: anchored to a log line, or detached (kept, with the reason). Text is plain text. */
-export interface NoteInfo {
-  id: string;
-  t: number;
-  tEnd?: number;
-  channel?: string;
-  updateId?: string;
-  finding?: string;
-  text: string;
-  tags: string[];
-  status: 'open' | 'resolved';
+export interface NoteInfo extends Pick<Note, 'id' | 'status' | NoteFields> {
   /** 1-based line in the main log, when attached and known. */
   line?: number;
   detached: boolean;
