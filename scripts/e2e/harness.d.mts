@@ -65,7 +65,7 @@ export declare function openLogViaDialog(page: Page, file: string): Promise<void
 export declare function answerFileDialog(page: Page, file: string): Promise<void>;
 /** Switches the colour theme through the palette. */
 export declare function pickColorTheme(page: Page, themeLabel: string): Promise<void>;
-/** The panel's inner document. */
+/** The visible Residuum panel's inner document (the last visible iframe.webview.ready > #active-frame). */
 export declare function webviewFrame(page: Page): FrameLocator;
 /** Waits for and parses the in-host self test result. */
 export declare function waitForSelfTest(

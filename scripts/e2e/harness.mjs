@@ -302,20 +302,7 @@ export async function openLogViaDialog(page, file) {
   for (let i = 0; i < 3; i++) {
     try {
       await runCommand(page, 'Residuum: Open Log Analysis', { opensQuickInput: true });
-      const widget = page.locator('.quick-input-widget');
-      const input = widget.locator('input.input');
-      await input.waitFor({ state: 'visible', timeout: 10_000 });
-      // Wait until the dialog has filled in its starting folder, or it would overwrite the path typed below.
-      await page.waitForFunction((sel) => document.querySelector(sel)?.value?.startsWith('/'), '.quick-input-widget input.input', { timeout: 10_000 });
-      await input.fill(file);
-      // The dialog completes the path as it is typed; wait for it to settle on the file, then accept.
-      await page.waitForFunction(
-        ([sel, want]) => document.querySelector(sel)?.value === want,
-        ['.quick-input-widget input.input', file],
-        { timeout: 10_000 },
-      );
-      await input.press('Enter');
-      await widget.waitFor({ state: 'hidden', timeout: 10_000 });
+      await answerFileDialog(page, file);
       return;
     } catch (e) {
       lastError = e;
@@ -374,11 +361,12 @@ export async function pickColorTheme(page, themeLabel) {
 }
 
 /**
- * The Residuum panel's document: the webview is an iframe inside an iframe.
+ * The visible Residuum panel's document: the webview is an iframe inside an iframe; of the ready webviews, the last
+ * visible one (a hidden editor group keeps its webview's iframe in the page).
  * @param {import('playwright-core').Page} page
  */
 export function webviewFrame(page) {
-  return page.frameLocator('iframe.webview.ready').frameLocator('#active-frame');
+  return page.locator('iframe.webview.ready').filter({ visible: true }).last().contentFrame().locator('#active-frame').contentFrame();
 }
 
 /**
