@@ -30,7 +30,7 @@ import * as h from '../../scripts/e2e/harness.mjs';
 import * as probes from '../../scripts/e2e/probes.mjs';
 import { generateWarehouseLog, type WarehouseOptions } from '../../extension/core/demo/warehouse';
 import { analyzeFile } from '../../extension/node/analyzeFile';
-import { SCREENSHOT_DIR, panel, showTab, useWorkbench, waitForFile, webviewCspViolations } from './workbench';
+import { SCREENSHOT_DIR, openLogInPanel, panel, showTab, useWorkbench, waitForFile, webviewCspViolations } from './workbench';
 
 let degraded = '';
 let clean = '';
@@ -43,19 +43,15 @@ function writeRun(file: string, options: WarehouseOptions): void {
 
 /** Clicks a toolkit button of the panel by its text and answers the file dialog it opens with `file`. */
 async function clickAndAnswer(page: Page, f: FrameLocator, text: string, file: string): Promise<void> {
-  let lastError: unknown;
-  for (let i = 0; i < 3; i++) {
-    try {
+  await h.retryOnPage(
+    page,
+    3,
+    async () => {
       await f.locator('vscode-button').filter({ hasText: text }).first().click();
       await h.answerFileDialog(page, file);
-      return;
-    } catch (e) {
-      lastError = e;
-      await page.keyboard.press('Escape').catch(() => undefined);
-      await page.waitForTimeout(1000);
-    }
-  }
-  throw new Error(`"${text}" then the dialog with ${file}: ${lastError instanceof Error ? lastError.message : String(lastError)}`);
+    },
+    (last) => `"${text}" then the dialog with ${file}: ${last}`,
+  );
 }
 
 /**
@@ -98,9 +94,7 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
   );
 
   it('exports the HTML report and the Markdown summary from the panel, with the log hash and findings', async () => {
-    await h.openLogViaDialog(wb.page, degraded);
-    const f = panel(wb.page);
-    await f.locator('main#app[data-state="ready"]').waitFor({ state: 'attached', timeout: 90_000 });
+    const f = await openLogInPanel(wb.page, degraded, 90_000);
     const htmlFile = path.join(wb.workspace, 'exported-report.html');
     const mdFile = path.join(wb.workspace, 'exported-summary.md');
     await clickAndAnswer(wb.page, f, 'Export report...', htmlFile);

@@ -16,7 +16,7 @@ import { describe, expect, it } from 'vitest';
 import { copyFileSync, existsSync, readFileSync, rmSync } from 'node:fs';
 import path from 'node:path';
 import * as h from '../../scripts/e2e/harness.mjs';
-import { SCREENSHOT_DIR, panel, statusBarLine, useWorkbench } from './workbench';
+import { SCREENSHOT_DIR, openLogInPanel, panel, readNotesSidecar, statusBarLine, useWorkbench, type SidecarNote } from './workbench';
 
 const ROOT = h.ROOT;
 const DEMO_LOG = path.join(ROOT, 'demo', 'warehouse-flight.csv');
@@ -30,12 +30,9 @@ interface DomLike {
   querySelectorAll(selector: string): ArrayLike<{ textContent: string | null; getBoundingClientRect(): { top: number } }>;
 }
 
-function readSidecar(): { notes: { id: string; t: number; text: string; tags?: string[] }[] } | undefined {
-  try {
-    return JSON.parse(readFileSync(`${logPath}.notes.json`, 'utf8')) as { notes: { id: string; t: number; text: string; tags?: string[] }[] };
-  } catch {
-    return undefined;
-  }
+/** The demo log's notes sidecar, or undefined while there is none. */
+function readSidecar(): { notes: SidecarNote[] } | undefined {
+  return readNotesSidecar(logPath);
 }
 
 describe('notes and code links in a real VS Code', () => {
@@ -49,9 +46,7 @@ describe('notes and code links in a real VS Code', () => {
   });
 
   it('adds a note from the panel: on disk at the epoch, in the list on its line, as a comment thread on that line', async () => {
-    await h.openLogViaDialog(wb.page, logPath);
-    const f = panel(wb.page);
-    await f.locator('main#app[data-state="ready"]').waitFor({ state: 'attached', timeout: 120_000 });
+    const f = await openLogInPanel(wb.page, logPath, 120_000);
     await f.locator('[data-testid="notes"]').waitFor({ state: 'attached', timeout: 30_000 });
     // Choose the first worst epoch: the cursor goes there and the log opens on its line.
     const worst = f.locator('[data-testid="worst-list"] button[data-line]').first();

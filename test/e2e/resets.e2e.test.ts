@@ -12,24 +12,20 @@
  * RESIDUUM_E2E_VSIX reuses a prebuilt .vsix (dev only).
  */
 import { describe, expect, it } from 'vitest';
-import { readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { rmSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import * as h from '../../scripts/e2e/harness.mjs';
 import { kfCsv, simulateKf } from '../core/resets/simKf';
-import { SCREENSHOT_DIR, panel, useWorkbench } from './workbench';
+import { SCREENSHOT_DIR, openLogInPanel, panel, readNotesSidecar, useWorkbench, type SidecarNote } from './workbench';
 
 const ROOT = h.ROOT;
 const DEMO_WORKSPACE = path.join(ROOT, 'demo', 'workspace');
 
 let logPath = '';
 
-function resetNotes(): { t: number; reset?: boolean }[] {
-  try {
-    const file = JSON.parse(readFileSync(`${logPath}.notes.json`, 'utf8')) as { notes: { t: number; reset?: boolean }[] };
-    return file.notes.filter((n) => n.reset === true);
-  } catch {
-    return [];
-  }
+/** The reset notes of the log's sidecar (none while there is no sidecar). */
+function resetNotes(): SidecarNote[] {
+  return (readNotesSidecar(logPath)?.notes ?? []).filter((n) => n.reset === true);
 }
 
 describe('filter resets in a real VS Code', () => {
@@ -42,9 +38,7 @@ describe('filter resets in a real VS Code', () => {
   });
 
   it('Treat as reset: the sidecar holds the reset and the panel shows two segments; Undo reset joins them again', async () => {
-    await h.openLogViaDialog(wb.page, logPath);
-    const f = panel(wb.page);
-    await f.locator('main#app[data-state="ready"]').waitFor({ state: 'attached', timeout: 120_000 });
+    const f = await openLogInPanel(wb.page, logPath, 120_000);
     const section = f.locator('[data-testid="resets"]');
     await section.waitFor({ state: 'attached', timeout: 30_000 });
     expect(await section.getAttribute('data-segments')).toBe('1');

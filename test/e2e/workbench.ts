@@ -10,11 +10,11 @@
  *   chromium, collects the page's console messages and page errors, opens the workbench and closes the side bar;
  * - afterEach: a screenshot of a failed test, `test-output/screenshots/failure-<name>-<test>.png`;
  * - afterAll: closes the browser and stops code-server.
- * The helpers below read the page of that workbench: the visible panel, the status bar line, the webview's CSP
- * violations, a file that appears.
+ * The helpers below read the page of that workbench (the visible panel, the status bar line, the webview's CSP
+ * violations) and the disk (a file that appears, a log's notes sidecar).
  */
 import { afterAll, afterEach, beforeAll, expect } from 'vitest';
-import { existsSync, mkdirSync } from 'node:fs';
+import { existsSync, mkdirSync, readFileSync } from 'node:fs';
 import path from 'node:path';
 import type { ConsoleMessage, FrameLocator, Page } from 'playwright-core';
 import * as h from '../../scripts/e2e/harness.mjs';
@@ -127,6 +127,17 @@ export function panel(page: Page): FrameLocator {
   return h.webviewFrame(page);
 }
 
+/**
+ * Opens `file` through "Residuum: Open Log Analysis" and its file dialog and waits up to `timeout_ms` for the visible
+ * panel to show the analysis (`main#app[data-state="ready"]`); returns the panel.
+ */
+export async function openLogInPanel(page: Page, file: string, timeout_ms: number): Promise<FrameLocator> {
+  await h.openLogViaDialog(page, file);
+  const f = panel(page);
+  await f.locator('main#app[data-state="ready"]').waitFor({ state: 'attached', timeout: timeout_ms });
+  return f;
+}
+
 /** The editor's cursor line from the status bar ("Ln L, Col C"), or undefined when the status bar shows none. */
 export async function statusBarLine(page: Page): Promise<number | undefined> {
   const text = (await page.locator('[id="status.editor.selection"]').textContent({ timeout: 5000 }).catch(() => null)) ?? '';
@@ -159,4 +170,22 @@ export async function showTab(f: FrameLocator, label: RegExp): Promise<void> {
   const tab = f.locator('vscode-panel-tab, [role="tab"]').filter({ hasText: label }).first();
   await tab.click();
   await expect.poll(() => tab.getAttribute('aria-selected'), { timeout: 10_000 }).toBe('true');
+}
+
+/** One note of a `<log>.notes.json` sidecar, the fields the tests read. */
+export interface SidecarNote {
+  id: string;
+  t: number;
+  text: string;
+  tags?: string[];
+  reset?: boolean;
+}
+
+/** The notes sidecar `<logPath>.notes.json` parsed, or undefined while it is absent or not whole JSON. */
+export function readNotesSidecar(logPath: string): { notes: SidecarNote[] } | undefined {
+  try {
+    return JSON.parse(readFileSync(`${logPath}.notes.json`, 'utf8')) as { notes: SidecarNote[] };
+  } catch {
+    return undefined;
+  }
 }
