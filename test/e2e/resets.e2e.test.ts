@@ -16,7 +16,7 @@ import { rmSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import * as h from '../../scripts/e2e/harness.mjs';
 import { kfCsv, simulateKf } from '../core/resets/simKf';
-import { SCREENSHOT_DIR, openLogInPanel, panel, readNotesSidecar, useWorkbench, type SidecarNote } from './workbench';
+import { SCREENSHOT_DIR, openLogInPanel, readNotesSidecar, useWorkbench, type SidecarNote } from './workbench';
 
 const ROOT = h.ROOT;
 const DEMO_WORKSPACE = path.join(ROOT, 'demo', 'workspace');
