@@ -59,13 +59,24 @@ export declare function launchBrowser(chromium: string): Promise<{ context: Brow
 export declare function openWorkbench(page: Page, workbenchUrl: string): Promise<void>;
 /** Runs a command from the palette by its title, with retries. */
 export declare function runCommand(page: Page, title: string, opts?: { attempts?: number; opensQuickInput?: boolean }): Promise<void>;
+/**
+ * Runs `attempt(i)` up to `attempts` times until it resolves; after a failure presses Escape and waits `pause_ms(i)`
+ * (default 1000 ms); when all fail, throws an Error with the message `failure(last error's message)`.
+ */
+export declare function retryOnPage<T>(
+  page: Page,
+  attempts: number,
+  attempt: (i: number) => Promise<T>,
+  failure: (lastMessage: string) => string,
+  pause_ms?: (i: number) => number,
+): Promise<T>;
 /** Runs "Residuum: Open Log Analysis" and answers its file dialog with an absolute path. */
 export declare function openLogViaDialog(page: Page, file: string): Promise<void>;
 /** Answers VS Code's simple file dialog (open or save) with an absolute path. */
 export declare function answerFileDialog(page: Page, file: string): Promise<void>;
 /** Switches the colour theme through the palette. */
 export declare function pickColorTheme(page: Page, themeLabel: string): Promise<void>;
-/** The panel's inner document. */
+/** The visible Residuum panel's inner document (the last visible iframe.webview.ready > #active-frame). */
 export declare function webviewFrame(page: Page): FrameLocator;
 /** Waits for and parses the in-host self test result. */
 export declare function waitForSelfTest(

@@ -257,9 +257,10 @@ export async function openWorkbench(page, workbenchUrl) {
  */
 export async function runCommand(page, title, { attempts = 6, opensQuickInput = false } = {}) {
   const widget = page.locator('.quick-input-widget');
-  let lastError;
-  for (let i = 0; i < attempts; i++) {
-    try {
+  await retryOnPage(
+    page,
+    attempts,
+    async () => {
       if (!(await widget.isVisible())) {
         await page.locator('div.monaco-workbench').click({ position: { x: 5, y: 300 }, force: true, trial: true }).catch(() => undefined);
         await page.keyboard.press('F1');
@@ -281,14 +282,36 @@ export async function runCommand(page, title, { attempts = 6, opensQuickInput = 
       } else {
         await widget.waitFor({ state: 'hidden', timeout: 5000 });
       }
-      return;
+    },
+    (last) => `could not run "${title}" from the command palette after ${attempts} attempts: ${last}`,
+    (i) => 1000 + 500 * i,
+  );
+}
+
+/**
+ * Runs `attempt(i)` up to `attempts` times until it resolves and returns its value. After a failed attempt it
+ * presses Escape (closing the quick input or menu the attempt may have left open) and waits `pause_ms(i)`; when
+ * every attempt failed it throws an Error whose message is `failure(the last error's message)`.
+ * @template T
+ * @param {import('playwright-core').Page} page
+ * @param {number} attempts
+ * @param {(i: number) => Promise<T>} attempt
+ * @param {(lastMessage: string) => string} failure
+ * @param {(i: number) => number} [pause_ms]
+ * @returns {Promise<T>}
+ */
+export async function retryOnPage(page, attempts, attempt, failure, pause_ms = () => 1000) {
+  let lastError;
+  for (let i = 0; i < attempts; i++) {
+    try {
+      return await attempt(i);
     } catch (e) {
       lastError = e;
       await page.keyboard.press('Escape').catch(() => undefined);
-      await page.waitForTimeout(1000 + 500 * i);
+      await page.waitForTimeout(pause_ms(i));
     }
   }
-  throw new Error(`could not run "${title}" from the command palette after ${attempts} attempts: ${lastError?.message ?? lastError}`);
+  throw new Error(failure(lastError instanceof Error ? lastError.message : String(lastError)));
 }
 
 /**
@@ -298,32 +321,15 @@ export async function runCommand(page, title, { attempts = 6, opensQuickInput = 
  * @param {string} file  absolute path
  */
 export async function openLogViaDialog(page, file) {
-  let lastError;
-  for (let i = 0; i < 3; i++) {
-    try {
+  await retryOnPage(
+    page,
+    3,
+    async () => {
       await runCommand(page, 'Residuum: Open Log Analysis', { opensQuickInput: true });
-      const widget = page.locator('.quick-input-widget');
-      const input = widget.locator('input.input');
-      await input.waitFor({ state: 'visible', timeout: 10_000 });
-      // Wait until the dialog has filled in its starting folder, or it would overwrite the path typed below.
-      await page.waitForFunction((sel) => document.querySelector(sel)?.value?.startsWith('/'), '.quick-input-widget input.input', { timeout: 10_000 });
-      await input.fill(file);
-      // The dialog completes the path as it is typed; wait for it to settle on the file, then accept.
-      await page.waitForFunction(
-        ([sel, want]) => document.querySelector(sel)?.value === want,
-        ['.quick-input-widget input.input', file],
-        { timeout: 10_000 },
-      );
-      await input.press('Enter');
-      await widget.waitFor({ state: 'hidden', timeout: 10_000 });
-      return;
-    } catch (e) {
-      lastError = e;
-      await page.keyboard.press('Escape').catch(() => undefined);
-      await page.waitForTimeout(1000);
-    }
-  }
-  throw new Error(`could not open ${file} through "Residuum: Open Log Analysis": ${lastError?.message ?? lastError}`);
+      await answerFileDialog(page, file);
+    },
+    (last) => `could not open ${file} through "Residuum: Open Log Analysis": ${last}`,
+  );
 }
 
 /**
@@ -349,9 +355,10 @@ export async function answerFileDialog(page, file) {
  * @param {string} themeLabel  a theme id, e.g. THEMES.dark
  */
 export async function pickColorTheme(page, themeLabel) {
-  let lastError;
-  for (let i = 0; i < 4; i++) {
-    try {
+  await retryOnPage(
+    page,
+    4,
+    async () => {
       await runCommand(page, 'Preferences: Color Theme', { opensQuickInput: true });
       const widget = page.locator('.quick-input-widget');
       const input = widget.locator('input.input');
@@ -363,22 +370,18 @@ export async function pickColorTheme(page, themeLabel) {
       await focused.waitFor({ state: 'visible', timeout: 5000 });
       await input.press('Enter');
       await widget.waitFor({ state: 'hidden', timeout: 5000 });
-      return;
-    } catch (e) {
-      lastError = e;
-      await page.keyboard.press('Escape').catch(() => undefined);
-      await page.waitForTimeout(1000);
-    }
-  }
-  throw new Error(`could not pick the colour theme "${themeLabel}": ${lastError?.message ?? lastError}`);
+    },
+    (last) => `could not pick the colour theme "${themeLabel}": ${last}`,
+  );
 }
 
 /**
- * The Residuum panel's document: the webview is an iframe inside an iframe.
+ * The visible Residuum panel's document: the webview is an iframe inside an iframe; of the ready webviews, the last
+ * visible one (a hidden editor group keeps its webview's iframe in the page).
  * @param {import('playwright-core').Page} page
  */
 export function webviewFrame(page) {
-  return page.frameLocator('iframe.webview.ready').frameLocator('#active-frame');
+  return page.locator('iframe.webview.ready').filter({ visible: true }).last().contentFrame().locator('#active-frame').contentFrame();
 }
 
 /**

@@ -1,6 +1,7 @@
 /**
  * End-to-end: the report export, the compare view and the Monte Carlo view of the analysis panel in a real VS Code
- * (code-server 4.100.3 + Debian's chromium through playwright-core; recipe: ../shared/vscode-conventions.md sec 5(c)),
+ * (code-server 4.100.3 + Debian's chromium through playwright-core, set up by test/e2e/workbench.ts; recipe:
+ * ../shared/vscode-conventions.md sec 5(c)),
  * driven through the real UI: the panel's buttons, VS Code's simple file dialogs (code-server has no native ones:
  * the dialog is a quick input holding a path), the command palette.
  *
@@ -20,88 +21,44 @@
  * Tools: scripts/tools.mjs installs code-server into .tools/ on first use; when it cannot, the test FAILS with the
  * reason. Wall time after the tools are installed: about 2 minutes.
  */
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { createHash } from 'node:crypto';
-import { existsSync, mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
-import type { ConsoleMessage, FrameLocator, Page } from 'playwright-core';
+import type { FrameLocator, Page } from 'playwright-core';
 import * as h from '../../scripts/e2e/harness.mjs';
 import * as probes from '../../scripts/e2e/probes.mjs';
 import { generateWarehouseLog, type WarehouseOptions } from '../../extension/core/demo/warehouse';
 import { analyzeFile } from '../../extension/node/analyzeFile';
+import { SCREENSHOT_DIR, openLogInPanel, panel, showTab, useWorkbench, waitForFile, webviewCspViolations } from './workbench';
 
-const ROOT = h.ROOT;
-const RUN_DIR = path.join(h.TOOLS_DIR, 'runs', 'e2e-compare');
-const SCREENSHOT_DIR = path.join(ROOT, 'test-output', 'screenshots');
-const CSP_TEXT = 'violates the following Content Security Policy';
-
-interface LoggedMessage {
-  type: string;
-  text: string;
-  url: string;
-}
-
-let codeServer: h.CodeServer | undefined;
-let browser: { close(): Promise<void> } | undefined;
-let page: Page;
-let workspace = '';
 let degraded = '';
 let clean = '';
 let mcFolder = '';
-const messages: LoggedMessage[] = [];
-const pageErrors: string[] = [];
 
 function writeRun(file: string, options: WarehouseOptions): void {
   mkdirSync(path.dirname(file), { recursive: true });
   writeFileSync(file, [...generateWarehouseLog({ duration_s: 20, ...options })].join(''));
 }
 
-/** The visible Residuum panel's document (iframe.webview.ready > #active-frame). */
-function panel(): FrameLocator {
-  return page.locator('iframe.webview.ready').filter({ visible: true }).last().contentFrame().locator('#active-frame').contentFrame();
-}
-
-function webviewCspViolations(from = 0): LoggedMessage[] {
-  return messages.slice(from).filter((m) => m.text.includes(CSP_TEXT) && (m.url.includes('/webview/') || m.url.startsWith('vscode-webview:') || m.url.includes('vscode-resource') || m.url === ''));
-}
-
-async function waitForFile(file: string, timeout_ms: number): Promise<boolean> {
-  const end = Date.now() + timeout_ms;
-  while (Date.now() < end) {
-    if (existsSync(file)) return true;
-    await new Promise((r) => setTimeout(r, 250));
-  }
-  return existsSync(file);
-}
-
-async function showTab(f: FrameLocator, label: RegExp): Promise<void> {
-  const tab = f.locator('vscode-panel-tab, [role="tab"]').filter({ hasText: label }).first();
-  await tab.click();
-  await expect.poll(() => tab.getAttribute('aria-selected'), { timeout: 10_000 }).toBe('true');
-}
-
 /** Clicks a toolkit button of the panel by its text and answers the file dialog it opens with `file`. */
-async function clickAndAnswer(f: FrameLocator, text: string, file: string): Promise<void> {
-  let lastError: unknown;
-  for (let i = 0; i < 3; i++) {
-    try {
+async function clickAndAnswer(page: Page, f: FrameLocator, text: string, file: string): Promise<void> {
+  await h.retryOnPage(
+    page,
+    3,
+    async () => {
       await f.locator('vscode-button').filter({ hasText: text }).first().click();
       await h.answerFileDialog(page, file);
-      return;
-    } catch (e) {
-      lastError = e;
-      await page.keyboard.press('Escape').catch(() => undefined);
-      await page.waitForTimeout(1000);
-    }
-  }
-  throw new Error(`"${text}" then the dialog with ${file}: ${lastError instanceof Error ? lastError.message : String(lastError)}`);
+    },
+    (last) => `"${text}" then the dialog with ${file}: ${last}`,
+  );
 }
 
 /**
  * Answers the simple dialog of a folder choice: the folder's path with a trailing slash moves the dialog into it
  * (its list then shows `..`), and the dialog's OK button (`okLabel`) accepts the folder shown.
  */
-async function answerFolderDialog(folder: string, okLabel: string): Promise<void> {
+async function answerFolderDialog(page: Page, folder: string, okLabel: string): Promise<void> {
   const widget = page.locator('.quick-input-widget');
   const input = widget.locator('input.input');
   await input.waitFor({ state: 'visible', timeout: 15_000 });
@@ -120,52 +77,29 @@ async function drawnIn(f: FrameLocator, selector: string): Promise<number> {
 }
 
 describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
-  beforeAll(async () => {
-    const tools = h.ensureTools();
-    const vsix = process.env.RESIDUUM_E2E_VSIX ?? h.buildAndPackage(path.join(RUN_DIR, 'residuum.vsix')).vsix;
-    const profile = h.createProfile(path.join(RUN_DIR, 'profile'));
-    h.installExtension(tools.codeServerBin, profile, vsix);
-
-    workspace = path.join(RUN_DIR, 'workspace');
-    rmSync(workspace, { recursive: true, force: true });
-    degraded = path.join(workspace, 'degraded.csv');
-    clean = path.join(workspace, 'clean.csv');
-    mcFolder = path.join(workspace, 'mc');
-    writeRun(degraded, { seed: 1, faults: true });
-    writeRun(clean, { seed: 1, faults: false });
-    for (const seed of [1, 2, 3]) writeRun(path.join(mcFolder, `run${seed}.csv`), { seed, faults: false });
-    mkdirSync(SCREENSHOT_DIR, { recursive: true });
-
-    codeServer = await h.startCodeServer({ codeServerBin: tools.codeServerBin, profile, workspace });
-    const b = await h.launchBrowser(tools.chromium);
-    browser = b;
-    page = b.context.pages()[0] ?? (await b.context.newPage());
-    page.on('console', (m: ConsoleMessage) => messages.push({ type: m.type(), text: m.text(), url: m.location().url }));
-    page.on('pageerror', (e: Error) => pageErrors.push(e.message));
-    await h.openWorkbench(page, codeServer.workbenchUrl);
-    await h.runCommand(page, 'View: Close Primary Side Bar');
-  }, 900_000);
-
-  afterEach(async (ctx) => {
-    if (ctx.task.result?.state !== 'fail' || !page || page.isClosed()) return;
-    const name = ctx.task.name.replace(/[^a-z0-9]+/gi, '-').slice(0, 60);
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, `failure-compare-${name}.png`) }).catch(() => undefined);
-  });
-
-  afterAll(async () => {
-    await browser?.close();
-    await codeServer?.stop();
-  });
+  const wb = useWorkbench(
+    'compare',
+    (runDir) => {
+      const workspace = path.join(runDir, 'workspace');
+      rmSync(workspace, { recursive: true, force: true });
+      degraded = path.join(workspace, 'degraded.csv');
+      clean = path.join(workspace, 'clean.csv');
+      mcFolder = path.join(workspace, 'mc');
+      writeRun(degraded, { seed: 1, faults: true });
+      writeRun(clean, { seed: 1, faults: false });
+      for (const seed of [1, 2, 3]) writeRun(path.join(mcFolder, `run${seed}.csv`), { seed, faults: false });
+      return { workspace };
+    },
+    { runDir: 'e2e-compare' },
+  );
 
   it('exports the HTML report and the Markdown summary from the panel, with the log hash and findings', async () => {
-    await h.openLogViaDialog(page, degraded);
-    const f = panel();
-    await f.locator('main#app[data-state="ready"]').waitFor({ state: 'attached', timeout: 90_000 });
-    const htmlFile = path.join(workspace, 'exported-report.html');
-    const mdFile = path.join(workspace, 'exported-summary.md');
-    await clickAndAnswer(f, 'Export report...', htmlFile);
+    const f = await openLogInPanel(wb.page, degraded, 90_000);
+    const htmlFile = path.join(wb.workspace, 'exported-report.html');
+    const mdFile = path.join(wb.workspace, 'exported-summary.md');
+    await clickAndAnswer(wb.page, f, 'Export report...', htmlFile);
     expect(await waitForFile(htmlFile, 30_000), `${htmlFile} written`).toBe(true);
-    await clickAndAnswer(panel(), 'Markdown summary...', mdFile);
+    await clickAndAnswer(wb.page, panel(wb.page), 'Markdown summary...', mdFile);
     expect(await waitForFile(mdFile, 30_000), `${mdFile} written`).toBe(true);
 
     // The hash the files must carry: node:crypto over the log; the findings: the same analysis run here.
@@ -185,10 +119,10 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
   }, 240_000);
 
   it('compares the panel log with a run added in its Compare view: figures side by side and overlays', async () => {
-    const f = panel();
+    const f = panel(wb.page);
     await showTab(f, /^\s*Compare/);
     await expect.poll(() => f.locator('[data-testid="compare-view"]').getAttribute('data-state'), { timeout: 10_000 }).toBe('empty');
-    await clickAndAnswer(f, 'Add runs...', clean);
+    await clickAndAnswer(wb.page, f, 'Add runs...', clean);
     const view = f.locator('[data-testid="compare-view"][data-state="ready"]');
     await view.waitFor({ state: 'attached', timeout: 90_000 });
 
@@ -219,11 +153,11 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
     await nisSection.locator('summary').click();
     expect(await nisSection.locator('thead th').count()).toBe(3);
     expect(await nisSection.locator('tbody tr').count()).toBeGreaterThan(10);
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-compare.png') });
+    await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-compare.png') });
 
     // The comparison's Markdown carries both runs' hashes; another alignment computes the figures again.
-    const compareMd = path.join(workspace, 'exported-comparison.md');
-    await clickAndAnswer(f, 'Comparison as Markdown...', compareMd);
+    const compareMd = path.join(wb.workspace, 'exported-comparison.md');
+    await clickAndAnswer(wb.page, f, 'Comparison as Markdown...', compareMd);
     expect(await waitForFile(compareMd, 30_000), `${compareMd} written`).toBe(true);
     const cmd = readFileSync(compareMd, 'utf8');
     for (const file of [degraded, clean]) expect(cmd).toContain(createHash('sha256').update(readFileSync(file)).digest('hex'));
@@ -233,27 +167,27 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
   }, 240_000);
 
   it('opens the compare view from the explorer: two logs selected, Residuum: Compare Runs... in the context menu', async () => {
-    await h.runCommand(page, 'View: Close All Editors');
-    await h.runCommand(page, 'View: Show Explorer');
-    const rows = page.locator('.explorer-folders-view .monaco-list-row');
-    const row = (name: string) => rows.filter({ has: page.locator('.label-name', { hasText: new RegExp(`^${name.replace('.', '\\.')}$`) }) }).first();
+    await h.runCommand(wb.page, 'View: Close All Editors');
+    await h.runCommand(wb.page, 'View: Show Explorer');
+    const rows = wb.page.locator('.explorer-folders-view .monaco-list-row');
+    const row = (name: string) => rows.filter({ has: wb.page.locator('.label-name', { hasText: new RegExp(`^${name.replace('.', '\\.')}$`) }) }).first();
     await row('clean.csv').waitFor({ state: 'visible', timeout: 15_000 });
-    const selected = page.locator('.explorer-folders-view .monaco-list-row.selected');
+    const selected = wb.page.locator('.explorer-folders-view .monaco-list-row.selected');
     // Clicking a log opens it in a preview editor, which may take the focus back a moment later: select again until
     // both rows are selected.
     for (let attempt = 0; attempt < 4 && (await selected.count()) !== 2; attempt++) {
       await row('clean.csv').click();
       await expect.poll(() => row('clean.csv').getAttribute('class'), { timeout: 5000 }).toMatch(/\bselected\b/);
-      await page.waitForTimeout(500 * (attempt + 1));
+      await wb.page.waitForTimeout(500 * (attempt + 1));
       await row('degraded.csv').click({ modifiers: ['Control'] });
       await expect.poll(() => selected.count(), { timeout: 3000 }).toBe(2).catch(() => undefined);
     }
     expect(await selected.count(), 'rows selected in the explorer').toBe(2);
     await row('degraded.csv').click({ button: 'right' });
-    const item = page.locator('.monaco-menu .action-item').filter({ hasText: 'Residuum: Compare Runs...' }).first();
+    const item = wb.page.locator('.monaco-menu .action-item').filter({ hasText: 'Residuum: Compare Runs...' }).first();
     await item.waitFor({ state: 'visible', timeout: 10_000 });
     await item.click();
-    const f = panel();
+    const f = panel(wb.page);
     const view = f.locator('[data-testid="compare-view"][data-state="ready"]');
     await view.waitFor({ state: 'attached', timeout: 90_000 });
     // The compare view is shown (its tab selected) and holds both selected logs.
@@ -261,15 +195,15 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
     const names = await f.locator('[data-testid="compare-runs"] tbody tr td:nth-child(2)').allTextContents();
     expect([...names].sort()).toEqual(['clean.csv', 'degraded.csv']);
     expect(await f.locator('table[data-testid="compare-figures"]').count()).toBeGreaterThan(0);
-    await h.runCommand(page, 'View: Close Primary Side Bar');
+    await h.runCommand(wb.page, 'View: Close Primary Side Bar');
   }, 180_000);
 
   it('shows the Monte Carlo view of a folder of runs: N-run averages with their band', async () => {
-    await h.runCommand(page, 'Residuum: Monte Carlo Consistency of Runs...', { opensQuickInput: true });
-    const widget = page.locator('.quick-input-widget');
+    await h.runCommand(wb.page, 'Residuum: Monte Carlo Consistency of Runs...', { opensQuickInput: true });
+    const widget = wb.page.locator('.quick-input-widget');
     await widget.locator('.monaco-list-row').filter({ hasText: 'A folder of runs' }).first().click();
-    await answerFolderDialog(mcFolder, 'Check runs');
-    const f = panel();
+    await answerFolderDialog(wb.page, mcFolder, 'Check runs');
+    const f = panel(wb.page);
     const view = f.locator('[data-testid="montecarlo-view"][data-state="ready"]');
     await view.waitFor({ state: 'attached', timeout: 120_000 });
     expect(await view.locator('code').allTextContents()).toEqual(['run1.csv', 'run2.csv', 'run3.csv']);
@@ -284,14 +218,14 @@ describe('Residuum export, compare and Monte Carlo in a real VS Code', () => {
     expect(charts.map(([k]) => k)).toContain('montecarlo/nis/tdoa');
     for (const [key, points] of charts) expect(points, `${key} points`).toBeGreaterThan(100);
     expect(await drawnIn(f, '[data-testid="montecarlo-view"] section.chart[data-series="montecarlo/nees/position"]')).toBeGreaterThan(0);
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-montecarlo.png') });
+    await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-montecarlo.png') });
   }, 240_000);
 
   it('logs no Content Security Policy violation from the panel (and would see one)', async () => {
-    expect(webviewCspViolations().map((m) => m.text)).toEqual([]);
-    const ran = await panel().locator('body').evaluate(probes.injectInlineScript);
+    expect(webviewCspViolations(wb).map((m) => m.text)).toEqual([]);
+    const ran = await panel(wb.page).locator('body').evaluate(probes.injectInlineScript);
     expect(ran, 'an inline script ran inside the panel: the CSP is not strict').toBeNull();
-    await expect.poll(() => webviewCspViolations().length, { timeout: 10_000 }).toBeGreaterThan(0);
-    expect(pageErrors.filter((e) => /residuum|webview\.js/i.test(e))).toEqual([]);
+    await expect.poll(() => webviewCspViolations(wb).length, { timeout: 10_000 }).toBeGreaterThan(0);
+    expect(wb.pageErrors.filter((e) => /residuum|webview\.js/i.test(e))).toEqual([]);
   }, 60_000);
 });

@@ -1,6 +1,7 @@
 /**
  * End-to-end, a growing log and a panel that outlives its window and its extension host: Residuum packaged as a
- * .vsix in a real VS Code (code-server + headless chromium, the harness of scripts/e2e/harness.mjs).
+ * .vsix in a real VS Code (code-server + headless chromium, the shared set-up of test/e2e/workbench.ts over
+ * scripts/e2e/harness.mjs).
  *
  * - A log that grows while the panel shows it (rows appended by the test) is re-read from the last byte read: the
  *   panel's epoch count grows and its `data-read-start` is the previous revision's `data-read-total` (the panel
@@ -13,50 +14,39 @@
  * Tools as in editor.e2e.test.ts: the test FAILS with the reason when code-server or chromium cannot be had.
  * RESIDUUM_E2E_VSIX reuses a prebuilt .vsix (dev only).
  */
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { appendFileSync, existsSync, mkdirSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
+import { describe, expect, it } from 'vitest';
+import { appendFileSync, existsSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
-import type { ConsoleMessage, FrameLocator, Page } from 'playwright-core';
+import type { FrameLocator } from 'playwright-core';
 import * as h from '../../scripts/e2e/harness.mjs';
+import { SCREENSHOT_DIR, panel, useWorkbench, webviewCspViolations, type Workbench } from './workbench';
 
 const ROOT = h.ROOT;
-const RUN_DIR = path.join(h.TOOLS_DIR, 'runs', 'live-e2e');
-const SCREENSHOT_DIR = path.join(ROOT, 'test-output', 'screenshots');
 const DEMO_LOG = path.join(ROOT, 'demo', 'warehouse-flight.csv');
 const DEMO_WORKSPACE = path.join(ROOT, 'demo', 'workspace');
-const CSP_TEXT = 'violates the following Content Security Policy';
 
-let codeServer: h.CodeServer | undefined;
-let browser: { close(): Promise<void> } | undefined;
-let page: Page;
-let workspace = '';
 let livePath = '';
-const consoleTexts: { text: string; url: string }[] = [];
 
 /** The demo log's lines (with their line ends) and the cut the live log starts with. */
 const lines = existsSync(DEMO_LOG) ? readFileSync(DEMO_LOG, 'utf8').split(/(?<=\n)/) : [];
 const cut = Math.floor(lines.length * 0.6);
 const head = lines.slice(0, cut).join('');
 
-function panel(): FrameLocator {
-  return page.locator('iframe.webview.ready').filter({ visible: true }).last().contentFrame().locator('#active-frame').contentFrame();
-}
-
 /** The panel's `main#app` data attributes (revision, epochs, read-*), or undefined while it is not ready. */
-async function revisionFacts(): Promise<Record<string, string> | undefined> {
-  const app = panel().locator('main#app[data-state="ready"]');
+async function revisionFacts(wb: Workbench): Promise<Record<string, string> | undefined> {
+  const app = panel(wb.page).locator('main#app[data-state="ready"]');
   if ((await app.count()) === 0) return undefined;
   return app.evaluate((el) => ({ ...(el as unknown as { dataset: Record<string, string> }).dataset })).catch(() => undefined);
 }
 
 /** Polls the panel until `accept` holds for its facts; returns them (fails the test with the last ones seen). */
-async function waitForFacts(accept: (f: Record<string, string>) => boolean, what: string, timeout_ms = 60_000): Promise<Record<string, string>> {
+async function waitForFacts(wb: Workbench, accept: (f: Record<string, string>) => boolean, what: string, timeout_ms = 60_000): Promise<Record<string, string>> {
   const end = Date.now() + timeout_ms;
   let last: Record<string, string> | undefined;
   while (Date.now() < end) {
-    last = await revisionFacts();
+    last = await revisionFacts(wb);
     if (last && accept(last)) return last;
-    await page.waitForTimeout(250);
+    await wb.page.waitForTimeout(250);
   }
   throw new Error(`the panel did not show ${what} within ${timeout_ms / 1000} s; last seen: ${JSON.stringify(last)}`);
 }
@@ -84,10 +74,6 @@ function extensionHostPids(rootPid: number): number[] {
   return [...cmd].filter(([pid, c]) => /--type=extensionHost/.test(c) && descends(pid)).map(([pid]) => pid);
 }
 
-function cspViolations(): string[] {
-  return consoleTexts.filter((m) => m.text.includes(CSP_TEXT) && (m.url.includes('/webview/') || m.url.startsWith('vscode-webview:') || m.url === '')).map((m) => m.text);
-}
-
 /** The label of the panel's selected view tab and the index of the worst entry marked current. */
 async function panelState(f: FrameLocator): Promise<{ tab: string; worst: string | null }> {
   const tab = ((await f.locator('vscode-panel-tab[aria-selected="true"]').first().textContent()) ?? '').replace(/\s+\d+\s*$/, '').trim();
@@ -97,47 +83,38 @@ async function panelState(f: FrameLocator): Promise<{ tab: string; worst: string
 }
 
 /** Waits for the restored demo panel: ready, charts drawn with data. */
-async function waitForRestoredPanel(): Promise<FrameLocator> {
-  const f = panel();
+async function waitForRestoredPanel(wb: Workbench): Promise<FrameLocator> {
+  const f = panel(wb.page);
   await f.locator('main#app[data-state="ready"]').waitFor({ state: 'attached', timeout: 120_000 });
   await f.locator('body[data-charts-rendered]').waitFor({ state: 'attached', timeout: 60_000 });
   return f;
 }
 
+/**
+ * Waits for the restored demo panel and checks it: the same view and worst entry as `before`, every chart with
+ * data, no CSP violation logged by the panel.
+ */
+async function expectRestoredAsBefore(wb: Workbench, before: { tab: string; worst: string | null }): Promise<void> {
+  const restored = await waitForRestoredPanel(wb);
+  expect(await panelState(restored)).toEqual(before);
+  const points = await restored.locator('section.chart[data-series]').evaluateAll((els) => els.map((e) => Number(e.getAttribute('data-points'))));
+  expect(points.length).toBeGreaterThan(0);
+  expect(points.filter((p) => !(p > 0))).toEqual([]);
+  expect(webviewCspViolations(wb).map((m) => m.text)).toEqual([]);
+}
+
 describe('Residuum panel lifecycle in a real VS Code', () => {
-  beforeAll(async () => {
-    const tools = h.ensureTools();
+  const wb = useWorkbench('live', () => {
     if (!existsSync(DEMO_LOG)) throw new Error(`the demo log ${DEMO_LOG} is missing (created by the demo generator)`);
-    const vsix = process.env.RESIDUUM_E2E_VSIX ?? h.buildAndPackage(path.join(RUN_DIR, 'residuum.vsix')).vsix;
-    const profile = h.createProfile(path.join(RUN_DIR, 'profile'));
-    h.installExtension(tools.codeServerBin, profile, vsix);
-    workspace = h.scratchCopy(DEMO_WORKSPACE, 'live-e2e-workspace');
+    const workspace = h.scratchCopy(DEMO_WORKSPACE, 'live-e2e-workspace');
     livePath = path.join(workspace, 'live-run.csv');
     writeFileSync(livePath, head);
-    mkdirSync(SCREENSHOT_DIR, { recursive: true });
-    codeServer = await h.startCodeServer({ codeServerBin: tools.codeServerBin, profile, workspace });
-    const b = await h.launchBrowser(tools.chromium);
-    browser = b;
-    page = b.context.pages()[0] ?? (await b.context.newPage());
-    page.on('console', (m: ConsoleMessage) => consoleTexts.push({ text: m.text(), url: m.location().url }));
-    await h.openWorkbench(page, codeServer.workbenchUrl);
-    await h.runCommand(page, 'View: Close Primary Side Bar');
-  }, 900_000);
-
-  afterEach(async (ctx) => {
-    if (ctx.task.result?.state !== 'fail' || !page || page.isClosed()) return;
-    const name = ctx.task.name.replace(/[^a-z0-9]+/gi, '-').slice(0, 60);
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, `failure-live-${name}.png`) }).catch(() => undefined);
-  });
-
-  afterAll(async () => {
-    await browser?.close();
-    await codeServer?.stop();
+    return { workspace };
   });
 
   it('re-reads a growing log from the last byte read, and a truncated one from the start', async () => {
-    await h.openLogViaDialog(page, livePath);
-    const first = await waitForFacts((f) => f.readMode === 'tail', 'the first reading of the live log', 120_000);
+    await h.openLogViaDialog(wb.page, livePath);
+    const first = await waitForFacts(wb, (f) => f.readMode === 'tail', 'the first reading of the live log', 120_000);
     const size1 = Buffer.byteLength(head);
     expect({ start: first.readStart, total: first.readTotal }).toEqual({ start: '0', total: String(size1) });
     const epochs1 = Number(first.epochs);
@@ -146,34 +123,34 @@ describe('Residuum panel lifecycle in a real VS Code', () => {
     // The estimator writes more rows: the panel reads only those.
     const more = lines.slice(cut).join('');
     appendFileSync(livePath, more);
-    const second = await waitForFacts((f) => f.revision !== first.revision && f.readTotal !== first.readTotal, 'a reading after the append');
+    const second = await waitForFacts(wb, (f) => f.revision !== first.revision && f.readTotal !== first.readTotal, 'a reading after the append');
     expect({ start: second.readStart, bytes: second.readBytes, total: second.readTotal }).toEqual({
       start: String(size1),
       bytes: String(Buffer.byteLength(more)),
       total: String(size1 + Buffer.byteLength(more)),
     });
     expect(Number(second.epochs)).toBeGreaterThan(epochs1);
-    await panel().locator('body[data-charts-rendered]').waitFor({ state: 'attached', timeout: 30_000 });
+    await panel(wb.page).locator('body[data-charts-rendered]').waitFor({ state: 'attached', timeout: 30_000 });
 
     // The log is truncated (a new run of the estimator): read again from the start, and the panel says so.
     const short = lines.slice(0, Math.floor(cut / 2)).join('');
     writeFileSync(livePath, short);
-    const third = await waitForFacts((f) => f.readRestarted === 'truncated', 'a reading from the start after the truncation');
+    const third = await waitForFacts(wb, (f) => f.readRestarted === 'truncated', 'a reading from the start after the truncation');
     expect({ start: third.readStart, total: third.readTotal }).toEqual({ start: '0', total: String(Buffer.byteLength(short)) });
     expect(Number(third.epochs)).toBeLessThan(epochs1);
-    await expect.poll(() => panel().locator('header .notice').textContent(), { timeout: 10_000 }).toMatch(/truncated/);
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-live.png') });
+    await expect.poll(() => panel(wb.page).locator('header .notice').textContent(), { timeout: 10_000 }).toMatch(/truncated/);
+    await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-live.png') });
   }, 300_000);
 
   it('the demo panel comes back with its data and state after a window reload', async () => {
-    await h.runCommand(page, 'View: Close All Editors');
-    await h.runCommand(page, 'Residuum: Open Demo Log');
-    let f = await waitForRestoredPanel();
+    await h.runCommand(wb.page, 'View: Close All Editors');
+    await h.runCommand(wb.page, 'Residuum: Open Demo Log');
+    let f = await waitForRestoredPanel(wb);
     // Choose the second worst epoch (the log opens beside the panel), then a chart view.
     const second = f.locator('[data-testid="worst-list"] button[data-index="1"]');
     await second.click();
-    await expect.poll(() => panel().locator('[data-testid="worst-list"] button[aria-current="true"]').getAttribute('data-index'), { timeout: 15_000 }).toBe('1');
-    f = panel();
+    await expect.poll(() => panel(wb.page).locator('[data-testid="worst-list"] button[aria-current="true"]').getAttribute('data-index'), { timeout: 15_000 }).toBe('1');
+    f = panel(wb.page);
     const tab = f.locator('vscode-panel-tab').filter({ hasText: /Innovations|NIS/ }).first();
     await tab.click();
     await expect.poll(() => tab.getAttribute('aria-selected'), { timeout: 10_000 }).toBe('true');
@@ -181,22 +158,17 @@ describe('Residuum panel lifecycle in a real VS Code', () => {
     expect(before.worst).toBe('1');
     expect(before.tab).toMatch(/Innovations|NIS/);
     // Let the webview's setState reach the workbench before it reloads.
-    await page.waitForTimeout(1000);
+    await wb.page.waitForTimeout(1000);
 
-    const navigated = page.waitForEvent('framenavigated', { predicate: (fr) => fr === page.mainFrame(), timeout: 60_000 });
-    await h.runCommand(page, 'Developer: Reload Window');
+    const navigated = wb.page.waitForEvent('framenavigated', { predicate: (fr) => fr === wb.page.mainFrame(), timeout: 60_000 });
+    await h.runCommand(wb.page, 'Developer: Reload Window');
     await navigated;
-    await page.locator('div.monaco-workbench').waitFor({ state: 'visible', timeout: 60_000 });
-    const restored = await waitForRestoredPanel();
-    expect(await panelState(restored)).toEqual(before);
-    const points = await restored.locator('section.chart[data-series]').evaluateAll((els) => els.map((e) => Number(e.getAttribute('data-points'))));
-    expect(points.length).toBeGreaterThan(0);
-    expect(points.filter((p) => !(p > 0))).toEqual([]);
-    expect(cspViolations()).toEqual([]);
+    await wb.page.locator('div.monaco-workbench').waitFor({ state: 'visible', timeout: 60_000 });
+    await expectRestoredAsBefore(wb, before);
   }, 300_000);
 
   it('the demo panel comes back with its data and state after the extension host restarts', async () => {
-    const f = panel();
+    const f = panel(wb.page);
     const before = await panelState(f);
     expect(before.worst).toBe('1');
     // A mark in the panel's document: the restart must give the panel a new document (revived by the serializer).
@@ -204,16 +176,11 @@ describe('Residuum panel lifecycle in a real VS Code', () => {
     // code-server (VS Code for the web) has no "Developer: Restart Extension Host" command; its remote extension host
     // is restarted by the workbench when the process ends, so the test ends that process (a child of its own
     // code-server, found by its parent chain) and the workbench starts a new one.
-    const pids = extensionHostPids(codeServer?.child.pid ?? -1);
+    const pids = extensionHostPids(wb.codeServer.child.pid ?? -1);
     expect(pids.length, 'extension host processes of this code-server').toBeGreaterThan(0);
     for (const pid of pids) process.kill(pid, 'SIGKILL');
-    await expect.poll(() => panel().locator('body[data-before-restart]').count().catch(() => 1), { timeout: 60_000 }).toBe(0);
-    const restored = await waitForRestoredPanel();
-    expect(await panelState(restored)).toEqual(before);
-    const points = await restored.locator('section.chart[data-series]').evaluateAll((els) => els.map((e) => Number(e.getAttribute('data-points'))));
-    expect(points.length).toBeGreaterThan(0);
-    expect(points.filter((p) => !(p > 0))).toEqual([]);
-    expect(cspViolations()).toEqual([]);
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-after-restart.png') });
+    await expect.poll(() => panel(wb.page).locator('body[data-before-restart]').count().catch(() => 1), { timeout: 60_000 }).toBe(0);
+    await expectRestoredAsBefore(wb, before);
+    await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-after-restart.png') });
   }, 300_000);
 });

@@ -1,6 +1,7 @@
 /**
  * End-to-end, notes and code links: Residuum packaged as a .vsix in a real VS Code (code-server + headless
- * chromium, the harness of scripts/e2e/harness.mjs), on a scratch copy of the demo workspace with the demo log.
+ * chromium, the shared set-up of test/e2e/workbench.ts over scripts/e2e/harness.mjs), on a scratch copy of the demo
+ * workspace with the demo log.
  *
  * - A note added from the panel (on the epoch of a worst entry) is written to `<log>.notes.json` at that epoch's
  *   time, listed in the panel on the epoch's line, and shown as a comment thread on that line of the log; its
@@ -11,23 +12,17 @@
  * Tools as in editor.e2e.test.ts: the test FAILS with the reason when code-server or chromium cannot be had.
  * RESIDUUM_E2E_VSIX reuses a prebuilt .vsix (dev only).
  */
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { copyFileSync, existsSync, mkdirSync, readFileSync, rmSync } from 'node:fs';
+import { describe, expect, it } from 'vitest';
+import { copyFileSync, existsSync, readFileSync, rmSync } from 'node:fs';
 import path from 'node:path';
-import type { FrameLocator, Page } from 'playwright-core';
 import * as h from '../../scripts/e2e/harness.mjs';
+import { SCREENSHOT_DIR, openLogInPanel, panel, readNotesSidecar, statusBarLine, useWorkbench, type SidecarNote } from './workbench';
 
 const ROOT = h.ROOT;
-const RUN_DIR = path.join(h.TOOLS_DIR, 'runs', 'notes-e2e');
-const SCREENSHOT_DIR = path.join(ROOT, 'test-output', 'screenshots');
 const DEMO_LOG = path.join(ROOT, 'demo', 'warehouse-flight.csv');
 const DEMO_WORKSPACE = path.join(ROOT, 'demo', 'workspace');
 const NOTE_TEXT = 'anchor 5 blocked by a rack <b>bold?</b>';
 
-let codeServer: h.CodeServer | undefined;
-let browser: { close(): Promise<void> } | undefined;
-let page: Page;
-let workspace = '';
 let logPath = '';
 
 /** What the browser-side check uses of the DOM (the tests compile without the DOM library). */
@@ -35,66 +30,30 @@ interface DomLike {
   querySelectorAll(selector: string): ArrayLike<{ textContent: string | null; getBoundingClientRect(): { top: number } }>;
 }
 
-function panel(): FrameLocator {
-  return page.locator('iframe.webview.ready').filter({ visible: true }).last().contentFrame().locator('#active-frame').contentFrame();
-}
-
-async function statusBarLine(): Promise<number | undefined> {
-  const text = (await page.locator('[id="status.editor.selection"]').textContent({ timeout: 5000 }).catch(() => null)) ?? '';
-  const m = /Ln (\d+),/.exec(text);
-  return m ? Number(m[1]) : undefined;
-}
-
-function readSidecar(): { notes: { id: string; t: number; text: string; tags?: string[] }[] } | undefined {
-  try {
-    return JSON.parse(readFileSync(`${logPath}.notes.json`, 'utf8')) as { notes: { id: string; t: number; text: string; tags?: string[] }[] };
-  } catch {
-    return undefined;
-  }
+/** The demo log's notes sidecar, or undefined while there is none. */
+function readSidecar(): { notes: SidecarNote[] } | undefined {
+  return readNotesSidecar(logPath);
 }
 
 describe('notes and code links in a real VS Code', () => {
-  beforeAll(async () => {
-    const tools = h.ensureTools();
+  const wb = useWorkbench('notes', () => {
     if (!existsSync(DEMO_LOG)) throw new Error(`the demo log ${DEMO_LOG} is missing (created by the demo generator)`);
-    const vsix = process.env.RESIDUUM_E2E_VSIX ?? h.buildAndPackage(path.join(RUN_DIR, 'residuum.vsix')).vsix;
-    const profile = h.createProfile(path.join(RUN_DIR, 'profile'));
-    h.installExtension(tools.codeServerBin, profile, vsix);
-    workspace = h.scratchCopy(DEMO_WORKSPACE, 'notes-e2e-workspace');
+    const workspace = h.scratchCopy(DEMO_WORKSPACE, 'notes-e2e-workspace');
     logPath = path.join(workspace, path.basename(DEMO_LOG));
     copyFileSync(DEMO_LOG, logPath);
     rmSync(`${logPath}.notes.json`, { force: true });
-    mkdirSync(SCREENSHOT_DIR, { recursive: true });
-    codeServer = await h.startCodeServer({ codeServerBin: tools.codeServerBin, profile, workspace });
-    const b = await h.launchBrowser(tools.chromium);
-    browser = b;
-    page = b.context.pages()[0] ?? (await b.context.newPage());
-    await h.openWorkbench(page, codeServer.workbenchUrl);
-    await h.runCommand(page, 'View: Close Primary Side Bar');
-  }, 900_000);
-
-  afterEach(async (ctx) => {
-    if (ctx.task.result?.state !== 'fail' || !page || page.isClosed()) return;
-    const name = ctx.task.name.replace(/[^a-z0-9]+/gi, '-').slice(0, 60);
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, `failure-notes-${name}.png`) }).catch(() => undefined);
-  });
-
-  afterAll(async () => {
-    await browser?.close();
-    await codeServer?.stop();
+    return { workspace };
   });
 
   it('adds a note from the panel: on disk at the epoch, in the list on its line, as a comment thread on that line', async () => {
-    await h.openLogViaDialog(page, logPath);
-    const f = panel();
-    await f.locator('main#app[data-state="ready"]').waitFor({ state: 'attached', timeout: 120_000 });
+    const f = await openLogInPanel(wb.page, logPath, 120_000);
     await f.locator('[data-testid="notes"]').waitFor({ state: 'attached', timeout: 30_000 });
     // Choose the first worst epoch: the cursor goes there and the log opens on its line.
     const worst = f.locator('[data-testid="worst-list"] button[data-line]').first();
     const line = Number(await worst.getAttribute('data-line'));
     const t = Number(await worst.getAttribute('data-t'));
     await worst.click();
-    await expect.poll(statusBarLine, { timeout: 20_000 }).toBe(line);
+    await expect.poll(() => statusBarLine(wb.page), { timeout: 20_000 }).toBe(line);
 
     await f.locator('[data-testid="note-about"]').selectOption({ index: 0 });
     await f.locator('[data-testid="note-text"]').fill(NOTE_TEXT);
@@ -117,11 +76,11 @@ describe('notes and code links in a real VS Code', () => {
     expect(await item.locator('b').count()).toBe(0);
 
     // In the log's editor: an expanded comment thread with the text, as text, on the epoch's line.
-    const widget = page.locator('.review-widget').filter({ hasText: 'anchor 5 blocked by a rack' }).first();
+    const widget = wb.page.locator('.review-widget').filter({ hasText: 'anchor 5 blocked by a rack' }).first();
     await widget.waitFor({ state: 'visible', timeout: 30_000 });
     expect(await widget.innerText()).toContain('<b>bold?</b>');
     expect(await widget.locator('.comment-body b').count()).toBe(0);
-    const aligned = await page.evaluate((want) => {
+    const aligned = await wb.page.evaluate((want) => {
       // Runs in the browser; typed here without the DOM library.
       const doc = (globalThis as unknown as { document: DomLike }).document;
       const tops = (sel: string): number[] => Array.from(doc.querySelectorAll(sel)).map((e) => Math.round(e.getBoundingClientRect().top));
@@ -131,32 +90,32 @@ describe('notes and code links in a real VS Code', () => {
     }, line);
     expect(aligned.lineTops.length, 'the line is visible in the editor').toBeGreaterThan(0);
     expect(aligned.glyphTops.some((g) => aligned.lineTops.some((l) => Math.abs(g - l) <= 2)), `comment glyph on line ${line}: ${JSON.stringify(aligned)}`).toBe(true);
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'notes-thread.png') });
+    await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, 'notes-thread.png') });
   }, 300_000);
 
   it('shows a CodeLens with the channel figures in the demo estimator source, which opens the panel on the channel', async () => {
-    await page.keyboard.press('Control+P');
-    const input = page.locator('.quick-input-widget input.input');
+    await wb.page.keyboard.press('Control+P');
+    const input = wb.page.locator('.quick-input-widget input.input');
     await input.waitFor({ state: 'visible', timeout: 10_000 });
     await input.fill('tdoa_update.cpp');
-    await page.locator('.quick-input-widget .monaco-list-row').filter({ hasText: 'tdoa_update.cpp' }).first().waitFor({ state: 'visible', timeout: 15_000 });
+    await wb.page.locator('.quick-input-widget .monaco-list-row').filter({ hasText: 'tdoa_update.cpp' }).first().waitFor({ state: 'visible', timeout: 15_000 });
     await input.press('Enter');
     // Lenses are drawn for the lines in view: go to the logging call the log's "# source:" line names.
     const sourceLine = /^# source: .*:(\d+)$/m.exec(readFileSync(logPath, 'utf8').slice(0, 4096))?.[1];
     expect(sourceLine).toBeDefined();
-    await page.locator('.tab.active').filter({ hasText: 'tdoa_update.cpp' }).first().waitFor({ state: 'visible', timeout: 15_000 });
-    await page.keyboard.press('Control+G');
+    await wb.page.locator('.tab.active').filter({ hasText: 'tdoa_update.cpp' }).first().waitFor({ state: 'visible', timeout: 15_000 });
+    await wb.page.keyboard.press('Control+G');
     await input.waitFor({ state: 'visible', timeout: 10_000 });
     await input.fill(`:${sourceLine}`);
     await input.press('Enter');
-    await expect.poll(statusBarLine, { timeout: 15_000 }).toBe(Number(sourceLine));
-    const lens = page.locator('.codelens-decoration a').filter({ visible: true, hasText: /tdoa in warehouse-flight\.csv: NIS [\d.]+% inside 95% bounds/ }).first();
+    await expect.poll(() => statusBarLine(wb.page), { timeout: 15_000 }).toBe(Number(sourceLine));
+    const lens = wb.page.locator('.codelens-decoration a').filter({ visible: true, hasText: /tdoa in warehouse-flight\.csv: NIS [\d.]+% inside 95% bounds/ }).first();
     await lens.waitFor({ state: 'visible', timeout: 60_000 });
     expect(await lens.textContent()).toMatch(/\d+ outliers?/);
     await lens.click();
-    const f = panel();
+    const f = panel(wb.page);
     await f.locator('body[data-focused-channel="tdoa"]').waitFor({ state: 'attached', timeout: 60_000 });
     await f.locator('section.chart[data-series="nis/tdoa"]').waitFor({ state: 'visible', timeout: 30_000 });
-    await page.screenshot({ path: path.join(SCREENSHOT_DIR, 'notes-codelens.png') });
+    await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, 'notes-codelens.png') });
   }, 240_000);
 });
