@@ -384,7 +384,7 @@ function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglo
       markers: markersFor(info.key, report),
       noteMarkers: () => notesView.markerTimes(),
       syncKey: 'residuum-time',
-      onWindow: (t0, t1) => onUserWindow(t0, t1),
+      onWindow: (t0, t1) => onUserWindow(t0, t1, chart),
       onPick: (t) => {
         select(t, undefined);
         panelApi.post({ type: 'cursor/didChange', t });
@@ -447,11 +447,19 @@ function chartKindOf(e: TimeEntry): 'time' | 'loglog' | 'plain' {
   return k === 'xy' ? 'plain' : k;
 }
 
-function requeryTimeCharts(): void {
+/**
+ * Ask again for every time chart's envelope of its window (debounced). The host answers in order, so the chart the
+ * user zoomed goes first, then the charts on screen, then those on hidden views: the answer the user waits for is
+ * not queued behind some forty others.
+ */
+function requeryTimeCharts(origin?: TimeChart): void {
   if (requeryTimer) clearTimeout(requeryTimer);
   requeryTimer = setTimeout(() => {
     requeryTimer = undefined;
-    for (const e of entries) if (e.kind === 'time' && chartKindOf(e) === 'time') request(e, e.info.key, e.chart.visibleWindow());
+    const rank = (e: TimeEntry): number => (e.chart === origin ? 0 : e.section.offsetParent !== null ? 1 : 2);
+    const charts = entries.filter((e): e is TimeEntry => e.kind === 'time' && chartKindOf(e) === 'time');
+    charts.sort((a, b) => rank(a) - rank(b)); // stable: the page order within each rank
+    for (const e of charts) request(e, e.info.key, e.chart.visibleWindow());
   }, REQUERY_DEBOUNCE_MS);
 }
 
@@ -535,11 +543,11 @@ function maybeReportRendered(): void {
 // ---------------------------------------------------------------------------------------------------------------
 // Cursor, selection, zoom and pan
 
-function onUserWindow(t0: number, t1: number): void {
+function onUserWindow(t0: number, t1: number, origin?: TimeChart): void {
   view.window = [t0, t1];
   persist();
-  for (const e of entries) if (e.kind === 'time' && chartKindOf(e) === 'time') e.chart.setWindow(t0, t1);
-  requeryTimeCharts();
+  for (const e of entries) if (e.kind === 'time' && chartKindOf(e) === 'time' && e.chart !== origin) e.chart.setWindow(t0, t1);
+  requeryTimeCharts(origin);
 }
 
 function onChartKey(e: KeyboardEvent, chart: TimeChart, details: HTMLDetailsElement): void {

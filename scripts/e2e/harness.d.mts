@@ -1,6 +1,6 @@
 // Types of scripts/e2e/harness.mjs for the TypeScript tests.
 import type { ChildProcess } from 'node:child_process';
-import type { BrowserContext, FrameLocator, Page } from 'playwright-core';
+import type { BrowserContext, FrameLocator, Locator, Page } from 'playwright-core';
 
 /** Project root. */
 export declare const ROOT: string;
@@ -74,6 +74,8 @@ export declare function retryOnPage<T>(
 export declare function openLogViaDialog(page: Page, file: string): Promise<void>;
 /** Answers VS Code's simple file dialog (open or save) with an absolute path. */
 export declare function answerFileDialog(page: Page, file: string): Promise<void>;
+/** Types `value` into a quick input until it stays there (the simple dialog may overwrite it with its default). */
+export declare function fillAndHold(page: Page, input: Locator, value: string, timeout_ms?: number): Promise<void>;
 /** Switches the colour theme through the palette. */
 export declare function pickColorTheme(page: Page, themeLabel: string): Promise<void>;
 /** The visible Residuum panel's inner document (the last visible iframe.webview.ready > #active-frame). */

@@ -333,6 +333,27 @@ export async function openLogViaDialog(page, file) {
 }
 
 /**
+ * Types `value` into a quick input and waits until it stays there: the simple file dialog fills in its own default
+ * (the folder, a file name) a moment after it opens, which can overwrite what was typed; type again until the value
+ * holds for two checks in a row.
+ * @param {import('playwright-core').Page} page
+ * @param {import('playwright-core').Locator} input
+ * @param {string} value
+ */
+export async function fillAndHold(page, input, value, timeout_ms = 15_000) {
+  const end = Date.now() + timeout_ms;
+  let held = 0;
+  while (Date.now() < end) {
+    if ((await input.inputValue()) !== value) {
+      held = 0;
+      await input.fill(value);
+    } else if (++held >= 2) return;
+    await page.waitForTimeout(300);
+  }
+  throw new Error(`the dialog's input did not keep "${value}" (it shows "${await input.inputValue()}")`);
+}
+
+/**
  * Answers VS Code's simple file dialog (open or save; code-server has no native one), shown as a quick input
  * holding a path, with `file`: waits for the dialog's starting path, types `file`, waits for it to settle, accepts.
  * @param {import('playwright-core').Page} page
@@ -343,8 +364,7 @@ export async function answerFileDialog(page, file) {
   const input = widget.locator('input.input');
   await input.waitFor({ state: 'visible', timeout: 15_000 });
   await page.waitForFunction((sel) => document.querySelector(sel)?.value?.startsWith('/'), '.quick-input-widget input.input', { timeout: 10_000 });
-  await input.fill(file);
-  await page.waitForFunction(([sel, want]) => document.querySelector(sel)?.value === want, ['.quick-input-widget input.input', file], { timeout: 10_000 });
+  await fillAndHold(page, input, file);
   await input.press('Enter');
   await widget.waitFor({ state: 'hidden', timeout: 10_000 });
 }
