@@ -4,7 +4,7 @@
  * navigation frame.
  */
 import type { Anchor, Diagnostic } from '../model';
-import { normalizeId } from './csv';
+import { normalizeId } from './ids';
 import { isJsonObject, lineColumnOf, parseJson, type JsonValue } from './jsonValue';
 import { normalizeName } from './names';
 import { NUM_OK, numStatus, parseNumberText } from './numbers';

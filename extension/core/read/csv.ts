@@ -12,6 +12,7 @@ import { compilePlan, CELL_NUM, CELL_SKIP, CELL_STR, CELL_TIME, type FileRole, t
 import { NUM_INVALID, NUM_MISSING, NUM_NONFINITE, NUM_OK, numStatus, numStop, numValue, parseDecimal, parseNumberText } from './numbers';
 import type { RunBuilder } from './builder';
 import { charColumn, decodeUtf8 } from './utf8';
+import { IdTextCache, normalizeId } from './ids';
 import { parseWallClock } from './wallclock';
 import { clip } from './diagnostics';
 
@@ -30,15 +31,6 @@ const RESERVE_AFTER_ROWS = 256;
 
 const QUOTE = 0x22;
 
-/** Normalise an id cell: integers written as numbers (`12`, `12.0`) become `12`. */
-export function normalizeId(s: string): string {
-  const t = s.trim();
-  if (t === '') return t;
-  const v = parseNumberText(t);
-  if (numStatus === NUM_OK && Number.isInteger(v) && Math.abs(v) < 1e15) return String(v);
-  return t;
-}
-
 /** Reads one CSV file into a run. */
 export class CsvFileReader {
   private readonly splitter: LineSplitter;
@@ -56,7 +48,7 @@ export class CsvFileReader {
   private inRecord = false;
   private recQuotes = 0;
   private dataRows = 0;
-  private readonly idCache = new Map<number, { bytes: Uint8Array; text: string }>();
+  private readonly ids = new IdTextCache();
   private dataBytes = 0;
 
   constructor(private readonly run: RunBuilder, readonly file: string, private readonly opts: CsvFileOptions) {
@@ -312,7 +304,7 @@ export class CsvFileReader {
         }
       } else {
         while (p < e && b[p] !== delim) p++;
-        if (kind === CELL_STR) strs[c] = this.idCell(b, start, p);
+        if (kind === CELL_STR) strs[c] = this.ids.text(b, start, p);
         else if (kind === CELL_TIME) this.timeCell(b, start, p, c, line, s);
       }
       c++;
@@ -329,25 +321,6 @@ export class CsvFileReader {
       if (!(extra === 1 && this.isBlank(b, p + 1, e))) this.ragged(line, ncols + extra, ncols);
     }
     plan.row(vals, strs, line);
-  }
-
-  /**
-   * An id cell as a normalised string. Ids repeat (anchor pairs, satellites), so their strings are cached by the
-   * bytes (FNV-1a hash, bytes compared) instead of decoding and normalising every row.
-   */
-  private idCell(b: Uint8Array, start: number, end: number): string {
-    if (end - start > 64) return normalizeId(decodeUtf8(b, start, end));
-    let h = 0x811c9dc5;
-    for (let k = start; k < end; k++) h = Math.imul(h ^ b[k], 0x01000193);
-    const hit = this.idCache.get(h);
-    if (hit && hit.bytes.length === end - start) {
-      let same = true;
-      for (let k = 0; k < hit.bytes.length; k++) if (hit.bytes[k] !== b[start + k]) { same = false; break; }
-      if (same) return hit.text;
-    }
-    const text = normalizeId(decodeUtf8(b, start, end));
-    if (this.idCache.size < 4096) this.idCache.set(h, { bytes: b.slice(start, end), text });
-    return text;
   }
 
   /** After the first rows, reserve every growing stream in proportion to the file size. */

@@ -8,7 +8,7 @@
  */
 import type { RunBuilder } from './builder';
 import { ByteBuffer, LineSplitter } from './bytes';
-import { normalizeId } from './csv';
+import { IdTextCache, normalizeId } from './ids';
 import { isJsonObject, lineColumnOf, parseJson, type JsonValue } from './jsonValue';
 import type { FileSpec, Mapping } from './mapping';
 import { CELL_NUM, CELL_STR, CELL_TIME, compilePlan, type FileRole, type RowPlan } from './plan';
@@ -50,7 +50,7 @@ export class JsonRecordSink {
   /** Learned record shapes (jsonShape.ts) by shape hash. */
   private readonly shapes = new Map<number, FastShape[]>();
   private shapeCount = 0;
-  private readonly idTexts = new Map<number, { bytes: Uint8Array; text: string }>();
+  private readonly ids = new IdTextCache();
 
   constructor(private readonly run: RunBuilder, readonly file: string, private readonly opts: JsonFileOptions) {
     this.quatOrder = opts.mapping?.conventions?.quaternionOrder ?? 'wxyz';
@@ -379,26 +379,10 @@ export class JsonRecordSink {
     for (let k = 0; k < leafCol.length; k++) {
       const c = leafCol[k];
       if (c < 0) continue;
-      if (leafStr[k] === 1) strs[c] = this.idText(b, scanner.strStart[k], scanner.strEnd[k]);
+      if (leafStr[k] === 1) strs[c] = this.ids.text(b, scanner.strStart[k], scanner.strEnd[k]);
       else vals[c] = num[k] * scale[c] + offset[c];
     }
     plan.row(vals, strs, line);
-  }
-
-  /** A string leaf as an id cell (normalizeId), cached by its bytes (ASCII, as the scanner guarantees). */
-  private idText(b: Uint8Array, start: number, end: number): string {
-    if (end - start > 64) return normalizeId(decodeUtf8(b, start, end));
-    let h = 0x811c9dc5;
-    for (let k = start; k < end; k++) h = Math.imul(h ^ b[k], 0x01000193);
-    const hit = this.idTexts.get(h);
-    if (hit && hit.bytes.length === end - start) {
-      let same = true;
-      for (let k = 0; k < hit.bytes.length; k++) if (hit.bytes[k] !== b[start + k]) { same = false; break; }
-      if (same) return hit.text;
-    }
-    const text = normalizeId(decodeUtf8(b, start, end));
-    if (this.idTexts.size < 4096) this.idTexts.set(h, { bytes: b.slice(start, end), text });
-    return text;
   }
 
   private covariance(P: JsonValue, index: number, line: number, column: number, t: number): void {
