@@ -100,10 +100,20 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
   }
   const { log, hash } = attempt;
   if (options.times) options.times.read = performance.now() - t0;
-  const sidecar = options.notes === undefined ? notesForReport(logPath, log) : undefined;
-  // Resets confirmed in the sidecar split the run like those given in the settings (`--reset-at`).
+  return analyzeWithSidecar(logPath, log, settings, hash, options.notes, options.times);
+}
+
+/**
+ * Analyse a log read from `logPath` with its notes sidecar (`<log>.notes.json`): the sidecar's notes go into the
+ * report, the resets confirmed there (`"reset": true`) split the run like those given in the settings (`--reset-at`),
+ * and a sidecar that cannot be read is a finding. `notes` given: those notes instead, and the sidecar is not read.
+ * `settings` is changed (its confirmed resets). Shared by {@link analyzeFile} and the live analysis of a growing log.
+ */
+export function analyzeWithSidecar(logPath: string, log: NavLog, settings: AnalysisSettings, sha256: string,
+  notes?: unknown[], times?: StageTimes): FileAnalysis {
+  const sidecar = notes === undefined ? notesForReport(logPath, log) : undefined;
   if (sidecar && sidecar.resets.length > 0) settings.confirmedResets_s = mergeResetTimes(settings.confirmedResets_s, sidecar.resets);
-  const { report, series } = analyzeLog(log, settings, { sha256: hash, notes: options.notes ?? sidecar?.notes }, options.times);
+  const { report, series } = analyzeLog(log, settings, { sha256, notes: notes ?? sidecar?.notes }, times);
   if (sidecar?.finding) report.findings.push(sidecar.finding);
   return { report, series, log };
 }

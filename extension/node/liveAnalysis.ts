@@ -20,13 +20,10 @@
 import { createHash, type Hash } from 'node:crypto';
 import { existsSync, readFileSync } from 'node:fs';
 import type { Diagnostic, NavLog } from '../core/model';
-import { analyzeLog } from '../core/analyze';
 import { parseMapping, type Mapping } from '../core/read/index';
 import { resolveSettings, type AnalysisSettings } from '../core/settings';
-import { analyzeFile, assertReadableFile, InputError, type FileAnalysis } from './analyzeFile';
+import { analyzeFile, analyzeWithSidecar, assertReadableFile, InputError, type FileAnalysis } from './analyzeFile';
 import { NODE_FILES, type FileLayer } from './fileSource';
-import { notesForReport } from './notesReport';
-import { mergeResetTimes } from '../core/resets/segments';
 import type { ReadInfo } from '../protocol';
 import { FileTail } from './tail';
 
@@ -145,11 +142,7 @@ export class LiveAnalysis {
     this.addPendingLineNote(log, total);
     onProgress?.(1);
     settings.map = mapPath;
-    const sidecar = notesForReport(this.logPath, log);
-    // Resets confirmed in the sidecar split the run, as in analyzeFile.
-    if (sidecar.resets.length > 0) settings.confirmedResets_s = mergeResetTimes(settings.confirmedResets_s, sidecar.resets);
-    const { report, series } = analyzeLog(log, settings, { sha256: this.hash.copy().digest('hex'), notes: sidecar.notes });
-    if (sidecar.finding) report.findings.push(sidecar.finding);
+    const { report, series } = analyzeWithSidecar(this.logPath, log, settings, this.hash.copy().digest('hex'));
     const read: ReadInfo = { mode: 'tail', start, bytes: total - start, total };
     if (restarted) read.restarted = restarted;
     return { report, series, log, read };
