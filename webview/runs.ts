@@ -117,7 +117,6 @@ function drawCompare(): void {
   if (!host || !ctx) return;
   destroy(compareCharts);
   const state = msg?.state ?? 'empty';
-  host.dataset.testid = 'compare-view';
   host.setAttribute('data-testid', 'compare-view');
   host.dataset.state = state;
   const toolbar = el('div', { class: 'export', role: 'group', 'aria-label': 'Comparison' }, button('Add runs...', () => panelApi.post({ type: 'compare/add' }), 'primary'));
