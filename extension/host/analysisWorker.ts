@@ -80,16 +80,6 @@ export function seriesBuffers(series: readonly Series[]): ArrayBuffer[] {
   return [...set];
 }
 
-/** The distinct ArrayBuffers behind a Monte Carlo block's columns. */
-export function monteCarloBuffers(block: MonteCarloBlock): ArrayBuffer[] {
-  const set = new Set<ArrayBuffer>();
-  for (const m of [...Object.values(block.nees), ...Object.values(block.nis)]) {
-    if (!m) continue;
-    for (const a of [m.t, m.average, m.runs, m.lo, m.hi]) if (a.buffer instanceof ArrayBuffer) set.add(a.buffer);
-  }
-  return [...set];
-}
-
 /** Finding kinds present in every report (the choices of an event alignment), sorted. */
 export function commonFindingKinds(reports: readonly Report[]): string[] {
   if (reports.length === 0) return [];
@@ -127,6 +117,11 @@ export function reachableBuffers(root: unknown): Set<ArrayBufferLike> {
     } else for (const x of Object.values(v)) stack.push(x);
   }
   return out;
+}
+
+/** The plain ArrayBuffers of a set (SharedArrayBuffers are shared, never transferred). */
+function transferable(buffers: ReadonlySet<ArrayBufferLike>): ArrayBuffer[] {
+  return [...buffers].filter((b): b is ArrayBuffer => b instanceof ArrayBuffer);
 }
 
 /**
@@ -179,7 +174,7 @@ async function runOnce(port: NonNullable<typeof parentPort>, request: AnyWorkerR
     if ('kind' in request && request.kind === 'montecarlo') {
       const runs = await analyseAll(request.paths, request.map, request.settings, controller.signal, progress);
       const block = analyzeMonteCarlo(runs.map((r) => r.log), resolveSettings(request.settings));
-      port.postMessage({ type: 'montecarlo', block } satisfies WorkerReply, monteCarloBuffers(block));
+      port.postMessage({ type: 'montecarlo', block } satisfies WorkerReply, transferable(reachableBuffers(block)));
       return;
     }
     const { report, series, log } = await analyzeFile(request.path, {
