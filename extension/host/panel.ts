@@ -243,22 +243,41 @@ export class AnalysisPanel {
     const controller = new AbortController();
     this.monteCarloRunning = controller;
     this.setMonteCarlo(monteCarloStateMessage('loading', paths, `Reading ${paths.length} runs…`, true));
-    const workerFile = vscode.Uri.joinPath(this.host.extensionUri, 'dist', 'analysisWorker.js').fsPath;
     try {
-      const result = await vscode.window.withProgress({ location: vscode.ProgressLocation.Window, title: `$(sync~spin) Residuum: Monte Carlo over ${paths.length} runs` }, () =>
-        runMonteCarlo(workerFile, { kind: 'montecarlo', paths, map: this.mapPath(), settings: this.config.analysis }, () => undefined, controller.signal),
-      );
-      if (this.disposed || controller.signal.aborted) return;
+      const result = await this.workerJob(controller, `Monte Carlo over ${paths.length} runs`, 'Monte Carlo check',
+        (workerFile, signal) => runMonteCarlo(workerFile, { kind: 'montecarlo', paths, map: this.mapPath(), settings: this.config.analysis }, () => undefined, signal),
+        (message) => this.setMonteCarlo(monteCarloStateMessage('error', paths, message, true)));
+      if (!result) return;
       this.setMonteCarlo(monteCarloReadyMessage(result.block, paths, true));
       this.host.output.info(`Monte Carlo over ${paths.length} runs: ${Object.keys(result.block.nees).length} NEES blocks, ${Object.keys(result.block.nis).length} NIS channels`);
-    } catch (e) {
-      if (this.disposed || (e instanceof DOMException && e.name === 'AbortError')) return;
-      const message = e instanceof Error ? e.message : String(e);
-      this.host.output.error(`Monte Carlo check failed: ${message}`);
-      this.setMonteCarlo(monteCarloStateMessage('error', paths, message, true));
     } finally {
       if (this.monteCarloRunning === controller) this.monteCarloRunning = undefined;
     }
+  }
+
+  /**
+   * One comparison or Monte Carlo job in the worker thread, with the window's progress spinner. Resolves with the
+   * result, or undefined when it was cancelled or the panel closed meanwhile; a failure is logged as `what` failed
+   * and handed to `onError`, which shows it in the view.
+   */
+  private async workerJob<T>(controller: AbortController, title: string, what: string,
+    job: (workerFile: string, signal: AbortSignal) => Promise<T>, onError: (message: string) => void): Promise<T | undefined> {
+    try {
+      const result = await vscode.window.withProgress({ location: vscode.ProgressLocation.Window, title: `$(sync~spin) Residuum: ${title}` }, () =>
+        job(this.workerFile(), controller.signal));
+      return this.disposed || controller.signal.aborted ? undefined : result;
+    } catch (e) {
+      if (this.disposed || (e instanceof DOMException && e.name === 'AbortError')) return undefined;
+      const message = e instanceof Error ? e.message : String(e);
+      this.host.output.error(`${what} failed: ${message}`);
+      onError(message);
+      return undefined;
+    }
+  }
+
+  /** The bundled worker thread entry. */
+  private workerFile(): string {
+    return vscode.Uri.joinPath(this.host.extensionUri, 'dist', 'analysisWorker.js').fsPath;
   }
 
   private setMonteCarlo(m: MonteCarloUpdateMessage): void {
@@ -282,21 +301,17 @@ export class AnalysisPanel {
     const controller = new AbortController();
     this.comparing = controller;
     this.setCompare(compareStateMessage('loading', paths, this.compareAlign, `Comparing ${paths.length} runs…`, focus));
-    const workerFile = vscode.Uri.joinPath(this.host.extensionUri, 'dist', 'analysisWorker.js').fsPath;
     try {
-      const result = await vscode.window.withProgress({ location: vscode.ProgressLocation.Window, title: `$(sync~spin) Residuum: comparing ${paths.length} runs` }, () =>
-        runComparison(workerFile, { kind: 'compare', paths, align: this.compareAlign, map: this.mapPath(), settings: this.config.analysis }, () => undefined, controller.signal),
-      );
-      if (this.disposed || controller.signal.aborted) return;
+      const result = await this.workerJob(controller, `comparing ${paths.length} runs`, 'comparison',
+        (workerFile, signal) => runComparison(workerFile, { kind: 'compare', paths, align: this.compareAlign, map: this.mapPath(), settings: this.config.analysis }, () => undefined, signal),
+        (message) => {
+          this.comparisonResult = undefined;
+          this.setCompare(compareStateMessage('error', paths, this.compareAlign, message, focus));
+        });
+      if (!result) return;
       this.comparisonResult = result.comparison;
       this.setCompare(compareReadyMessage(result.comparison, result.eventKinds, focus));
       this.host.output.info(`compared ${paths.length} runs on ${result.comparison.span.start}..${result.comparison.span.end} s (${result.comparison.figures.length} figures)`);
-    } catch (e) {
-      if (this.disposed || (e instanceof DOMException && e.name === 'AbortError')) return;
-      const message = e instanceof Error ? e.message : String(e);
-      this.host.output.error(`comparison failed: ${message}`);
-      this.comparisonResult = undefined;
-      this.setCompare(compareStateMessage('error', paths, this.compareAlign, message, focus));
     } finally {
       if (this.comparing === controller) this.comparing = undefined;
     }
@@ -352,7 +367,7 @@ export class AnalysisPanel {
     this.loading = controller;
     this.post({ type: 'status', state: 'loading', uri: this.uri.toString() });
     const name = path.basename(this.uri.fsPath);
-    const workerFile = vscode.Uri.joinPath(this.host.extensionUri, 'dist', 'analysisWorker.js').fsPath;
+    const workerFile = this.workerFile();
     const request: WorkerRequest = { path: this.uri.fsPath, map: this.mapPath(), settings: this.config.analysis };
     // One session per request: new settings or another mapping path start a new one (which reads from the start).
     if (this.session && JSON.stringify(this.session.request) !== JSON.stringify(request)) {
