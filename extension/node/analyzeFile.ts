@@ -66,17 +66,23 @@ export function assertReadableFile(file: string, what: string): void {
   if (!st.isFile()) throw new InputError(`${what} is not a regular file (a pipe or device?): ${file}`);
 }
 
+/**
+ * The mapping file of a log and its text: `given`, else `<log>.map.json` beside the log when it exists, else none.
+ * Throws InputError when the mapping file cannot be read.
+ */
+export function readMappingFile(logPath: string, given?: string): { text: string; name: string } | undefined {
+  const name = given ?? (existsSync(`${logPath}.map.json`) ? `${logPath}.map.json` : undefined);
+  if (name === undefined) return undefined;
+  assertReadableFile(name, 'mapping file');
+  return { text: readFileSync(name, 'utf8'), name };
+}
+
 /** Analyse one log file with the files of its run. Throws InputError for unreadable inputs; bad data becomes findings. */
 export async function analyzeFile(logPath: string, options: AnalyzeFileOptions = {}): Promise<FileAnalysis> {
   assertReadableFile(logPath, 'log');
   const settings = resolveSettings(options.settings);
-  const mapPath = options.map ?? (existsSync(`${logPath}.map.json`) ? `${logPath}.map.json` : undefined);
-  let map: { text: string; name: string } | undefined;
-  if (mapPath) {
-    assertReadableFile(mapPath, 'mapping file');
-    map = { text: readFileSync(mapPath, 'utf8'), name: mapPath };
-    settings.map = mapPath;
-  }
+  const map = readMappingFile(logPath, options.map);
+  if (map) settings.map = map.name;
   for (const [file, what] of [[options.anchors, 'anchors file'], [options.reference, 'reference file']] as const) {
     if (file) assertReadableFile(file, what);
   }

@@ -18,11 +18,10 @@
  * note says so: unlike the command-line tool, which reads a file once and takes such a line as the last record.
  */
 import { createHash, type Hash } from 'node:crypto';
-import { existsSync, readFileSync } from 'node:fs';
 import type { Diagnostic, NavLog } from '../core/model';
 import { parseMapping, type Mapping } from '../core/read/index';
 import { resolveSettings, type AnalysisSettings } from '../core/settings';
-import { analyzeFile, analyzeWithSidecar, assertReadableFile, InputError, type FileAnalysis } from './analyzeFile';
+import { analyzeFile, analyzeWithSidecar, assertReadableFile, InputError, readMappingFile, type FileAnalysis } from './analyzeFile';
 import { NODE_FILES, type FileLayer } from './fileSource';
 import type { ReadInfo } from '../protocol';
 import { FileTail } from './tail';
@@ -91,12 +90,9 @@ export class LiveAnalysis {
       throw e;
     }
     const settings = resolveSettings(this.options.settings);
-    const mapPath = this.options.map ?? (existsSync(`${this.logPath}.map.json`) ? `${this.logPath}.map.json` : undefined);
-    let mapText: string | undefined;
-    if (mapPath) {
-      assertReadableFile(mapPath, 'mapping file');
-      mapText = readFileSync(mapPath, 'utf8');
-    }
+    const map = readMappingFile(this.logPath, this.options.map);
+    const mapPath = map?.name;
+    const mapText = map?.text;
     const parsed = mapText !== undefined && mapPath !== undefined ? parseMapping(mapText, mapPath) : undefined;
     if (!this.canTail(parsed?.mapping)) return this.runWhole(runOptions);
 
