@@ -188,6 +188,8 @@ export function channelRows(report: Pick<Report, 'channels'>): ChannelRow[] {
 export function runSummary(report: Report): [string, string][] {
   const out: [string, string][] = [
     ['Log', report.source.path],
+    // Every file the analysis read (the log, its mapping file and the other files of its run).
+    ['Files read', report.source.files.join(', ')],
     ['Format', report.source.format],
     ['Rows', String(report.source.rows)],
     ['Epochs', String(report.time.epochs)],

@@ -4,6 +4,7 @@ import { describe, expect, it } from 'vitest';
 import type { Report } from '../../extension/core/report';
 import type { SeriesInfo } from '../../extension/protocol';
 import {
+  runSummary,
   anchorRows,
   centreOn,
   channelRows,
@@ -168,5 +169,13 @@ describe('paths and windows', () => {
   it('builds table rows from drawn points', () => {
     const t = tableRows({ x: [0, 1, 2, 3], y: [1, NaN, 3, 4], line: [2, 3, NaN, 5] }, 2);
     expect(t).toEqual({ rows: [['0', '1', '2'], ['2', '3', '–']], total: 4 });
+  });
+});
+
+describe('run summary', () => {
+  it('lists every file the analysis read', () => {
+    const summary = new Map(runSummary({ ...report, source: { ...report.source, files: ['run.csv', 'run.csv.map.json', 'anchors.csv'] } }));
+    expect(summary.get('Log')).toBe('run.csv');
+    expect(summary.get('Files read')).toBe('run.csv, run.csv.map.json, anchors.csv');
   });
 });
