@@ -14,7 +14,9 @@ const common = { bundle: true, sourcemap: !production, minify: production, logLe
 const artifacts = [
   { entryPoints: ['extension/host/extension.ts'], outfile: 'dist/extension.js', platform: 'node', format: 'cjs', target: 'node20', external: ['vscode'] },
   { entryPoints: ['extension/host/analysisWorker.ts'], outfile: 'dist/analysisWorker.js', platform: 'node', format: 'cjs', target: 'node20', external: ['vscode'] },
-  { entryPoints: ['extension/cli/main.ts'], outfile: 'dist/cli.js', platform: 'node', format: 'cjs', target: 'node20', banner: { js: '#!/usr/bin/env node' } },
+  // dist/cli.js is the small launcher (extension/cli/launch.ts) that starts dist/cliMain.js, the tool itself.
+  { entryPoints: ['extension/cli/launch.ts'], outfile: 'dist/cli.js', platform: 'node', format: 'cjs', target: 'node20', banner: { js: '#!/usr/bin/env node' } },
+  { entryPoints: ['extension/cli/main.ts'], outfile: 'dist/cliMain.js', platform: 'node', format: 'cjs', target: 'node20' },
   { entryPoints: ['webview/main.ts'], outfile: 'dist/webview.js', platform: 'browser', format: 'iife', target: 'es2022' },
   { entryPoints: ['scripts/gen-demo.ts'], outfile: 'dist/gen-demo.js', platform: 'node', format: 'cjs', target: 'node20' },
 ].filter((a) => existsSync(a.entryPoints[0]));

@@ -153,12 +153,13 @@ export async function main(argv: string[]): Promise<number> {
   }
 }
 
-if (require.main === module) {
+/** Run the tool on `argv` (without `node` and the script) as the `residuum` command: output, exit status. */
+export function runCommandLine(argv: string[]): void {
   // A closed pipe (`residuum ... | head`) ends the output quietly, not with a stack trace.
   process.stdout.on('error', (e: NodeJS.ErrnoException) => {
     if (e.code === 'EPIPE') process.exit(process.exitCode ?? 0);
   });
-  main(process.argv.slice(2)).then(
+  main(argv).then(
     (code) => {
       process.exitCode = code;
     },
@@ -168,3 +169,6 @@ if (require.main === module) {
     },
   );
 }
+
+// Run directly (`node dist/cliMain.js`, the huge-page child of launch.ts, or a test's own bundle of this file).
+if (require.main === module) runCommandLine(process.argv.slice(2));
