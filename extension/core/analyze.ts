@@ -14,6 +14,7 @@ import { analyzeUwb } from './uwb/index';
 import { analyzeResets, withConfirmedResets } from './resets/index';
 import { finiteJson } from './finite';
 import { emptyScratch } from './scratch';
+import { releaseSlab } from './columnAlloc';
 import { sampledMedianStep } from './stats/median';
 
 /** Version of the tool written into every report (kept in step with package.json by a test). */
@@ -114,6 +115,7 @@ export function analyzeLog(own: NavLog, settings: AnalysisSettings, info: Source
     worst: channels.worst,
   };
   emptyScratch();
+  releaseSlab(); // the next run starts a slab of its own; this one is freed with the last column cut from it
   const clean = timed('finite', () => finiteJson(report) as Report);
   return { report: clean, series: [...channels.series, ...errors.series, ...bias.series, ...uwb.series] };
 }

@@ -9,17 +9,19 @@
  * runs.
  */
 
+import { newFloat64, newInt32 } from './columnAlloc';
+
 const float64: Float64Array[] = [];
 const int32: Int32Array[] = [];
 
 /** A Float64Array work column of at least `n` values (reused when one is free), contents arbitrary. */
 export function takeFloat64(n: number): Float64Array {
-  return take(float64, n) ?? new Float64Array(n);
+  return take(float64, n) ?? newFloat64(n);
 }
 
 /** An Int32Array work column of at least `n` values (reused when one is free), contents arbitrary. */
 export function takeInt32(n: number): Int32Array {
-  return take(int32, n) ?? new Int32Array(n);
+  return take(int32, n) ?? newInt32(n);
 }
 
 /** Give work columns back for the next stage (they must not be read or written by the caller afterwards). */

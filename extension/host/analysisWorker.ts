@@ -129,7 +129,10 @@ function transferable(buffers: ReadonlySet<ArrayBufferLike>): ArrayBuffer[] {
  * A session keeps the log's columns for the next run; transferring them would detach them in the worker.
  */
 export function detachSeries(series: readonly Series[], kept: ReadonlySet<ArrayBufferLike>): { series: Series[]; transfer: ArrayBuffer[] } {
-  const copy = (a: Float64Array | undefined): Float64Array | undefined => (a && kept.has(a.buffer) ? a.slice() : a);
+  // Also copied: a view that covers under half of its buffer (a column cut from a slab, core/columnAlloc.ts, or from
+  // the reader's one block per stream): transferring the buffer would detach its neighbours and ship them along.
+  const copy = (a: Float64Array | undefined): Float64Array | undefined =>
+    (a && (kept.has(a.buffer) || a.byteLength * 2 < a.buffer.byteLength) ? a.slice() : a);
   const out = series.map((s) => {
     const d: Series = { ...s, x: copy(s.x) as Float64Array, y: copy(s.y) as Float64Array };
     if (s.lo) d.lo = copy(s.lo);

@@ -159,6 +159,19 @@ describe('session worker helpers', () => {
     for (let i = 0; i < series.length; i++) expect(Array.from(series[i].y.slice(0, 5))).toEqual(Array.from(r.series[i].y.slice(0, 5)));
   });
 
+  it('copies a series column that is a small view of a larger buffer instead of transferring its neighbours', () => {
+    const block = new Float64Array(1000);
+    const x = block.subarray(0, 100);
+    const y = block.subarray(100, 200);
+    const whole = new Float64Array(50);
+    const { series, transfer } = detachSeries([{ name: 'a', x, y }, { name: 'b', x: whole, y: whole }] as never, new Set());
+    expect(series[0].x).not.toBe(x);
+    expect(series[0].x.buffer).not.toBe(block.buffer);
+    expect(Array.from(series[0].y)).toEqual(Array.from(y));
+    expect(transfer).not.toContain(block.buffer);
+    expect(transfer).toContain(whole.buffer); // a column that is its whole buffer still moves without a copy
+  });
+
   it('words the read for the output channel and the restart for the panel', () => {
     expect(describeRead({ mode: 'tail', start: 100, bytes: 50, total: 150 })).toBe('read bytes 100..150 (50 bytes)');
     expect(describeRead({ mode: 'tail', start: 0, bytes: 90, total: 90, restarted: 'truncated' })).toBe('read bytes 0..90 (90 bytes, from the start: truncated)');

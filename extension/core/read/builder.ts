@@ -110,12 +110,23 @@ export class StreamBuilder {
     this.resize(cap);
   }
 
+  /**
+   * Move every column to room for `cap` records. All the stream's Float64 columns are views of ONE new buffer:
+   * glibc backs a large block with transparent huge pages when asked (see extension/cli/launch.ts), but a 2 MB
+   * column of its own is too small to hold an aligned 2 MiB page, so column by column every first write faulted
+   * 4 KiB at a time (measured: ~0.3 s of the 250,000-row benchmark's read went to page faults).
+   */
   private resize(cap: number): void {
-    const t = new Float64Array(cap); t.set(this.t); this.t = t;
-    const l = new Float64Array(cap); l.set(this.line); this.line = l;
+    let width = 2; // t and line
+    for (const s of this.slots.values()) width += s.width;
+    const block = new Float64Array(cap * width);
+    let offset = 0;
+    const carve = (w: number): Float64Array => block.subarray(offset, (offset += cap * w));
+    const t = carve(1); t.set(this.t); this.t = t;
+    const l = carve(1); l.set(this.line); this.line = l;
     const f = new Uint16Array(cap); f.set(this.fileIndex); this.fileIndex = f;
     for (const s of this.slots.values()) {
-      const a = new Float64Array(cap * s.width);
+      const a = carve(s.width);
       a.set(s.arr);
       a.fill(NaN, this.capacity * s.width);
       s.arr = a;
