@@ -7,7 +7,8 @@ const production = process.argv.includes('--production');
 const watch = process.argv.includes('--watch');
 
 // jsonc-parser's `main` is a UMD build whose lazy require('./impl/...') calls esbuild cannot follow: bundle its ESM build.
-const alias = { 'jsonc-parser': './node_modules/jsonc-parser/lib/esm/main.js' };
+// `debug` (a logger of @stdlib's gammaincinv) is replaced by a no-op shim: see scripts/shims/debug.cjs.
+const alias = { 'jsonc-parser': './node_modules/jsonc-parser/lib/esm/main.js', debug: './scripts/shims/debug.cjs' };
 const common = { bundle: true, sourcemap: !production, minify: production, logLevel: 'warning', legalComments: 'none', alias };
 
 /** Every artifact: entry, output, platform. */

@@ -8,7 +8,7 @@ import { join } from 'node:path';
  * Module aliases shared with scripts/build.mjs: jsonc-parser's `main` is a UMD build whose lazy requires esbuild
  * cannot follow, so its ESM build is bundled.
  */
-export const ALIAS = { 'jsonc-parser': './node_modules/jsonc-parser/lib/esm/main.js' };
+export const ALIAS = { 'jsonc-parser': './node_modules/jsonc-parser/lib/esm/main.js', debug: './scripts/shims/debug.cjs' }; // as scripts/build.mjs
 
 /** Newest modification time (ms) of the .ts files under the given files or folders. */
 export function newestSource(paths) {
