@@ -155,11 +155,30 @@ function blockCovariance(state: StateStream, states: string[], sigmaNames: strin
   return undefined;
 }
 
-/** r - p at the compared epochs, NaN elsewhere (one pass, every value written once). */
-function differenceColumn(r: Float64Array, p: Float64Array, n: number, compared: (k: number) => boolean): Float64Array {
-  const e = new Float64Array(n);
-  for (let k = 0; k < n; k++) e[k] = compared(k) ? r[k] - p[k] : NaN;
-  return e;
+/**
+ * r[c] - p[c] of every component at the compared epochs (inside [w0, w1) with status ALIGN_OK), NaN elsewhere: one
+ * pass writing every value once (a per-epoch predicate closure and one pass per component cost ~40 ms on 250k epochs).
+ */
+function differenceColumns(r: Float64Array[], p: Float64Array[], n: number, w0: number, w1: number, status: Uint8Array): Float64Array[] {
+  const d = r.length;
+  const out: Float64Array[] = [];
+  for (let c = 0; c < d; c++) {
+    const e = new Float64Array(n);
+    e.fill(NaN, 0, w0); e.fill(NaN, w1, n);
+    out.push(e);
+  }
+  if (d === 3) {
+    const [r0, r1, r2] = r, [p0, p1, p2] = p, [e0, e1, e2] = out;
+    for (let k = w0; k < w1; k++) {
+      if (status[k] === ALIGN_OK) { e0[k] = r0[k] - p0[k]; e1[k] = r1[k] - p1[k]; e2[k] = r2[k] - p2[k]; } else e0[k] = e1[k] = e2[k] = NaN;
+    }
+  } else {
+    for (let c = 0; c < d; c++) {
+      const rc = r[c], pc = p[c], e = out[c];
+      for (let k = w0; k < w1; k++) e[k] = status[k] === ALIGN_OK ? rc[k] - pc[k] : NaN;
+    }
+  }
+  return out;
 }
 
 /**
@@ -255,7 +274,6 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     if (refQ) refAtt = attitudeOf(refQ, 'loggedTwice');
   }
   const estAtt = estQRaw ? attitudeOf(estQRaw, 'logged') : undefined;
-  const compared = (k: number): boolean => k >= w0 && k < w1 && status[k] === ALIGN_OK;
 
   // Frame offset and lever arm on the reference positions.
   if (refPos && (off || lever)) {
@@ -284,12 +302,8 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   if (hasPos) {
     const dims = rp[2] && estPos.p[2] ? 3 : 2;
     if (dims === 2) notes.push('position compared in 2-D: no height in the estimate or the reference');
-    const err: Float64Array[] = [];
-    for (let c = 0; c < dims; c++) {
-      const r = rp[c] as Float64Array, p = estPos.p[c] as Float64Array;
-      err.push(differenceColumn(r, p, n, compared));
-      estP.push(p); refP.push(r);
-    }
+    for (let c = 0; c < dims; c++) { estP.push(estPos.p[c] as Float64Array); refP.push(rp[c] as Float64Array); }
+    const err = differenceColumns(refP, estP, n, w0, w1, status);
     const names = ['p_x', 'p_y', 'p_z'].slice(0, dims);
     const cov = blockCovariance(state, names, names.map((s) => `sigma_${s}`));
     blocks.push({ name: 'position', err, neesErr: err, cov });
@@ -297,7 +311,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   // --- velocity --------------------------------------------------------------------------------------------
   if (hasVel) {
-    const err = (estV as Float64Array[]).map((p, c) => differenceColumn(rv[c], p, n, compared));
+    const err = differenceColumns(rv, estV as Float64Array[], n, w0, w1, status);
     const names = ['v_x', 'v_y', 'v_z'].slice(0, velDims);
     if (velDims === 2) notes.push('velocity compared in 2-D: no vertical velocity in the estimate or the reference');
     blocks.push({ name: 'velocity', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
@@ -308,8 +322,10 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     const ex = new Float64Array(n), ey = new Float64Array(n), ez = new Float64Array(n);
     const E = new Float64Array(9), v = new Float64Array(3);
     const Re = scratchA, Rt = scratchB;
-    for (let k = 0; k < n; k++) {
-      if (!compared(k) || !rotationAt(Re, estAtt, k) || !rotationAt(Rt, refAtt, k)) { ex[k] = ey[k] = ez[k] = NaN; continue; }
+    ex.fill(NaN, 0, w0); ey.fill(NaN, 0, w0); ez.fill(NaN, 0, w0);
+    ex.fill(NaN, w1, n); ey.fill(NaN, w1, n); ez.fill(NaN, w1, n);
+    for (let k = w0; k < w1; k++) {
+      if (status[k] !== ALIGN_OK || !rotationAt(Re, estAtt, k) || !rotationAt(Rt, refAtt, k)) { ex[k] = ey[k] = ez[k] = NaN; continue; }
       if (side === 'body') mat3MultiplyTransposeA(E, Re, Rt); else mat3MultiplyTransposeB(E, Rt, Re);
       so3Log(v, E);
       ex[k] = v[0]; ey[k] = v[1]; ez[k] = v[2];
