@@ -12,7 +12,7 @@ import { chi2Interval } from '../stats/chi2';
 import { so3Angle } from '../geometry/so3';
 import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
 import { convergence, SETTLE_FACTOR, type Convergence, type ConvergenceScratch } from './convergence';
-import { ACF_MAX_EPOCHS, errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
+import { neesSummary, normalisedErrorAutocorrelations, neesWindows, windowBoundaries, type NeesWindow } from './nees';
 import {
   defaultDistanceWindow, relativeErrors, type RelativeErrorStats,
 } from './relative';
@@ -259,23 +259,9 @@ function fmt(v: number): string {
   return Math.abs(v) >= 1e-3 && Math.abs(v) < 1e7 ? String(Number(v.toPrecision(4))) : v.toExponential(3);
 }
 
-/**
- * Autocorrelations of the block's normalised error components z = e / sigma over [i0, i1) (nees.ts), with z made
- * only over the epochs the estimate reads (the last ACF_MAX_EPOCHS), into reused scratch columns.
- */
-function normalisedErrorAutocorrelations(b: BlockTrack, i0: number, i1: number): Float64Array[] {
-  const a = Math.max(i0, i1 - ACF_MAX_EPOCHS);
-  const m = Math.max(0, i1 - a);
-  const z = b.neesErr.map((e, c) => {
-    const s = (b.sigma as Float64Array[])[c];
-    const out = takeFloat64(m);
-    if (!s) { out.fill(NaN, 0, m); return out; }
-    for (let k = a; k < i1; k++) out[k - a] = e[k] / s[k];
-    return out;
-  });
-  const rs = errorAutocorrelations(z, 0, m);
-  giveBack(...z);
-  return rs;
+/** Autocorrelations of the block's normalised error components z = e / sigma over [i0, i1) (nees.ts). */
+function blockAutocorrelations(b: BlockTrack, i0: number, i1: number): Float64Array[] {
+  return normalisedErrorAutocorrelations(b.neesErr, b.neesErr.map((_, c) => b.sigma?.[c]), i0, i1);
 }
 
 /** Windowed NEES test of one block across all segments; fills findings and returns the windows. */
@@ -290,7 +276,7 @@ function windowedTest(
   for (let s = 0; s + 1 < segs.length; s++) {
     const i0 = segs[s], i1 = segs[s + 1];
     const bounds = windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
-    const rs = normalisedErrorAutocorrelations(b, i0, i1);
+    const rs = blockAutocorrelations(b, i0, i1);
     perSeg.push({ bounds, rs });
     total += bounds.length - 1;
     if (i1 - i0 > longestLen) { longestLen = i1 - i0; longest = s; }
