@@ -150,10 +150,10 @@ interface ErrorFigures { count: number; rmse?: number; rmse2d?: number; max?: nu
 
 /**
  * RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean, max and mean norm
- * (the first two components are the horizontal ones). With `norm`, also writes each epoch's error norm into it
- * (NaN where a component is not finite), for the convergence.
+ * (the first two components are the horizontal ones). Also writes each epoch's error norm into `norm` (NaN where a
+ * component is not finite), for the convergence.
  */
-function errorFigures(err: Float64Array[], i0: number, i1: number, norm?: Float64Array): ErrorFigures {
+function errorFigures(err: Float64Array[], i0: number, i1: number, norm: Float64Array): ErrorFigures {
   if (err.length === 3) return errorFigures3(err, i0, i1, norm);
   const d = err.length;
   const horiz = 2;
@@ -166,10 +166,10 @@ function errorFigures(err: Float64Array[], i0: number, i1: number, norm?: Float6
       if (!Number.isFinite(e)) { ok = false; break; }
       q += e * e; if (c < horiz) qh += e * e;
     }
-    if (!ok) { if (norm) norm[k] = NaN; continue; }
+    if (!ok) { norm[k] = NaN; continue; }
     for (let c = 0; c < d; c++) { sa[c] += err[c][k] * err[c][k]; ma[c] += err[c][k]; }
     const nrm = Math.sqrt(q);
-    if (norm) norm[k] = nrm;
+    norm[k] = nrm;
     sn += nrm;
     s += q; s2 += qh; cnt++;
     if (nrm > mx) mx = nrm;
@@ -181,21 +181,24 @@ function errorFigures(err: Float64Array[], i0: number, i1: number, norm?: Float6
  * {@link errorFigures} of three components written out (the general loop over components was ~45 ms on 250k
  * epochs and three blocks): the same sums in the same order, so the same figures.
  */
-function errorFigures3(err: Float64Array[], i0: number, i1: number, norm?: Float64Array): ErrorFigures {
+function errorFigures3(err: Float64Array[], i0: number, i1: number, norm: Float64Array): ErrorFigures {
   const [x, y, z] = err;
   let s = 0, s2 = 0, mx = 0, cnt = 0, sn = 0;
   let sa0 = 0, sa1 = 0, sa2 = 0, ma0 = 0, ma1 = 0, ma2 = 0;
+  // one store per epoch whatever the branch (see track.ts on the loops of this stage)
   for (let k = i0; k < i1; k++) {
     const e0 = x[k], e1 = y[k], e2 = z[k];
-    if (!(Number.isFinite(e0) && Number.isFinite(e1) && Number.isFinite(e2))) { if (norm) norm[k] = NaN; continue; }
-    const q0 = e0 * e0, q1 = e1 * e1, q2 = e2 * e2;
-    const qh = q0 + q1, q = qh + q2;
-    sa0 += q0; sa1 += q1; sa2 += q2; ma0 += e0; ma1 += e1; ma2 += e2;
-    const nrm = Math.sqrt(q);
-    if (norm) norm[k] = nrm;
-    sn += nrm;
-    s += q; s2 += qh; cnt++;
-    if (nrm > mx) mx = nrm;
+    let nrm = NaN;
+    if (Number.isFinite(e0) && Number.isFinite(e1) && Number.isFinite(e2)) {
+      const q0 = e0 * e0, q1 = e1 * e1, q2 = e2 * e2;
+      const qh = q0 + q1, q = qh + q2;
+      sa0 += q0; sa1 += q1; sa2 += q2; ma0 += e0; ma1 += e1; ma2 += e2;
+      nrm = Math.sqrt(q);
+      sn += nrm;
+      s += q; s2 += qh; cnt++;
+      if (nrm > mx) mx = nrm;
+    }
+    norm[k] = nrm;
   }
   return figuresOf(cnt, s, s2, mx, sn, [sa0, sa1, sa2], [ma0, ma1, ma2]);
 }
@@ -544,7 +547,7 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
       const i0 = segs[s], i1 = segs[s + 1];
       if (i1 <= i0) continue;
       const whole = i0 === w0 && i1 === w1;
-      const fs = whole ? f : errorFigures(b.err, i0, i1);
+      const fs = whole ? f : errorFigures(b.err, i0, i1, norm); // the same norms again
       const conv = convergence(t_s, norm, i0, i1, smooth_s, scratch);
       const ns = b.nees ? (whole ? summary : neesSummary(b.nees, dof, settings.confidence, i0, i1)) : undefined;
       segFigures.push({ f: fs, conv, ...(ns && ns.count > 0 ? { nees: { mean: ns.mean, inside95: ns.inside95 } } : {}) });

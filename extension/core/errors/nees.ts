@@ -83,15 +83,11 @@ function neesSeriesSigma3(err: Float64Array[], sigma: Float64Array[], length: nu
   const out = new Float64Array(length);
   const [e0, e1, e2] = err, [s0, s1, s2] = sigma;
   for (let k = 0; k < length; k++) {
-    const v0 = e0[k], v1 = e1[k], v2 = e2[k];
-    if (!(Number.isFinite(v0) && Number.isFinite(v1) && Number.isFinite(v2))) { out[k] = NaN; continue; }
-    const a = s0[k], b = s1[k], c = s2[k];
-    if (!(a > 0) || !Number.isFinite(a) || !(b > 0) || !Number.isFinite(b) || !(c > 0) || !Number.isFinite(c)) { out[k] = NaN; continue; }
-    let q = 0;
-    q += (v0 / a) * (v0 / a);
-    q += (v1 / b) * (v1 / b);
-    q += (v2 / c) * (v2 / c);
-    out[k] = q;
+    const v0 = e0[k], v1 = e1[k], v2 = e2[k], a = s0[k], b = s1[k], c = s2[k];
+    const ok = Number.isFinite(v0) && Number.isFinite(v1) && Number.isFinite(v2) &&
+      a > 0 && Number.isFinite(a) && b > 0 && Number.isFinite(b) && c > 0 && Number.isFinite(c);
+    // 0 + x = x for the first (non-negative) term: the general loop's sum, one store for both branches (track.ts)
+    out[k] = ok ? (v0 / a) * (v0 / a) + (v1 / b) * (v1 / b) + (v2 / c) * (v2 / c) : NaN;
   }
   return out;
 }

@@ -155,6 +155,54 @@ function blockCovariance(state: StateStream, states: string[], sigmaNames: strin
   return undefined;
 }
 
+/*
+ * The per-epoch loops below are small functions of one loop each, with one store per value whatever the branch:
+ * this stage runs once per process, and V8 compiles a hot loop only after a few thousand slow iterations; a loop in a
+ * long function, or followed by code that has not run yet, or a rare branch with its own stores (a missing epoch)
+ * sends it back to the slow tier for thousands more. Measured on 250k epochs: that was most of the stage's time.
+ */
+
+/** ALIGN_OK where every present reference position component is finite, ALIGN_IN_GAP elsewhere. */
+function positionStatus(p: (Float64Array | undefined)[], n: number): Uint8Array {
+  const status = new Uint8Array(n);
+  const [c0, c1, c2] = p;
+  for (let k = 0; k < n; k++) {
+    const ok = (!c0 || Number.isFinite(c0[k])) && (!c1 || Number.isFinite(c1[k])) && (!c2 || Number.isFinite(c2[k]));
+    status[k] = ok ? ALIGN_OK : ALIGN_IN_GAP;
+  }
+  return status;
+}
+
+/** ALIGN_OK where the attitude is usable (all ALIGN_OK without one), ALIGN_IN_GAP elsewhere. */
+function attitudeStatus(att: AttitudeColumns | undefined, n: number): Uint8Array {
+  const status = new Uint8Array(n);
+  for (let k = 0; k < n; k++) status[k] = !att || rotationAt(scratchA, att, k) ? ALIGN_OK : ALIGN_IN_GAP;
+  return status;
+}
+
+/**
+ * Orientation error (rotation vector, rad) per epoch: navigation side Log(R_true R_est^T), body side
+ * Log(R_est^T R_true); NaN where not compared or either attitude is unusable.
+ */
+function orientationErrors(estAtt: AttitudeColumns, refAtt: AttitudeColumns, status: Uint8Array, n: number, w0: number, w1: number,
+  side: 'nav' | 'body'): Float64Array[] {
+  const ex = new Float64Array(n), ey = new Float64Array(n), ez = new Float64Array(n);
+  const E = new Float64Array(9), v = new Float64Array(3);
+  const Re = scratchA, Rt = scratchB;
+  ex.fill(NaN, 0, w0); ey.fill(NaN, 0, w0); ez.fill(NaN, 0, w0);
+  ex.fill(NaN, w1, n); ey.fill(NaN, w1, n); ez.fill(NaN, w1, n);
+  const body = side === 'body';
+  for (let k = w0; k < w1; k++) {
+    const ok = status[k] === ALIGN_OK && rotationAt(Re, estAtt, k) && rotationAt(Rt, refAtt, k);
+    if (ok) {
+      if (body) mat3MultiplyTransposeA(E, Re, Rt); else mat3MultiplyTransposeB(E, Rt, Re);
+      so3Log(v, E);
+    }
+    ex[k] = ok ? v[0] : NaN; ey[k] = ok ? v[1] : NaN; ez[k] = ok ? v[2] : NaN;
+  }
+  return [ex, ey, ez];
+}
+
 /**
  * r[c] - p[c] of every component at the compared epochs (inside [w0, w1) with status ALIGN_OK), NaN elsewhere: one
  * pass writing every value once (a per-epoch predicate closure and one pass per component cost ~40 ms on 250k epochs).
@@ -170,7 +218,8 @@ function differenceColumns(r: Float64Array[], p: Float64Array[], n: number, w0: 
   if (d === 3) {
     const [r0, r1, r2] = r, [p0, p1, p2] = p, [e0, e1, e2] = out;
     for (let k = w0; k < w1; k++) {
-      if (status[k] === ALIGN_OK) { e0[k] = r0[k] - p0[k]; e1[k] = r1[k] - p1[k]; e2[k] = r2[k] - p2[k]; } else e0[k] = e1[k] = e2[k] = NaN;
+      const ok = status[k] === ALIGN_OK;
+      e0[k] = ok ? r0[k] - p0[k] : NaN; e1[k] = ok ? r1[k] - p1[k] : NaN; e2[k] = ok ? r2[k] - p2[k] : NaN;
     }
   } else {
     for (let c = 0; c < d; c++) {
@@ -259,15 +308,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   } else {
     // The reference is in the estimate's own records: every epoch is its own bracket, so its columns are read in
     // place (no interpolated copies); an epoch is compared when its reference position (or attitude) is there.
-    status = new Uint8Array(n);
-    const [c0, c1, c2] = refPos ? refPos.p : [];
-    const qAtt = !refPos && refQ ? attitudeOf(refQ, 'logged') : undefined;
-    for (let k = 0; k < n; k++) {
-      let ok = true;
-      if (refPos) ok = (!c0 || Number.isFinite(c0[k])) && (!c1 || Number.isFinite(c1[k])) && (!c2 || Number.isFinite(c2[k]));
-      else if (qAtt) ok = rotationAt(scratchA, qAtt, k);
-      status[k] = ok ? ALIGN_OK : ALIGN_IN_GAP;
-    }
+    status = refPos ? positionStatus(refPos.p, n) : attitudeStatus(refQ ? attitudeOf(refQ, 'logged') : undefined, n);
     // The frame offset and lever arm below change the reference positions: they get their own copy then.
     rp = refPos ? refPos.p.map((c) => (c && (off || lever) ? c.slice(0, n) : c)) : [];
     rv = hasVel ? (refV as Float64Array[]) : [];
@@ -319,18 +360,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   // --- orientation -----------------------------------------------------------------------------------------
   if (hasAtt && estAtt && refAtt) {
-    const ex = new Float64Array(n), ey = new Float64Array(n), ez = new Float64Array(n);
-    const E = new Float64Array(9), v = new Float64Array(3);
-    const Re = scratchA, Rt = scratchB;
-    ex.fill(NaN, 0, w0); ey.fill(NaN, 0, w0); ez.fill(NaN, 0, w0);
-    ex.fill(NaN, w1, n); ey.fill(NaN, w1, n); ez.fill(NaN, w1, n);
-    for (let k = w0; k < w1; k++) {
-      if (status[k] !== ALIGN_OK || !rotationAt(Re, estAtt, k) || !rotationAt(Rt, refAtt, k)) { ex[k] = ey[k] = ez[k] = NaN; continue; }
-      if (side === 'body') mat3MultiplyTransposeA(E, Re, Rt); else mat3MultiplyTransposeB(E, Rt, Re);
-      so3Log(v, E);
-      ex[k] = v[0]; ey[k] = v[1]; ez[k] = v[2];
-    }
-    const err = [ex, ey, ez];
+    const err = orientationErrors(estAtt, refAtt, status, n, w0, w1, side);
     const names = ['att_x', 'att_y', 'att_z'];
     blocks.push({ name: 'orientation', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
   }
