@@ -43,13 +43,18 @@ export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i
   scratch?: ConvergenceScratch): Convergence {
   const len = Math.max(0, i1 - i0);
   const idx = scratch && scratch.idx.length >= len ? scratch.idx : new Int32Array(len);
-  const count = finiteEpochs(t_s, norm, i0, i1, idx);
-  if (count < 4) return {};
+  // the last usable epoch first, so that one pass lists the usable epochs and sums the steady state's squares
+  let last = i1 - 1;
+  while (last >= i0 && !(Number.isFinite(norm[last]) && Number.isFinite(t_s[last]))) last--;
+  if (last < i0) return {};
   const tStart = t_s[i0];
-  const tEnd = t_s[idx[count - 1]];
+  const tEnd = t_s[last];
   const half = tStart + (tEnd - tStart) / 2;
-  const steady = rmsFrom(t_s, norm, idx, count, half);
-  if (Number.isNaN(steady)) return {};
+  const sums = new Float64Array(2);
+  const count = finiteEpochs(t_s, norm, i0, i1, idx, half, sums);
+  if (count < 4) return {};
+  if (sums[1] === 0) return {};
+  const steady = Math.sqrt(sums[0] / sums[1]);
   // trailing RMS over smooth_s (two pointers)
   const level = scratch && scratch.level.length >= len ? scratch.level : new Float64Array(len);
   const limit = SETTLE_FACTOR * steady;
@@ -76,21 +81,22 @@ export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i
 // One loop per function below: this stage runs once per process, and a loop followed by code that has not run yet
 // falls back to V8's slow tier for thousands of epochs (see track.ts).
 
-/** Epochs of [i0, i1) with a finite norm and time, ascending, into idx; returns their count. */
-function finiteEpochs(t_s: Float64Array, norm: Float64Array, i0: number, i1: number, idx: Int32Array): number {
-  let count = 0;
+/**
+ * Epochs of [i0, i1) with a finite norm and time, ascending, into idx; returns their count. The sum of the squared
+ * norms of those at or after `from` into sums[0], their count into sums[1].
+ */
+function finiteEpochs(t_s: Float64Array, norm: Float64Array, i0: number, i1: number, idx: Int32Array, from: number, sums: Float64Array): number {
+  let count = 0, ss = 0, sc = 0;
   for (let k = i0; k < i1; k++) {
     idx[count] = k;
-    if (Number.isFinite(norm[k]) && Number.isFinite(t_s[k])) count++;
+    const v = norm[k], t = t_s[k];
+    if (Number.isFinite(v) && Number.isFinite(t)) {
+      count++;
+      if (t >= from) { ss += v * v; sc++; }
+    }
   }
+  sums[0] = ss; sums[1] = sc;
   return count;
-}
-
-/** Root mean square of the norms of the listed epochs at or after `from`; NaN when there is none. */
-function rmsFrom(t_s: Float64Array, norm: Float64Array, idx: Int32Array, count: number, from: number): number {
-  let ss = 0, sc = 0;
-  for (let m = 0; m < count; m++) { const k = idx[m]; if (t_s[k] >= from) { ss += norm[k] * norm[k]; sc++; } }
-  return sc === 0 ? NaN : Math.sqrt(ss / sc);
 }
 
 /**

@@ -154,7 +154,6 @@ interface ErrorFigures { count: number; rmse?: number; rmse2d?: number; max?: nu
  * component is not finite), for the convergence.
  */
 function errorFigures(err: Float64Array[], i0: number, i1: number, norm: Float64Array): ErrorFigures {
-  if (err.length === 3) return errorFigures3(err, i0, i1, norm);
   const d = err.length;
   const horiz = 2;
   let s = 0, s2 = 0, mx = 0, cnt = 0, sn = 0;
@@ -177,30 +176,85 @@ function errorFigures(err: Float64Array[], i0: number, i1: number, norm: Float64
   return figuresOf(cnt, s, s2, mx, sn, sa, ma);
 }
 
+/** One pass's results: {@link errorFigures}, and over the same epochs the +-3 sigma shares and the NEES summary. */
+interface WindowPass { f: ErrorFigures; within?: (number | null)[]; nees?: ReturnType<typeof neesSummary> }
+
 /**
- * {@link errorFigures} of three components written out (the general loop over components was ~45 ms on 250k
- * epochs and three blocks): the same sums in the same order, so the same figures.
+ * {@link errorFigures}, {@link within3Sigma} and {@link neesSummary} of a block over [i0, i1): in one pass over
+ * the columns when the block has three components whose NEES error is the raw one (the usual case: each of the three
+ * was a pass of ~5 ms over 250k epochs), else the three functions. Same sums in the same order either way.
  */
-function errorFigures3(err: Float64Array[], i0: number, i1: number, norm: Float64Array): ErrorFigures {
+function windowPass(b: BlockTrack, i0: number, i1: number, confidence: number, norm: Float64Array): WindowPass {
+  const sigma = b.sigma;
+  const dof = b.neesErr.length;
+  if (b.err.length !== 3 || b.neesErr !== b.err || (sigma && !(sigma[0] && sigma[1] && sigma[2]))) {
+    return {
+      f: errorFigures(b.err, i0, i1, norm), within: within3Sigma(b, i0, i1),
+      nees: b.nees ? neesSummary(b.nees, dof, confidence, i0, i1) : undefined,
+    };
+  }
+  const [lo, hi] = chi2Interval(confidence, dof);
+  const o = new Float64Array(WINDOW_PASS_FIGURES);
+  windowPass3(b.err, sigma, b.nees, lo, hi, i0, i1, norm, o);
+  const f = figuresOf(o[0], o[1], o[2], o[3], o[4], [o[5], o[6], o[7]], [o[8], o[9], o[10]]);
+  const within = sigma ? [0, 1, 2].map((c) => (o[14 + c] > 0 ? o[11 + c] / o[14 + c] : null)) : undefined;
+  const cnt = o[18];
+  const nees = b.nees
+    ? (cnt > 0 ? { dof, mean: o[17] / cnt, inside95: o[19] / cnt, bounds95: [lo, hi] as [number, number], count: cnt } : { dof, bounds95: [lo, hi] as [number, number], count: 0 })
+    : undefined;
+  return { f, within, nees };
+}
+
+/** Length of the figures column of {@link windowPass3}. */
+const WINDOW_PASS_FIGURES = 20;
+
+/**
+ * The loop of {@link windowPass} (a function of its own: see track.ts). Into `o`: [0] count, [1] sum |e|^2,
+ * [2] sum of horizontal |e|^2, [3] max |e|, [4] sum |e|, [5..8) sum e_c^2, [8..11) sum e_c, [11..14) epochs within
+ * 3 sigma per component, [14..17) epochs with e_c and a positive sigma_c, [17] NEES sum, [18] NEES count,
+ * [19] NEES inside [lo, hi]. Writes each epoch's error norm into `norm` (NaN where a component is not finite).
+ */
+function windowPass3(err: Float64Array[], sigma: Float64Array[] | undefined, nees: Float64Array | undefined, lo: number, hi: number,
+  i0: number, i1: number, norm: Float64Array, o: Float64Array): void {
   const [x, y, z] = err;
-  let s = 0, s2 = 0, mx = 0, cnt = 0, sn = 0;
+  const withSigma = !!sigma;
+  const [s0, s1, s2] = sigma ?? err;
+  const withNees = !!nees;
+  const nv = nees ?? x;
+  let s = 0, sh = 0, mx = 0, cnt = 0, sn = 0;
   let sa0 = 0, sa1 = 0, sa2 = 0, ma0 = 0, ma1 = 0, ma2 = 0;
-  // one store per epoch whatever the branch (see track.ts on the loops of this stage)
+  let in0 = 0, in1 = 0, in2 = 0, c0 = 0, c1 = 0, c2 = 0;
+  let ns = 0, nc = 0, ni = 0;
   for (let k = i0; k < i1; k++) {
     const e0 = x[k], e1 = y[k], e2 = z[k];
+    const f0 = Number.isFinite(e0), f1 = Number.isFinite(e1), f2 = Number.isFinite(e2);
+    // one store per epoch whatever the branch (see track.ts)
     let nrm = NaN;
-    if (Number.isFinite(e0) && Number.isFinite(e1) && Number.isFinite(e2)) {
+    if (f0 && f1 && f2) {
       const q0 = e0 * e0, q1 = e1 * e1, q2 = e2 * e2;
       const qh = q0 + q1, q = qh + q2;
       sa0 += q0; sa1 += q1; sa2 += q2; ma0 += e0; ma1 += e1; ma2 += e2;
       nrm = Math.sqrt(q);
       sn += nrm;
-      s += q; s2 += qh; cnt++;
+      s += q; sh += qh; cnt++;
       if (nrm > mx) mx = nrm;
     }
     norm[k] = nrm;
+    if (withSigma) {
+      const g0 = s0[k], g1 = s1[k], g2 = s2[k];
+      if (f0 && g0 > 0) { c0++; if (Math.abs(e0) <= 3 * g0) in0++; }
+      if (f1 && g1 > 0) { c1++; if (Math.abs(e1) <= 3 * g1) in1++; }
+      if (f2 && g2 > 0) { c2++; if (Math.abs(e2) <= 3 * g2) in2++; }
+    }
+    if (withNees) {
+      const v = nv[k];
+      if (Number.isFinite(v)) { ns += v; nc++; if (v >= lo && v <= hi) ni++; }
+    }
   }
-  return figuresOf(cnt, s, s2, mx, sn, [sa0, sa1, sa2], [ma0, ma1, ma2]);
+  o[0] = cnt; o[1] = s; o[2] = sh; o[3] = mx; o[4] = sn;
+  o[5] = sa0; o[6] = sa1; o[7] = sa2; o[8] = ma0; o[9] = ma1; o[10] = ma2;
+  o[11] = in0; o[12] = in1; o[13] = in2; o[14] = c0; o[15] = c1; o[16] = c2;
+  o[17] = ns; o[18] = nc; o[19] = ni;
 }
 
 function figuresOf(cnt: number, s: number, s2: number, mx: number, sn: number, sa: number[], ma: number[]): ErrorFigures {
@@ -269,16 +323,17 @@ function blockAutocorrelations(b: BlockTrack, i0: number, i1: number): Float64Ar
 
 /** Windowed NEES test of one block across all segments; fills findings and returns the windows. */
 function windowedTest(
-  track: ErrorTrack, b: BlockTrack, segs: number[], settings: AnalysisSettings, findings: Finding[],
+  track: ErrorTrack, b: BlockTrack, segs: Segments, settings: AnalysisSettings, findings: Finding[],
 ): { windows: NeesWindow[]; alpha: number; correlationFactor?: number } {
   const nees = b.nees as Float64Array;
   const dof = b.neesErr.length;
   const perSeg: { bounds: number[]; rs: Float64Array[] }[] = [];
   let total = 0;
   let longest = -1, longestLen = 0, correlationFactor: number | undefined;
-  for (let s = 0; s + 1 < segs.length; s++) {
-    const i0 = segs[s], i1 = segs[s + 1];
-    const bounds = windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
+  for (let s = 0; s + 1 < segs.bounds.length; s++) {
+    const i0 = segs.bounds[s], i1 = segs.bounds[s + 1];
+    // the same windows for every block: made once per segment
+    const bounds = segs.windows[s] ??= windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
     const rs = blockAutocorrelations(b, i0, i1);
     perSeg.push({ bounds, rs });
     total += bounds.length - 1;
@@ -327,7 +382,10 @@ function windowedTest(
 }
 
 /** NEES figures of one block, from the summary of its NEES over the window (neesSummary). */
-function neesFigures(track: ErrorTrack, b: BlockTrack, sum: ReturnType<typeof neesSummary> | undefined, segs: number[], settings: AnalysisSettings,
+/** Segment boundaries (epoch indices) and, made on first use, the NEES window boundaries of each segment. */
+interface Segments { bounds: number[]; windows: (number[] | undefined)[] }
+
+function neesFigures(track: ErrorTrack, b: BlockTrack, sum: ReturnType<typeof neesSummary> | undefined, segs: Segments, settings: AnalysisSettings,
   findings: Finding[], series: Series[]): NeesFigures | undefined {
   if (!b.nees || !sum) return undefined;
   const dof = b.neesErr.length;
@@ -501,6 +559,7 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     else compared++;
   }
   const segs = segmentBounds(t_s, w0, w1, log.resets);
+  const segments: Segments = { bounds: segs, windows: [] };
   const smooth_s = settings.window_s / 5;
 
   const block: ErrorsBlock = {
@@ -520,12 +579,10 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
   const scratch: ConvergenceScratch = { idx: takeInt32(w1 - w0), level: takeFloat64(w1 - w0) };
   const perSegment: { f: ErrorFigures; conv: Convergence; nees?: { mean?: number; inside95?: number } }[][] = [];
   for (const b of track.blocks) {
-    const f = errorFigures(b.err, w0, w1, norm);
+    const { f, within: w3, nees: summary } = windowPass(b, w0, w1, settings.confidence, norm);
     const dof = b.neesErr.length;
-    const summary = b.nees ? neesSummary(b.nees, dof, settings.confidence, w0, w1) : undefined;
-    const nees = neesFigures(track, b, summary, segs, settings, findings, series);
+    const nees = neesFigures(track, b, summary, segments, settings, findings, series);
     errorSeries(track, b, series);
-    const w3 = within3Sigma(b, w0, w1);
     if (w3) block.within3Sigma[b.name] = w3;
     if (b.name === 'position') {
       block.position = {
@@ -547,9 +604,10 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
       const i0 = segs[s], i1 = segs[s + 1];
       if (i1 <= i0) continue;
       const whole = i0 === w0 && i1 === w1;
-      const fs = whole ? f : errorFigures(b.err, i0, i1, norm); // the same norms again
+      const seg = whole ? undefined : windowPass(b, i0, i1, settings.confidence, norm); // the same norms again
+      const fs = seg ? seg.f : f;
       const conv = convergence(t_s, norm, i0, i1, smooth_s, scratch);
-      const ns = b.nees ? (whole ? summary : neesSummary(b.nees, dof, settings.confidence, i0, i1)) : undefined;
+      const ns = seg ? seg.nees : summary;
       segFigures.push({ f: fs, conv, ...(ns && ns.count > 0 ? { nees: { mean: ns.mean, inside95: ns.inside95 } } : {}) });
     }
     perSegment.push(segFigures);

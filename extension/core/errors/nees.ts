@@ -140,27 +140,21 @@ function autocorrelationsOf(num: Float64Array[], den: (Float64Array | undefined)
   const out: number[][] = num.map(() => []);
   if (maxLag < 1 || nc === 0) return out.map((r) => Float64Array.from(r));
   const vars: number[] = [];
+  const sums = new Float64Array(4);
   const centred: (Float64Array | undefined)[] = [];
   const gaps: boolean[] = [];
   for (let i = 0; i < nc; i++) {
     const c = num[i];
     const sd = den ? den[i] : undefined;
     if (den && !sd) { vars.push(NaN); centred.push(undefined); gaps.push(true); continue; }
-    let s = 0, cnt = 0;
-    for (let k = i0; k < i1; k++) { const v = sd ? c[k] / sd[k] : c[k]; if (Number.isFinite(v)) { s += v; cnt++; } }
-    const mean = cnt > 0 ? s / cnt : NaN;
+    const mean = finiteMean(c, sd, i0, i1);
     const d = takeFloat64(m);
-    let ss = 0, cnt2 = 0;
-    for (let k = i0; k < i1; k++) {
-      const v = sd ? c[k] / sd[k] : c[k];
-      if (Number.isFinite(v)) { const dv = v - mean; ss += dv * dv; cnt2++; d[k - i0] = dv; } else d[k - i0] = NaN;
-    }
-    const variance = cnt2 > 1 ? ss / cnt2 : NaN;
+    const cnt2 = centre(c, sd, i0, i1, mean, d, sums);
+    const variance = cnt2 > 1 ? sums[0] / cnt2 : NaN;
     vars.push(variance);
     if (variance > 0) { centred.push(d); gaps.push(cnt2 < m); } else { giveBack(d); centred.push(undefined); gaps.push(true); }
   }
   const r = new Float64Array(4 * nc);
-  const sums = new Float64Array(4);
   let lag = 1;
   done: while (lag <= maxLag) {
     const B = Math.min(4, maxLag - lag + 1);
@@ -179,6 +173,33 @@ function autocorrelationsOf(num: Float64Array[], den: (Float64Array | undefined)
   }
   giveBack(...centred);
   return out.map((rr) => Float64Array.from(rr));
+}
+
+// One loop per function below: the stage runs once per process, and V8 compiles a long loop well only when it is
+// alone in its function (see track.ts).
+
+/** Mean of the finite z = num / den (den absent: z = num) over [i0, i1); NaN when there is none. */
+function finiteMean(num: Float64Array, den: Float64Array | undefined, i0: number, i1: number): number {
+  let s = 0, cnt = 0;
+  for (let k = i0; k < i1; k++) { const v = den ? num[k] / den[k] : num[k]; if (Number.isFinite(v)) { s += v; cnt++; } }
+  return cnt > 0 ? s / cnt : NaN;
+}
+
+/**
+ * d[k - i0] = z - mean where z = num / den is finite, NaN elsewhere; the sum of squares into out[0]; returns the
+ * count of finite z.
+ */
+function centre(num: Float64Array, den: Float64Array | undefined, i0: number, i1: number, mean: number, d: Float64Array, out: Float64Array): number {
+  let ss = 0, cnt = 0;
+  for (let k = i0; k < i1; k++) {
+    const v = den ? num[k] / den[k] : num[k];
+    const ok = Number.isFinite(v);
+    const dv = v - mean;
+    if (ok) { ss += dv * dv; cnt++; }
+    d[k - i0] = ok ? dv : NaN;
+  }
+  out[0] = ss;
+  return cnt;
 }
 
 /**
@@ -363,8 +384,8 @@ export function neesWindows(
   const half = (1 - confidence) / 2;
   for (let w = 0; w + 1 < bounds.length; w++) {
     const a0 = bounds[w], b0 = bounds[w + 1];
-    let s = 0, cnt = 0;
-    for (let k = a0; k < b0; k++) if (Number.isFinite(nees[k])) { s += nees[k]; cnt++; }
+    const s = finiteSum(nees, a0, b0, windowCount);
+    const cnt = windowCount[0];
     if (cnt < 2) continue;
     let ap = cache.get(cnt);
     if (!ap) {
@@ -395,6 +416,16 @@ export function neesWindows(
     });
   }
   return out;
+}
+
+const windowCount = new Float64Array(1);
+
+/** Sum of the finite values of v over [i0, i1), their count into count[0] (a function of its own: see track.ts). */
+function finiteSum(v: Float64Array, i0: number, i1: number, count: Float64Array): number {
+  let s = 0, cnt = 0;
+  for (let k = i0; k < i1; k++) if (Number.isFinite(v[k])) { s += v[k]; cnt++; }
+  count[0] = cnt;
+  return s;
 }
 
 /** Summary of a NEES sequence over [i0, i1): mean and share inside the per-epoch `confidence` interval. */

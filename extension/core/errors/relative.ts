@@ -159,24 +159,60 @@ export interface RelativeErrors {
  * @param distanceFor the distance window for the reference path length (e.g. {@link defaultDistanceWindow})
  */
 export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_s: number, distanceFor: (pathLength_m: number) => number): RelativeErrors {
-  const { t_s, use, ref } = inp;
-  const n = use.length;
+  const n = inp.use.length;
   const s = takeFloat64(n);
-  s[0] = 0;
-  for (let p = 1; p < n; p++) {
-    let d2 = 0;
-    for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
-    s[p] = s[p - 1] + Math.sqrt(d2);
-  }
+  cumulativePath(inp.ref, inp.use, s);
   const pathLength_m = n > 0 ? s[n - 1] : 0;
   const D = distanceFor(pathLength_m);
   const withDistance = D > 0;
   const tol = Math.max(window_s / 10, Number.isFinite(medianStep_s) ? medianStep_s : 0);
   const errsT = scratchFor(inp);
   const errsD = withDistance ? takeFloat64(n) : errsT;
+  const counts = new Float64Array(2);
+  pairErrors(inp, s, window_s, tol, D, errsT, errsD, counts);
+  const countT = counts[0], countD = counts[1];
+  const out = {
+    time: stats(errsT, countT), ...(withDistance ? { distance: stats(errsD, countD) } : {}), distance_m: D, pathLength_m,
+  };
+  giveBack(s, withDistance ? errsD : undefined);
+  return out;
+}
+
+// One loop per function below: the stage runs once per process, and V8 compiles a long loop well only when it is
+// alone in its function (see track.ts).
+
+/** Reference path length from the first used epoch to each used epoch, into s. */
+function cumulativePath(ref: Float64Array[], use: ArrayLike<number>, s: Float64Array): void {
+  const n = use.length;
+  if (n > 0) s[0] = 0;
+  if (ref.length === 3) {
+    // 0 + x = x for the first (non-negative) square: the general loop's sum
+    const [c0, c1, c2] = ref;
+    for (let p = 1; p < n; p++) {
+      const i = use[p], h = use[p - 1];
+      const d0 = c0[i] - c0[h], d1 = c1[i] - c1[h], d2 = c2[i] - c2[h];
+      s[p] = s[p - 1] + Math.sqrt(d0 * d0 + d1 * d1 + d2 * d2);
+    }
+    return;
+  }
+  for (let p = 1; p < n; p++) {
+    let d2 = 0;
+    for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
+    s[p] = s[p - 1] + Math.sqrt(d2);
+  }
+}
+
+/**
+ * The pairs of both windows in one pass over the start epochs (the attitudes at each start computed once for both):
+ * time-window errors into errsT, distance-window errors (D > 0) into errsD, their counts into counts[0], counts[1].
+ */
+function pairErrors(inp: RelativeInput, s: Float64Array, window_s: number, tol: number, D: number, errsT: Float64Array,
+  errsD: Float64Array, counts: Float64Array): void {
+  const { t_s, use } = inp;
+  const n = use.length;
   let countT = 0, countD = 0;
   let qT = 0, qD = 0;
-  let timeDone = false, distanceDone = !withDistance;
+  let timeDone = false, distanceDone = !(D > 0);
   const hasAtt = !!inp.estAtt && !!inp.refAtt && inp.est.length === 3;
   for (let p = 0; p < n && !(timeDone && distanceDone); p++) {
     const i = use[p];
@@ -201,11 +237,7 @@ export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_
     if (jT >= 0) { const e = pairErrorWith(inp, i, jT, rotated); if (Number.isFinite(e)) errsT[countT++] = e; }
     if (jD >= 0) { const e = pairErrorWith(inp, i, jD, rotated); if (Number.isFinite(e)) errsD[countD++] = e; }
   }
-  const out = {
-    time: stats(errsT, countT), ...(withDistance ? { distance: stats(errsD, countD) } : {}), distance_m: D, pathLength_m,
-  };
-  giveBack(s, withDistance ? errsD : undefined);
-  return out;
+  counts[0] = countT; counts[1] = countD;
 }
 
 /** Reference path length over the used epochs, metres. */
