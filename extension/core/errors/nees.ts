@@ -44,12 +44,14 @@ export interface BlockCovariance {
 
 /**
  * NEES per epoch of the error components `err` (each a column) under `cov`. NaN where an error component, a
- * sigma or the covariance is missing or not positive definite. No allocation per epoch.
+ * sigma or the covariance is missing or not positive definite. No allocation per epoch. Written into `into` when it
+ * is `length` long (any contents), else into a new column.
  */
-export function neesSeries(err: Float64Array[], cov: BlockCovariance, length: number): Float64Array {
+export function neesSeries(err: Float64Array[], cov: BlockCovariance, length: number, into?: Float64Array): Float64Array {
   const n = err.length;
-  if (n === 3 && cov.sigma && !cov.full) return neesSeriesSigma3(err, cov.sigma, length);
-  const out = new Float64Array(length).fill(NaN);
+  const out = into && into.length === length ? into : new Float64Array(length);
+  if (n === 3 && cov.sigma && !cov.full) return neesSeriesSigma3(err, cov.sigma, length, out);
+  out.fill(NaN);
   const v = new Float64Array(n);
   const a = new Float64Array(n * n);
   const work = new Float64Array(n * n + n);
@@ -79,8 +81,7 @@ export function neesSeries(err: Float64Array[], cov: BlockCovariance, length: nu
  * {@link neesSeries} of three components with 1-sigma columns, written out: one pass that writes every value once
  * (the general loop's pre-fill and per-component inner loops cost ~3x on a long log); the same sum in the same order.
  */
-function neesSeriesSigma3(err: Float64Array[], sigma: Float64Array[], length: number): Float64Array {
-  const out = new Float64Array(length);
+function neesSeriesSigma3(err: Float64Array[], sigma: Float64Array[], length: number, out: Float64Array): Float64Array {
   const [e0, e1, e2] = err, [s0, s1, s2] = sigma;
   for (let k = 0; k < length; k++) {
     const v0 = e0[k], v1 = e1[k], v2 = e2[k], a = s0[k], b = s1[k], c = s2[k];
@@ -92,12 +93,16 @@ function neesSeriesSigma3(err: Float64Array[], sigma: Float64Array[], length: nu
   return out;
 }
 
-/** 1-sigma of component `i` per epoch from a block covariance (sqrt of the diagonal of P when full). */
-export function componentSigma(cov: BlockCovariance, i: number, length: number): Float64Array | undefined {
+/**
+ * 1-sigma of component `i` per epoch from a block covariance (sqrt of the diagonal of P when full; that column from
+ * `column` when given and `length` long).
+ */
+export function componentSigma(cov: BlockCovariance, i: number, length: number, column?: () => Float64Array): Float64Array | undefined {
   if (cov.sigma) return cov.sigma[i];
   if (!cov.full) return undefined;
   const { matrix, size, indices } = cov.full;
-  const out = new Float64Array(length);
+  const made = column?.();
+  const out = made && made.length === length ? made : new Float64Array(length);
   const j = indices[i];
   for (let k = 0; k < length; k++) {
     const d = matrix[k * size * size + j * size + j];

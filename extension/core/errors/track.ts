@@ -23,6 +23,7 @@ import {
 import { geodeticToLocal, type GeodeticOrigin, type LocalFrame } from './geodetic';
 import { componentSigma, neesSeries, type BlockCovariance } from './nees';
 import { normalisedQuaternionColumns, rotationAt, type AttitudeColumns } from './attitude';
+import { columnBlock } from '../columnBlock';
 
 /** Names of the error blocks. */
 export type BlockName = 'position' | 'velocity' | 'orientation';
@@ -185,8 +186,8 @@ function attitudeStatus(att: AttitudeColumns | undefined, n: number): Uint8Array
  * Log(R_est^T R_true); NaN where not compared or either attitude is unusable.
  */
 function orientationErrors(estAtt: AttitudeColumns, refAtt: AttitudeColumns, status: Uint8Array, n: number, w0: number, w1: number,
-  side: 'nav' | 'body'): Float64Array[] {
-  const ex = new Float64Array(n), ey = new Float64Array(n), ez = new Float64Array(n);
+  side: 'nav' | 'body', column: () => Float64Array): Float64Array[] {
+  const ex = column(), ey = column(), ez = column();
   const E = new Float64Array(9), v = new Float64Array(3);
   const Re = scratchA, Rt = scratchB;
   ex.fill(NaN, 0, w0); ey.fill(NaN, 0, w0); ez.fill(NaN, 0, w0);
@@ -207,11 +208,12 @@ function orientationErrors(estAtt: AttitudeColumns, refAtt: AttitudeColumns, sta
  * r[c] - p[c] of every component at the compared epochs (inside [w0, w1) with status ALIGN_OK), NaN elsewhere: one
  * pass writing every value once (a per-epoch predicate closure and one pass per component cost ~40 ms on 250k epochs).
  */
-function differenceColumns(r: Float64Array[], p: Float64Array[], n: number, w0: number, w1: number, status: Uint8Array): Float64Array[] {
+function differenceColumns(r: Float64Array[], p: Float64Array[], n: number, w0: number, w1: number, status: Uint8Array,
+  column: () => Float64Array): Float64Array[] {
   const d = r.length;
   const out: Float64Array[] = [];
   for (let c = 0; c < d; c++) {
-    const e = new Float64Array(n);
+    const e = column();
     e.fill(NaN, 0, w0); e.fill(NaN, w1, n);
     out.push(e);
   }
@@ -262,6 +264,11 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   const hasAtt = !!(refQ && estQRaw);
   if (!hasPos && !hasVel && !hasAtt) return undefined;
 
+  // Every long column the track keeps comes from one allocation (columnBlock.ts: huge pages instead of ~500 page
+  // faults per column); the count is an upper bound (slots never used cost no memory).
+  const group = log.conventions.errorGroup ?? 'SO3xR3';
+  const column = columnBlock(n, (ref ? 3 + velDims + 4 : 0) + 3 + velDims + 3 + 3 + (group !== 'SO3xR3' ? 9 : 0) + (state.P ? 10 : 0));
+
   // --- time alignment -------------------------------------------------------------------------------------
   let offset = ref ? settings.timeOffset_s : 0;
   let offsetEstimated = false;
@@ -296,11 +303,11 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     const step = medianStep(ref.t_s, ref.length);
     const br = bracketTimes(state.t_s, n, ref.t_s, ref.length, offset, valid, MAX_GAP_STEPS * step * (1 + 1e-9));
     const interp = (c: Float64Array | undefined): Float64Array | undefined =>
-      c ? interpolateColumn(c, br, new Float64Array(n)) : undefined;
+      c ? interpolateColumn(c, br, column()) : undefined;
     rp = refPos ? refPos.p.map(interp) : [];
     rv = hasVel ? (refV as Float64Array[]).map((c) => interp(c) as Float64Array) : [];
     if (refQ) {
-      const out: [Float64Array, Float64Array, Float64Array, Float64Array] = [new Float64Array(n), new Float64Array(n), new Float64Array(n), new Float64Array(n)];
+      const out: [Float64Array, Float64Array, Float64Array, Float64Array] = [column(), column(), column(), column()];
       interpolateAttitude(refQ[0], refQ[1], refQ[2], refQ[3], br, out);
       refAtt = attitudeOf(out, 'unit');
     }
@@ -335,7 +342,6 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   const blocks: BlockTrack[] = [];
   const side = log.conventions.attitudeErrorSide;
-  const group = log.conventions.errorGroup ?? 'SO3xR3';
 
   // --- position --------------------------------------------------------------------------------------------
   const estP: Float64Array[] = [];
@@ -344,7 +350,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     const dims = rp[2] && estPos.p[2] ? 3 : 2;
     if (dims === 2) notes.push('position compared in 2-D: no height in the estimate or the reference');
     for (let c = 0; c < dims; c++) { estP.push(estPos.p[c] as Float64Array); refP.push(rp[c] as Float64Array); }
-    const err = differenceColumns(refP, estP, n, w0, w1, status);
+    const err = differenceColumns(refP, estP, n, w0, w1, status, column);
     const names = ['p_x', 'p_y', 'p_z'].slice(0, dims);
     const cov = blockCovariance(state, names, names.map((s) => `sigma_${s}`));
     blocks.push({ name: 'position', err, neesErr: err, cov });
@@ -352,7 +358,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   // --- velocity --------------------------------------------------------------------------------------------
   if (hasVel) {
-    const err = differenceColumns(rv, estV as Float64Array[], n, w0, w1, status);
+    const err = differenceColumns(rv, estV as Float64Array[], n, w0, w1, status, column);
     const names = ['v_x', 'v_y', 'v_z'].slice(0, velDims);
     if (velDims === 2) notes.push('velocity compared in 2-D: no vertical velocity in the estimate or the reference');
     blocks.push({ name: 'velocity', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
@@ -360,7 +366,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   // --- orientation -----------------------------------------------------------------------------------------
   if (hasAtt && estAtt && refAtt) {
-    const err = orientationErrors(estAtt, refAtt, status, n, w0, w1, side);
+    const err = orientationErrors(estAtt, refAtt, status, n, w0, w1, side, column);
     const names = ['att_x', 'att_y', 'att_z'];
     blocks.push({ name: 'orientation', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
   }
@@ -378,9 +384,9 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
       const size = useVel ? 15 : 12;
       const K = useVel ? 2 : 1;
       const Xe = new Float64Array(size), Xt = new Float64Array(size), eta = new Float64Array(size), xi = new Float64Array(3 + 3 * K);
-      const nPos = [0, 1, 2].map(() => new Float64Array(n).fill(NaN));
-      const nAtt = [0, 1, 2].map(() => new Float64Array(n).fill(NaN));
-      const nVel = [0, 1, 2].map(() => new Float64Array(n).fill(NaN));
+      const nPos = [0, 1, 2].map(() => column().fill(NaN));
+      const nAtt = [0, 1, 2].map(() => column().fill(NaN));
+      const nVel = [0, 1, 2].map(() => (useVel ? column() : new Float64Array(n)).fill(NaN));
       for (let k = w0; k < w1; k++) {
         if (!Number.isFinite(att.err[0][k]) || !Number.isFinite(pos.err[0][k])) continue;
         if (useVel && !Number.isFinite((vel as BlockTrack).err[0][k])) continue;
@@ -415,8 +421,8 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   // --- NEES per block and joint ----------------------------------------------------------------------------
   for (const b of blocks) {
     if (!b.cov) continue;
-    b.nees = neesSeries(b.neesErr, b.cov, n);
-    b.sigma = b.neesErr.map((_, i) => componentSigma(b.cov as BlockCovariance, i, n) as Float64Array);
+    b.nees = neesSeries(b.neesErr, b.cov, n, column());
+    b.sigma = b.neesErr.map((_, i) => componentSigma(b.cov as BlockCovariance, i, n, column) as Float64Array);
   }
   let joint: ErrorTrack['joint'];
   if (state.P && blocks.length > 1) {
@@ -428,7 +434,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
       errs.push(...b.neesErr);
     }
     const cov = blockCovariance(state, states, []);
-    if (cov?.full) joint = { dof: states.length, states, nees: neesSeries(errs, { full: cov.full }, n) };
+    if (cov?.full) joint = { dof: states.length, states, nees: neesSeries(errs, { full: cov.full }, n, column()) };
   }
 
   // --- the reference's own samples for the plot --------------------------------------------------------------
