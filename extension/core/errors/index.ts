@@ -20,7 +20,7 @@ import { buildErrorTrack, isCompared, type BlockName, type BlockTrack, type Erro
 import { umeyamaColumns } from './umeyama';
 import { medianInPlace } from '../stats/median';
 import { lazySeries } from '../lazySeries';
-import { giveBack, takeFloat64, takeInt32 } from '../scratch';
+import { giveBack, reserveScratch, takeFloat64, takeInt32 } from '../scratch';
 
 export { analyzeMonteCarlo, monteCarloSeries, type MonteCarloBlock, type MonteCarloSeries } from './montecarlo';
 export { buildErrorTrack, type ErrorTrack } from './track';
@@ -549,6 +549,9 @@ export function analyzeErrors(log: NavLog, settings: AnalysisSettings): StageOut
 function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutput<ErrorsBlock> {
   const track = buildErrorTrack(log, settings);
   if (!track) return { findings: [], series: [] };
+  // the most work columns held at once (norm, convergence level, ATE/RPE scratch, path length, distance errors;
+  // convergence and ATE/RPE indices), made together when the pool lacks them (scratch.ts)
+  reserveScratch(track.length, 5, 2);
   const findings: Finding[] = [];
   const series: Series[] = [];
   const { w0, w1, t_s, status } = track;
