@@ -145,10 +145,23 @@ function autocorrelationsOf(num: Float64Array[], den: (Float64Array | undefined)
   const out: number[][] = num.map(() => []);
   if (maxLag < 1 || nc === 0) return out.map((r) => Float64Array.from(r));
   const vars: number[] = [];
-  const sums = new Float64Array(4);
+  const sums = new Float64Array(6);
   const centred: (Float64Array | undefined)[] = [];
   const gaps: boolean[] = [];
-  for (let i = 0; i < nc; i++) {
+  if (nc === 3 && den && den[0] && den[1] && den[2]) {
+    // three normalised components (the usual block): each pass reads all three, one call per pass
+    const means = new Float64Array(3);
+    finiteMeans3(num, den as Float64Array[], i0, i1, means);
+    const ds = [takeFloat64(m), takeFloat64(m), takeFloat64(m)];
+    centre3(num, den as Float64Array[], i0, i1, means, ds, sums);
+    for (let i = 0; i < 3; i++) {
+      const cnt2 = sums[3 + i];
+      const variance = cnt2 > 1 ? sums[i] / cnt2 : NaN;
+      vars.push(variance);
+      if (variance > 0) { centred.push(ds[i]); gaps.push(cnt2 < m); } else { giveBack(ds[i]); centred.push(undefined); gaps.push(true); }
+    }
+  }
+  for (let i = centred.length; i < nc; i++) {
     const c = num[i];
     const sd = den ? den[i] : undefined;
     if (den && !sd) { vars.push(NaN); centred.push(undefined); gaps.push(true); continue; }
@@ -205,6 +218,36 @@ function centre(num: Float64Array, den: Float64Array | undefined, i0: number, i1
   }
   out[0] = ss;
   return cnt;
+}
+
+/** {@link finiteMean} of three components num[c] / den[c] in one pass, into out[c]. */
+function finiteMeans3(num: Float64Array[], den: Float64Array[], i0: number, i1: number, out: Float64Array): void {
+  const [a, b, c] = num, [p, q, r] = den;
+  let s0 = 0, s1 = 0, s2 = 0, n0 = 0, n1 = 0, n2 = 0;
+  for (let k = i0; k < i1; k++) {
+    const v0 = a[k] / p[k], v1 = b[k] / q[k], v2 = c[k] / r[k];
+    if (Number.isFinite(v0)) { s0 += v0; n0++; }
+    if (Number.isFinite(v1)) { s1 += v1; n1++; }
+    if (Number.isFinite(v2)) { s2 += v2; n2++; }
+  }
+  out[0] = n0 > 0 ? s0 / n0 : NaN; out[1] = n1 > 0 ? s1 / n1 : NaN; out[2] = n2 > 0 ? s2 / n2 : NaN;
+}
+
+/** {@link centre} of three components in one pass: d[c], sums of squares into out[0..3), counts into out[3..6). */
+function centre3(num: Float64Array[], den: Float64Array[], i0: number, i1: number, means: Float64Array, d: Float64Array[], out: Float64Array): void {
+  const [a, b, c] = num, [p, q, r] = den, [d0, d1, d2] = d;
+  const m0 = means[0], m1 = means[1], m2 = means[2];
+  let ss0 = 0, ss1 = 0, ss2 = 0, n0 = 0, n1 = 0, n2 = 0;
+  for (let k = i0; k < i1; k++) {
+    const v0 = a[k] / p[k], v1 = b[k] / q[k], v2 = c[k] / r[k];
+    const ok0 = Number.isFinite(v0), ok1 = Number.isFinite(v1), ok2 = Number.isFinite(v2);
+    const e0 = v0 - m0, e1 = v1 - m1, e2 = v2 - m2;
+    if (ok0) { ss0 += e0 * e0; n0++; }
+    if (ok1) { ss1 += e1 * e1; n1++; }
+    if (ok2) { ss2 += e2 * e2; n2++; }
+    d0[k - i0] = ok0 ? e0 : NaN; d1[k - i0] = ok1 ? e1 : NaN; d2[k - i0] = ok2 ? e2 : NaN;
+  }
+  out[0] = ss0; out[1] = ss1; out[2] = ss2; out[3] = n0; out[4] = n1; out[5] = n2;
 }
 
 /**

@@ -122,6 +122,12 @@ describe('error autocorrelations: the blocked sums equal the plain definition bi
     sigma[0][17] = 0; // an infinite z: skipped
     const z = e.map((c, i) => Float64Array.from(c, (v, k) => v / sigma[i][k]));
     expect(normalisedErrorAutocorrelations(e, sigma, 0, n).map((r) => Array.from(r))).toEqual(plainAutocorrelations(z, 0, n));
+    // three components (the usual block, summed three at a time), with a missing error and a zero sigma
+    const e3 = [ar(0.99), ar(0.95), ar(0.97)];
+    e3[1][40] = NaN;
+    const s3 = [sigma[0], sigma[1], Float64Array.from({ length: n }, (_, k) => (k === 99 ? 0 : 1.5))];
+    const z3 = e3.map((c, i) => Float64Array.from(c, (v, k) => v / s3[i][k]));
+    expect(normalisedErrorAutocorrelations(e3, s3, 0, n).map((r) => Array.from(r))).toEqual(plainAutocorrelations(z3, 0, n));
     const withMissing = normalisedErrorAutocorrelations(e, [sigma[0], undefined], 0, n);
     expect(withMissing.map((r) => Array.from(r))).toEqual(plainAutocorrelations([z[0], new Float64Array(n).fill(NaN)], 0, n));
   });
