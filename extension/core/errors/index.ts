@@ -10,7 +10,7 @@ import type { AnalysisSettings } from '../settings';
 import type { Series, StageOutput } from '../series';
 import { chi2Interval } from '../stats/chi2';
 import { so3Angle } from '../geometry/so3';
-import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
+import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep, medianStepAtMost } from './align';
 import { convergence, SETTLE_FACTOR, type Convergence, type ConvergenceScratch } from './convergence';
 import { neesSummary, normalisedErrorAutocorrelations, neesWindows, windowBoundaries, type NeesWindow } from './nees';
 import {
@@ -477,7 +477,11 @@ function rpeFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Arr
   const used = use.subarray(0, count);
   const inp = { t_s: track.t_s, use: used, est: track.estP, ref: track.refP, estAtt: track.estAtt, refAtt: track.refAtt, scratch };
   const out: RpeFigures = {};
-  const dt = medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0, scratch);
+  // relative.ts uses the larger of a tenth of the window and the median step: when counting shows the median is at
+  // most that tenth, the tenth itself gives the same tolerance without selecting the median of 250k steps
+  const cap = settings.window_s / 10;
+  const dt = medianStepAtMost(track.t_s, track.w0, track.w1, cap)
+    ? cap : medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0, scratch);
   const r = relativeErrors(inp, settings.window_s, dt, (L) => settings.rpeDistance_m ?? defaultDistanceWindow(L));
   if (r.time.count > 0) out.time = { ...r.time, window_s: settings.window_s };
   const D = r.distance_m;
