@@ -24,6 +24,23 @@ export function takeInt32(n: number): Int32Array {
   return take(int32, n) ?? newInt32(n);
 }
 
+/**
+ * Make sure the pool holds at least `float64` free Float64Array and `int32` free Int32Array columns of at least `n`
+ * values, allocating the missing ones as views of ONE new buffer: a 2 MB column alone is too small for the kernel's
+ * huge pages and costs ~500 page faults on first touch (~6 ms), a few of them together in one buffer do not.
+ * Call it at the start of a stage with the most columns of each kind it holds at once.
+ */
+export function reserveScratch(n: number, float64Count: number, int32Count = 0): void {
+  const len = Math.max(0, Math.floor(n));
+  if (len === 0) return;
+  const f = Math.max(0, float64Count - float64.filter((c) => c.length >= len).length);
+  const i = Math.max(0, int32Count - int32.filter((c) => c.length >= len).length);
+  if (f + i === 0) return;
+  const buffer = new ArrayBuffer(8 * len * f + 4 * len * i);
+  for (let j = 0; j < f; j++) float64.push(new Float64Array(buffer, 8 * len * j, len));
+  for (let j = 0; j < i; j++) int32.push(new Int32Array(buffer, 8 * len * f + 4 * len * j, len));
+}
+
 /** Give work columns back for the next stage (they must not be read or written by the caller afterwards). */
 export function giveBack(...columns: (Float64Array | Int32Array | undefined)[]): void {
   for (const c of columns) {

@@ -36,6 +36,20 @@ export function medianStep(t_s: Float64Array, length: number, scratch?: Float64A
   return medianInPlace(steps, n);
 }
 
+/**
+ * Whether {@link medianStep} of t_s[i0..i1) is at most `cap`, decided by counting (one pass, no selection): true when
+ * more than half of the positive steps are at most `cap` (then the median, or the mean of the two middle steps, is);
+ * false when that count does not show it (the median may still be at most `cap`: compute it then).
+ */
+export function medianStepAtMost(t_s: Float64Array, i0: number, i1: number, cap: number): boolean {
+  let n = 0, below = 0;
+  for (let i = i0 + 1; i < i1; i++) {
+    const d = t_s[i] - t_s[i - 1];
+    if (d > 0 && Number.isFinite(d)) { n++; if (d <= cap) below++; }
+  }
+  return n > 0 && below >= (n >> 1) + 1;
+}
+
 /** Per-epoch bracket of a reference: rows `left`/`right` and fraction `f` in [0, 1], or a status. */
 export interface Bracket {
   /** Left reference row per epoch (-1 when excluded). */

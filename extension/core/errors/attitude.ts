@@ -9,7 +9,7 @@
  * reference in the same records is normalised once more (as the interpolation did for every bracketing sample);
  * an interpolated reference is already unit.
  */
-import { matFromQuat } from '../geometry/so3';
+import { hypot4 } from '../geometry/hypot';
 
 /** How the quaternion columns become a unit quaternion. */
 export type AttitudeNormalisation =
@@ -32,8 +32,6 @@ export interface AttitudeColumns {
 /** Largest relative departure of a logged quaternion's norm from 1 that is still normalised (not rejected). */
 export const QUAT_NORM_TOLERANCE = 0.1;
 
-const q = new Float64Array(4);
-
 /** How precisely {@link rotationAt} takes the norm: as the stored errors always did, or with a plain square root. */
 export type NormArithmetic = 'exact' | 'fast';
 
@@ -44,22 +42,24 @@ export type NormArithmetic = 'exact' | 'fast';
 export function rotationAt(out: Float64Array, a: AttitudeColumns, k: number, arithmetic: NormArithmetic = 'exact'): boolean {
   let w = a.w[k], x = a.x[k], y = a.y[k], z = a.z[k];
   if (a.normalisation !== 'unit') {
-    // 'fast': a plain square root instead of Math.hypot, which guards against an overflow that a norm near 1 cannot
-    // reach and is many times slower; the two differ by at most a unit in the last place (aggregates such as the
-    // relative error do not see it; the per-epoch orientation errors keep the exact arithmetic)
-    const nrm = arithmetic === 'fast' ? Math.sqrt(w * w + x * x + y * y + z * z) : Math.hypot(w, x, y, z);
+    // 'exact': hypot4, the bits of Math.hypot without its per-call allocation (geometry/hypot.ts, 2-3x faster).
+    // 'fast': a plain square root, which differs by at most a unit in the last place
+    // (aggregates such as the relative error do not see it; the per-epoch orientation errors keep the exact norm)
+    const nrm = arithmetic === 'fast' ? Math.sqrt(w * w + x * x + y * y + z * z) : hypot4(w, x, y, z);
     if (!(Number.isFinite(nrm) && Math.abs(nrm - 1) <= QUAT_NORM_TOLERANCE)) return false;
     w /= nrm; x /= nrm; y /= nrm; z /= nrm;
     if (a.normalisation === 'loggedTwice') {
       // as quatNormalize: multiply by the reciprocal of the norm
-      const n2 = arithmetic === 'fast' ? Math.sqrt(w * w + x * x + y * y + z * z) : Math.hypot(w, x, y, z);
+      const n2 = arithmetic === 'fast' ? Math.sqrt(w * w + x * x + y * y + z * z) : hypot4(w, x, y, z);
       const s = n2 > 0 && Number.isFinite(n2) ? 1 / n2 : NaN;
       w *= s; x *= s; y *= s; z *= s;
     }
   }
   if (!Number.isFinite(w)) return false;
-  q[0] = w; q[1] = x; q[2] = y; q[3] = z;
-  matFromQuat(out, q);
+  // matFromQuat (geometry/so3.ts) written out on the locals: the same arithmetic, no quaternion scratch
+  out[0] = 1 - 2 * (y * y + z * z); out[1] = 2 * (x * y - w * z); out[2] = 2 * (x * z + w * y);
+  out[3] = 2 * (x * y + w * z); out[4] = 1 - 2 * (x * x + z * z); out[5] = 2 * (y * z - w * x);
+  out[6] = 2 * (x * z - w * y); out[7] = 2 * (y * z + w * x); out[8] = 1 - 2 * (x * x + y * y);
   return Number.isFinite(out[0]);
 }
 
@@ -71,7 +71,7 @@ export function normalisedQuaternionColumns(w: Float64Array, x: Float64Array, y:
   const ow = new Float64Array(n), ox = new Float64Array(n), oy = new Float64Array(n), oz = new Float64Array(n);
   for (let k = 0; k < n; k++) {
     const a = w[k], b = x[k], c = y[k], d = z[k];
-    const nrm = Math.hypot(a, b, c, d);
+    const nrm = hypot4(a, b, c, d);
     if (Number.isFinite(nrm) && Math.abs(nrm - 1) <= QUAT_NORM_TOLERANCE) {
       ow[k] = a / nrm; ox[k] = b / nrm; oy[k] = c / nrm; oz[k] = d / nrm;
     } else {

@@ -43,28 +43,22 @@ export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i
   scratch?: ConvergenceScratch): Convergence {
   const len = Math.max(0, i1 - i0);
   const idx = scratch && scratch.idx.length >= len ? scratch.idx : new Int32Array(len);
-  let count = 0;
-  for (let k = i0; k < i1; k++) if (Number.isFinite(norm[k]) && Number.isFinite(t_s[k])) idx[count++] = k;
-  if (count < 4) return {};
+  // the last usable epoch first, so that one pass lists the usable epochs and sums the steady state's squares
+  let last = i1 - 1;
+  while (last >= i0 && !(Number.isFinite(norm[last]) && Number.isFinite(t_s[last]))) last--;
+  if (last < i0) return {};
   const tStart = t_s[i0];
-  const tEnd = t_s[idx[count - 1]];
+  const tEnd = t_s[last];
   const half = tStart + (tEnd - tStart) / 2;
-  let ss = 0, sc = 0;
-  for (let m = 0; m < count; m++) { const k = idx[m]; if (t_s[k] >= half) { ss += norm[k] * norm[k]; sc++; } }
-  if (sc === 0) return {};
-  const steady = Math.sqrt(ss / sc);
+  const sums = new Float64Array(2);
+  const count = finiteEpochs(t_s, norm, i0, i1, idx, half, sums);
+  if (count < 4) return {};
+  if (sums[1] === 0) return {};
+  const steady = Math.sqrt(sums[0] / sums[1]);
   // trailing RMS over smooth_s (two pointers)
   const level = scratch && scratch.level.length >= len ? scratch.level : new Float64Array(len);
-  let j = 0, acc = 0;
-  for (let m = 0; m < count; m++) {
-    const k = idx[m];
-    acc += norm[k] * norm[k];
-    while (t_s[idx[j]] < t_s[k] - smooth_s) { acc -= norm[idx[j]] * norm[idx[j]]; j++; }
-    level[m] = Math.sqrt(Math.max(0, acc) / (m - j + 1));
-  }
   const limit = SETTLE_FACTOR * steady;
-  let lastAbove = -1;
-  for (let m = 0; m < count; m++) if (level[m] > limit) lastAbove = m;
+  const lastAbove = trailingLevels(t_s, norm, idx, count, smooth_s, limit, level);
   const out: Convergence = { steadyState: steady };
   if (lastAbove < 0) { out.settleTime = 0; out.tSettled = tStart; return out; }
   if (lastAbove === count - 1) return out; // never settled
@@ -72,12 +66,7 @@ export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i
   out.settleTime = settledAt - tStart;
   out.tSettled = settledAt;
   // log-linear least squares over the transient
-  let n = 0, st = 0, sy = 0, stt = 0, sty = 0;
-  for (let m = 0; m <= lastAbove + 1; m++) {
-    if (!(level[m] > 0)) continue;
-    const x = t_s[idx[m]] - tStart, y = Math.log(level[m]);
-    n++; st += x; sy += y; stt += x * x; sty += x * y;
-  }
+  const [n, st, sy, stt, sty] = logLinearSums(t_s, idx, level, lastAbove + 2, tStart);
   if (n >= 3) {
     const den = n * stt - st * st;
     if (den > 0) {
@@ -87,4 +76,54 @@ export function convergence(t_s: Float64Array, norm: Float64Array, i0: number, i
     }
   }
   return out;
+}
+
+// One loop per function below: this stage runs once per process, and a loop followed by code that has not run yet
+// falls back to V8's slow tier for thousands of epochs (see track.ts).
+
+/**
+ * Epochs of [i0, i1) with a finite norm and time, ascending, into idx; returns their count. The sum of the squared
+ * norms of those at or after `from` into sums[0], their count into sums[1].
+ */
+function finiteEpochs(t_s: Float64Array, norm: Float64Array, i0: number, i1: number, idx: Int32Array, from: number, sums: Float64Array): number {
+  let count = 0, ss = 0, sc = 0;
+  for (let k = i0; k < i1; k++) {
+    idx[count] = k;
+    const v = norm[k], t = t_s[k];
+    if (Number.isFinite(v) && Number.isFinite(t)) {
+      count++;
+      if (t >= from) { ss += v * v; sc++; }
+    }
+  }
+  sums[0] = ss; sums[1] = sc;
+  return count;
+}
+
+/**
+ * Trailing RMS of the norm over `smooth_s` at each listed epoch into `level` (two pointers); returns the last
+ * position whose level exceeds `limit` (-1 when none).
+ */
+function trailingLevels(t_s: Float64Array, norm: Float64Array, idx: Int32Array, count: number, smooth_s: number, limit: number,
+  level: Float64Array): number {
+  let j = 0, acc = 0, lastAbove = -1;
+  for (let m = 0; m < count; m++) {
+    const k = idx[m];
+    acc += norm[k] * norm[k];
+    while (t_s[idx[j]] < t_s[k] - smooth_s) { acc -= norm[idx[j]] * norm[idx[j]]; j++; }
+    const v = Math.sqrt(Math.max(0, acc) / (m - j + 1));
+    level[m] = v;
+    if (v > limit) lastAbove = m;
+  }
+  return lastAbove;
+}
+
+/** Sums n, sum x, sum y, sum x^2, sum x y of x = t - tStart, y = ln level over the first `upto` listed epochs (level > 0). */
+function logLinearSums(t_s: Float64Array, idx: Int32Array, level: Float64Array, upto: number, tStart: number): number[] {
+  let n = 0, st = 0, sy = 0, stt = 0, sty = 0;
+  for (let m = 0; m < upto; m++) {
+    if (!(level[m] > 0)) continue;
+    const x = t_s[idx[m]] - tStart, y = Math.log(level[m]);
+    n++; st += x; sy += y; stt += x * x; sty += x * y;
+  }
+  return [n, st, sy, stt, sty];
 }

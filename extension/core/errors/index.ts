@@ -10,9 +10,9 @@ import type { AnalysisSettings } from '../settings';
 import type { Series, StageOutput } from '../series';
 import { chi2Interval } from '../stats/chi2';
 import { so3Angle } from '../geometry/so3';
-import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep } from './align';
+import { ALIGN_IN_GAP, ALIGN_OUTSIDE_SPAN, medianStep, medianStepAtMost } from './align';
 import { convergence, SETTLE_FACTOR, type Convergence, type ConvergenceScratch } from './convergence';
-import { ACF_MAX_EPOCHS, errorAutocorrelations, neesSummary, neesWindows, windowBoundaries, type NeesWindow } from './nees';
+import { neesSummary, normalisedErrorAutocorrelations, neesWindows, windowBoundaries, type NeesWindow } from './nees';
 import {
   defaultDistanceWindow, relativeErrors, type RelativeErrorStats,
 } from './relative';
@@ -20,7 +20,7 @@ import { buildErrorTrack, isCompared, type BlockName, type BlockTrack, type Erro
 import { umeyamaColumns } from './umeyama';
 import { medianInPlace } from '../stats/median';
 import { lazySeries } from '../lazySeries';
-import { giveBack, takeFloat64, takeInt32 } from '../scratch';
+import { giveBack, reserveScratch, takeFloat64, takeInt32 } from '../scratch';
 
 export { analyzeMonteCarlo, monteCarloSeries, type MonteCarloBlock, type MonteCarloSeries } from './montecarlo';
 export { buildErrorTrack, type ErrorTrack } from './track';
@@ -145,10 +145,17 @@ export interface ErrorsBlock {
   [extra: string]: unknown;
 }
 
-/** RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean, max and mean norm. */
-function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2):
-  { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; meanNorm?: number } {
+/** Figures of {@link errorFigures}. */
+interface ErrorFigures { count: number; rmse?: number; rmse2d?: number; max?: number; rmsePerAxis?: number[]; meanPerAxis?: number[]; meanNorm?: number }
+
+/**
+ * RMS of the rows' norms over epochs where every component is finite; also per-axis RMS, mean, max and mean norm
+ * (the first two components are the horizontal ones). Also writes each epoch's error norm into `norm` (NaN where a
+ * component is not finite), for the convergence.
+ */
+function errorFigures(err: Float64Array[], i0: number, i1: number, norm: Float64Array): ErrorFigures {
   const d = err.length;
+  const horiz = 2;
   let s = 0, s2 = 0, mx = 0, cnt = 0, sn = 0;
   const sa = new Array<number>(d).fill(0), ma = new Array<number>(d).fill(0);
   for (let k = i0; k < i1; k++) {
@@ -158,29 +165,104 @@ function errorFigures(err: Float64Array[], i0: number, i1: number, horiz = 2):
       if (!Number.isFinite(e)) { ok = false; break; }
       q += e * e; if (c < horiz) qh += e * e;
     }
-    if (!ok) continue;
+    if (!ok) { norm[k] = NaN; continue; }
     for (let c = 0; c < d; c++) { sa[c] += err[c][k] * err[c][k]; ma[c] += err[c][k]; }
     const nrm = Math.sqrt(q);
+    norm[k] = nrm;
     sn += nrm;
     s += q; s2 += qh; cnt++;
     if (nrm > mx) mx = nrm;
   }
+  return figuresOf(cnt, s, s2, mx, sn, sa, ma);
+}
+
+/** One pass's results: {@link errorFigures}, and over the same epochs the +-3 sigma shares and the NEES summary. */
+interface WindowPass { f: ErrorFigures; within?: (number | null)[]; nees?: ReturnType<typeof neesSummary> }
+
+/**
+ * {@link errorFigures}, {@link within3Sigma} and {@link neesSummary} of a block over [i0, i1): in one pass over
+ * the columns when the block has three components whose NEES error is the raw one (the usual case: each of the three
+ * was a pass of ~5 ms over 250k epochs), else the three functions. Same sums in the same order either way.
+ */
+function windowPass(b: BlockTrack, i0: number, i1: number, confidence: number, norm: Float64Array): WindowPass {
+  const sigma = b.sigma;
+  const dof = b.neesErr.length;
+  if (b.err.length !== 3 || b.neesErr !== b.err || (sigma && !(sigma[0] && sigma[1] && sigma[2]))) {
+    return {
+      f: errorFigures(b.err, i0, i1, norm), within: within3Sigma(b, i0, i1),
+      nees: b.nees ? neesSummary(b.nees, dof, confidence, i0, i1) : undefined,
+    };
+  }
+  const [lo, hi] = chi2Interval(confidence, dof);
+  const o = new Float64Array(WINDOW_PASS_FIGURES);
+  windowPass3(b.err, sigma, b.nees, lo, hi, i0, i1, norm, o);
+  const f = figuresOf(o[0], o[1], o[2], o[3], o[4], [o[5], o[6], o[7]], [o[8], o[9], o[10]]);
+  const within = sigma ? [0, 1, 2].map((c) => (o[14 + c] > 0 ? o[11 + c] / o[14 + c] : null)) : undefined;
+  const cnt = o[18];
+  const nees = b.nees
+    ? (cnt > 0 ? { dof, mean: o[17] / cnt, inside95: o[19] / cnt, bounds95: [lo, hi] as [number, number], count: cnt } : { dof, bounds95: [lo, hi] as [number, number], count: 0 })
+    : undefined;
+  return { f, within, nees };
+}
+
+/** Length of the figures column of {@link windowPass3}. */
+const WINDOW_PASS_FIGURES = 20;
+
+/**
+ * The loop of {@link windowPass} (a function of its own: see track.ts). Into `o`: [0] count, [1] sum |e|^2,
+ * [2] sum of horizontal |e|^2, [3] max |e|, [4] sum |e|, [5..8) sum e_c^2, [8..11) sum e_c, [11..14) epochs within
+ * 3 sigma per component, [14..17) epochs with e_c and a positive sigma_c, [17] NEES sum, [18] NEES count,
+ * [19] NEES inside [lo, hi]. Writes each epoch's error norm into `norm` (NaN where a component is not finite).
+ */
+function windowPass3(err: Float64Array[], sigma: Float64Array[] | undefined, nees: Float64Array | undefined, lo: number, hi: number,
+  i0: number, i1: number, norm: Float64Array, o: Float64Array): void {
+  const [x, y, z] = err;
+  const withSigma = !!sigma;
+  const [s0, s1, s2] = sigma ?? err;
+  const withNees = !!nees;
+  const nv = nees ?? x;
+  let s = 0, sh = 0, mx = 0, cnt = 0, sn = 0;
+  let sa0 = 0, sa1 = 0, sa2 = 0, ma0 = 0, ma1 = 0, ma2 = 0;
+  let in0 = 0, in1 = 0, in2 = 0, c0 = 0, c1 = 0, c2 = 0;
+  let ns = 0, nc = 0, ni = 0;
+  for (let k = i0; k < i1; k++) {
+    const e0 = x[k], e1 = y[k], e2 = z[k];
+    const f0 = Number.isFinite(e0), f1 = Number.isFinite(e1), f2 = Number.isFinite(e2);
+    // one store per epoch whatever the branch (see track.ts)
+    let nrm = NaN;
+    if (f0 && f1 && f2) {
+      const q0 = e0 * e0, q1 = e1 * e1, q2 = e2 * e2;
+      const qh = q0 + q1, q = qh + q2;
+      sa0 += q0; sa1 += q1; sa2 += q2; ma0 += e0; ma1 += e1; ma2 += e2;
+      nrm = Math.sqrt(q);
+      sn += nrm;
+      s += q; sh += qh; cnt++;
+      if (nrm > mx) mx = nrm;
+    }
+    norm[k] = nrm;
+    if (withSigma) {
+      const g0 = s0[k], g1 = s1[k], g2 = s2[k];
+      if (f0 && g0 > 0) { c0++; if (Math.abs(e0) <= 3 * g0) in0++; }
+      if (f1 && g1 > 0) { c1++; if (Math.abs(e1) <= 3 * g1) in1++; }
+      if (f2 && g2 > 0) { c2++; if (Math.abs(e2) <= 3 * g2) in2++; }
+    }
+    if (withNees) {
+      const v = nv[k];
+      if (Number.isFinite(v)) { ns += v; nc++; if (v >= lo && v <= hi) ni++; }
+    }
+  }
+  o[0] = cnt; o[1] = s; o[2] = sh; o[3] = mx; o[4] = sn;
+  o[5] = sa0; o[6] = sa1; o[7] = sa2; o[8] = ma0; o[9] = ma1; o[10] = ma2;
+  o[11] = in0; o[12] = in1; o[13] = in2; o[14] = c0; o[15] = c1; o[16] = c2;
+  o[17] = ns; o[18] = nc; o[19] = ni;
+}
+
+function figuresOf(cnt: number, s: number, s2: number, mx: number, sn: number, sa: number[], ma: number[]): ErrorFigures {
   if (cnt === 0) return { count: 0 };
   return {
     count: cnt, rmse: Math.sqrt(s / cnt), rmse2d: Math.sqrt(s2 / cnt), max: mx,
     rmsePerAxis: sa.map((v) => Math.sqrt(v / cnt)), meanPerAxis: ma.map((v) => v / cnt), meanNorm: sn / cnt,
   };
-}
-
-/** Error norm per epoch over [i0, i1) into `out` (NaN where a component is missing); `out` is indexed by epoch. */
-function normInto(err: Float64Array[], i0: number, i1: number, out: Float64Array): Float64Array {
-  const d = err.length;
-  for (let k = i0; k < i1; k++) {
-    let q = 0;
-    for (let c = 0; c < d; c++) q += err[c][k] * err[c][k];
-    out[k] = Math.sqrt(q);
-  }
-  return out;
 }
 
 /** Segment boundaries (epoch indices) inside [w0, w1) from the reset times. */
@@ -197,18 +279,22 @@ function segmentBounds(t_s: Float64Array, w0: number, w1: number, resets: number
 }
 
 function within3Sigma(b: BlockTrack, i0: number, i1: number): (number | null)[] | undefined {
-  if (!b.sigma) return undefined;
-  return b.neesErr.map((e, c) => {
-    const s = (b.sigma as Float64Array[])[c];
-    if (!s) return null;
+  const sigma = b.sigma;
+  if (!sigma) return undefined;
+  const out: (number | null)[] = [];
+  for (let c = 0; c < b.neesErr.length; c++) {
+    const e = b.neesErr[c], s = sigma[c];
+    if (!s) { out.push(null); continue; }
     let inside = 0, cnt = 0;
     for (let k = i0; k < i1; k++) {
-      if (!Number.isFinite(e[k]) || !(s[k] > 0)) continue;
+      const v = e[k], sk = s[k];
+      if (!Number.isFinite(v) || !(sk > 0)) continue;
       cnt++;
-      if (Math.abs(e[k]) <= 3 * s[k]) inside++;
+      if (Math.abs(v) <= 3 * sk) inside++;
     }
-    return cnt > 0 ? inside / cnt : null;
-  });
+    out.push(cnt > 0 ? inside / cnt : null);
+  }
+  return out;
 }
 
 const AXES = ['x', 'y', 'z'];
@@ -230,38 +316,25 @@ function fmt(v: number): string {
   return Math.abs(v) >= 1e-3 && Math.abs(v) < 1e7 ? String(Number(v.toPrecision(4))) : v.toExponential(3);
 }
 
-/**
- * Autocorrelations of the block's normalised error components z = e / sigma over [i0, i1) (nees.ts), with z made
- * only over the epochs the estimate reads (the last ACF_MAX_EPOCHS), into reused scratch columns.
- */
-function normalisedErrorAutocorrelations(b: BlockTrack, i0: number, i1: number): Float64Array[] {
-  const a = Math.max(i0, i1 - ACF_MAX_EPOCHS);
-  const m = Math.max(0, i1 - a);
-  const z = b.neesErr.map((e, c) => {
-    const s = (b.sigma as Float64Array[])[c];
-    const out = takeFloat64(m);
-    if (!s) { out.fill(NaN, 0, m); return out; }
-    for (let k = a; k < i1; k++) out[k - a] = e[k] / s[k];
-    return out;
-  });
-  const rs = errorAutocorrelations(z, 0, m);
-  giveBack(...z);
-  return rs;
+/** Autocorrelations of the block's normalised error components z = e / sigma over [i0, i1) (nees.ts). */
+function blockAutocorrelations(b: BlockTrack, i0: number, i1: number): Float64Array[] {
+  return normalisedErrorAutocorrelations(b.neesErr, b.neesErr.map((_, c) => b.sigma?.[c]), i0, i1);
 }
 
 /** Windowed NEES test of one block across all segments; fills findings and returns the windows. */
 function windowedTest(
-  track: ErrorTrack, b: BlockTrack, segs: number[], settings: AnalysisSettings, findings: Finding[],
+  track: ErrorTrack, b: BlockTrack, segs: Segments, settings: AnalysisSettings, findings: Finding[],
 ): { windows: NeesWindow[]; alpha: number; correlationFactor?: number } {
   const nees = b.nees as Float64Array;
   const dof = b.neesErr.length;
   const perSeg: { bounds: number[]; rs: Float64Array[] }[] = [];
   let total = 0;
   let longest = -1, longestLen = 0, correlationFactor: number | undefined;
-  for (let s = 0; s + 1 < segs.length; s++) {
-    const i0 = segs[s], i1 = segs[s + 1];
-    const bounds = windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
-    const rs = normalisedErrorAutocorrelations(b, i0, i1);
+  for (let s = 0; s + 1 < segs.bounds.length; s++) {
+    const i0 = segs.bounds[s], i1 = segs.bounds[s + 1];
+    // the same windows for every block: made once per segment
+    const bounds = segs.windows[s] ??= windowBoundaries(track.t_s, i0, i1, settings.window_s, settings.windowUpdates);
+    const rs = blockAutocorrelations(b, i0, i1);
     perSeg.push({ bounds, rs });
     total += bounds.length - 1;
     if (i1 - i0 > longestLen) { longestLen = i1 - i0; longest = s; }
@@ -308,10 +381,14 @@ function windowedTest(
   return { windows, alpha, correlationFactor };
 }
 
-function neesFigures(track: ErrorTrack, b: BlockTrack, segs: number[], settings: AnalysisSettings, findings: Finding[], series: Series[]): NeesFigures | undefined {
-  if (!b.nees) return undefined;
+/** NEES figures of one block, from the summary of its NEES over the window (neesSummary). */
+/** Segment boundaries (epoch indices) and, made on first use, the NEES window boundaries of each segment. */
+interface Segments { bounds: number[]; windows: (number[] | undefined)[] }
+
+function neesFigures(track: ErrorTrack, b: BlockTrack, sum: ReturnType<typeof neesSummary> | undefined, segs: Segments, settings: AnalysisSettings,
+  findings: Finding[], series: Series[]): NeesFigures | undefined {
+  if (!b.nees || !sum) return undefined;
   const dof = b.neesErr.length;
-  const sum = neesSummary(b.nees, dof, settings.confidence, track.w0, track.w1);
   if (sum.count === 0) return undefined;
   const { windows, alpha, correlationFactor } = windowedTest(track, b, segs, settings, findings);
   const inside = windows.filter((w) => w.mean >= w.bounds[0] && w.mean <= w.bounds[1]).length;
@@ -400,7 +477,11 @@ function rpeFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Arr
   const used = use.subarray(0, count);
   const inp = { t_s: track.t_s, use: used, est: track.estP, ref: track.refP, estAtt: track.estAtt, refAtt: track.refAtt, scratch };
   const out: RpeFigures = {};
-  const dt = medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0, scratch);
+  // relative.ts uses the larger of a tenth of the window and the median step: when counting shows the median is at
+  // most that tenth, the tenth itself gives the same tolerance without selecting the median of 250k steps
+  const cap = settings.window_s / 10;
+  const dt = medianStepAtMost(track.t_s, track.w0, track.w1, cap)
+    ? cap : medianStep(track.t_s.subarray(track.w0, track.w1), track.w1 - track.w0, scratch);
   const r = relativeErrors(inp, settings.window_s, dt, (L) => settings.rpeDistance_m ?? defaultDistanceWindow(L));
   if (r.time.count > 0) out.time = { ...r.time, window_s: settings.window_s };
   const D = r.distance_m;
@@ -472,6 +553,9 @@ export function analyzeErrors(log: NavLog, settings: AnalysisSettings): StageOut
 function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutput<ErrorsBlock> {
   const track = buildErrorTrack(log, settings);
   if (!track) return { findings: [], series: [] };
+  // the most work columns held at once (norm, convergence level, ATE/RPE scratch, path length, distance errors;
+  // convergence and ATE/RPE indices), made together when the pool lacks them (scratch.ts)
+  reserveScratch(track.length, 5, 2);
   const findings: Finding[] = [];
   const series: Series[] = [];
   const { w0, w1, t_s, status } = track;
@@ -482,6 +566,7 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     else compared++;
   }
   const segs = segmentBounds(t_s, w0, w1, log.resets);
+  const segments: Segments = { bounds: segs, windows: [] };
   const smooth_s = settings.window_s / 5;
 
   const block: ErrorsBlock = {
@@ -495,11 +580,16 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
   };
   if (track.frameAssumed && track.estP.length >= 2) block.notes.push('frame not given: the trajectory plot assumes ENU (x east, y north)');
 
+  // Per block: the window's figures (with each epoch's error norm for the convergence), then every segment's, reusing
+  // the window's when a segment is the whole window (the usual run without resets; each pass is ~5 ms on 250k epochs).
+  const norm = takeFloat64(track.length);
+  const scratch: ConvergenceScratch = { idx: takeInt32(w1 - w0), level: takeFloat64(w1 - w0) };
+  const perSegment: { f: ErrorFigures; conv: Convergence; nees?: { mean?: number; inside95?: number } }[][] = [];
   for (const b of track.blocks) {
-    const f = errorFigures(b.err, w0, w1, 2);
-    const nees = neesFigures(track, b, segs, settings, findings, series);
+    const { f, within: w3, nees: summary } = windowPass(b, w0, w1, settings.confidence, norm);
+    const dof = b.neesErr.length;
+    const nees = neesFigures(track, b, summary, segments, settings, findings, series);
     errorSeries(track, b, series);
-    const w3 = within3Sigma(b, w0, w1);
     if (w3) block.within3Sigma[b.name] = w3;
     if (b.name === 'position') {
       block.position = {
@@ -516,7 +606,20 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
         rmsePerAxisDeg: f.rmsePerAxis?.map((v) => v * RAD2DEG), nees,
       };
     }
+    const segFigures: (typeof perSegment)[number] = [];
+    for (let s = 0; s + 1 < segs.length; s++) {
+      const i0 = segs[s], i1 = segs[s + 1];
+      if (i1 <= i0) continue;
+      const whole = i0 === w0 && i1 === w1;
+      const seg = whole ? undefined : windowPass(b, i0, i1, settings.confidence, norm); // the same norms again
+      const fs = seg ? seg.f : f;
+      const conv = convergence(t_s, norm, i0, i1, smooth_s, scratch);
+      const ns = seg ? seg.nees : summary;
+      segFigures.push({ f: fs, conv, ...(ns && ns.count > 0 ? { nees: { mean: ns.mean, inside95: ns.inside95 } } : {}) });
+    }
+    perSegment.push(segFigures);
   }
+  giveBack(norm, scratch.idx, scratch.level);
   if (track.joint) {
     const s = neesSummary(track.joint.nees, track.joint.dof, settings.confidence, w0, w1);
     if (s.count > 0) {
@@ -532,18 +635,13 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
     }
   }
 
-  // segments and convergence: one norm column and one set of work columns for every block and segment
-  const norm = takeFloat64(track.length);
-  const scratch: ConvergenceScratch = { idx: takeInt32(w1 - w0), level: takeFloat64(w1 - w0) };
-  for (let s = 0; s + 1 < segs.length; s++) {
+  // segments and convergence, from the figures above
+  for (let s = 0, j = 0; s + 1 < segs.length; s++) {
     const i0 = segs[s], i1 = segs[s + 1];
     if (i1 <= i0) continue;
     const seg: SegmentErrors = { t: t_s[i0], tEnd: t_s[i1 - 1], epochs: i1 - i0 };
-    for (const b of track.blocks) {
-      const f = errorFigures(b.err, i0, i1);
-      const conv = convergence(t_s, normInto(b.err, i0, i1, norm), i0, i1, smooth_s, scratch);
-      const ns = b.nees ? neesSummary(b.nees, b.neesErr.length, settings.confidence, i0, i1) : undefined;
-      const nees = ns && ns.count > 0 ? { mean: ns.mean, inside95: ns.inside95 } : undefined;
+    track.blocks.forEach((b, bi) => {
+      const { f, conv, nees } = perSegment[bi][j];
       if (b.name === 'orientation') {
         const degConv: Convergence = { ...conv };
         if (conv.steadyState !== undefined) degConv.steadyState = conv.steadyState * RAD2DEG;
@@ -554,10 +652,10 @@ function analyzeErrorsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
         seg[b.name] = { rmse: f.rmse, nees, convergence: conv };
         if (s === 0) block.convergence[b.name] = conv;
       }
-    }
+    });
     block.segments.push(seg);
+    j++;
   }
-  giveBack(norm, scratch.idx, scratch.level);
 
   trajectorySeries(track, series);
   return { block, findings, series };

@@ -60,6 +60,7 @@ function pairError(inp: RelativeInput, i: number, j: number): number {
 /** The pair error with the attitudes at i already in Ra, Rb (`rotated`), or without attitudes. */
 function pairErrorWith(inp: RelativeInput, i: number, j: number, rotated: boolean): number {
   const d = inp.est.length;
+  if (d === 3) return pairError3(inp.est, inp.ref, i, j, rotated);
   de.fill(0); dr.fill(0);
   for (let c = 0; c < d; c++) { de[c] = inp.est[c][j] - inp.est[c][i]; dr[c] = inp.ref[c][j] - inp.ref[c][i]; }
   if (rotated) {
@@ -71,6 +72,24 @@ function pairErrorWith(inp: RelativeInput, i: number, j: number, rotated: boolea
     if (Number.isFinite(le[0] + le[1] + le[2] + lr[0] + lr[1] + lr[2])) return norm3(le[0] - lr[0], le[1] - lr[1], le[2] - lr[2]);
   }
   return norm3(de[0] - dr[0], de[1] - dr[1], de[2] - dr[2]);
+}
+
+/**
+ * {@link pairErrorWith} of 3-D positions on locals instead of scratch vectors (it was the largest cost of the relative
+ * error on a long log): the same products and sums in the same order.
+ */
+function pairError3(est: Float64Array[], ref: Float64Array[], i: number, j: number, rotated: boolean): number {
+  const e0 = est[0], e1 = est[1], e2 = est[2], f0 = ref[0], f1 = ref[1], f2 = ref[2];
+  const de0 = e0[j] - e0[i], de1 = e1[j] - e1[i], de2 = e2[j] - e2[i];
+  const dr0 = f0[j] - f0[i], dr1 = f1[j] - f1[i], dr2 = f2[j] - f2[i];
+  if (rotated) {
+    const a = Ra, b = Rb;
+    const le0 = a[0] * de0 + a[3] * de1 + a[6] * de2, lr0 = b[0] * dr0 + b[3] * dr1 + b[6] * dr2;
+    const le1 = a[1] * de0 + a[4] * de1 + a[7] * de2, lr1 = b[1] * dr0 + b[4] * dr1 + b[7] * dr2;
+    const le2 = a[2] * de0 + a[5] * de1 + a[8] * de2, lr2 = b[2] * dr0 + b[5] * dr1 + b[8] * dr2;
+    if (Number.isFinite(le0 + le1 + le2 + lr0 + lr1 + lr2)) return norm3(le0 - lr0, le1 - lr1, le2 - lr2);
+  }
+  return norm3(de0 - dr0, de1 - dr1, de2 - dr2);
 }
 
 /** |a| of a 3-vector as a plain square root (see attitude.ts on the fast norm). */
@@ -140,24 +159,60 @@ export interface RelativeErrors {
  * @param distanceFor the distance window for the reference path length (e.g. {@link defaultDistanceWindow})
  */
 export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_s: number, distanceFor: (pathLength_m: number) => number): RelativeErrors {
-  const { t_s, use, ref } = inp;
-  const n = use.length;
+  const n = inp.use.length;
   const s = takeFloat64(n);
-  s[0] = 0;
-  for (let p = 1; p < n; p++) {
-    let d2 = 0;
-    for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
-    s[p] = s[p - 1] + Math.sqrt(d2);
-  }
+  cumulativePath(inp.ref, inp.use, s);
   const pathLength_m = n > 0 ? s[n - 1] : 0;
   const D = distanceFor(pathLength_m);
   const withDistance = D > 0;
   const tol = Math.max(window_s / 10, Number.isFinite(medianStep_s) ? medianStep_s : 0);
   const errsT = scratchFor(inp);
   const errsD = withDistance ? takeFloat64(n) : errsT;
+  const counts = new Float64Array(2);
+  pairErrors(inp, s, window_s, tol, D, errsT, errsD, counts);
+  const countT = counts[0], countD = counts[1];
+  const out = {
+    time: stats(errsT, countT), ...(withDistance ? { distance: stats(errsD, countD) } : {}), distance_m: D, pathLength_m,
+  };
+  giveBack(s, withDistance ? errsD : undefined);
+  return out;
+}
+
+// One loop per function below: the stage runs once per process, and V8 compiles a long loop well only when it is
+// alone in its function (see track.ts).
+
+/** Reference path length from the first used epoch to each used epoch, into s. */
+function cumulativePath(ref: Float64Array[], use: ArrayLike<number>, s: Float64Array): void {
+  const n = use.length;
+  if (n > 0) s[0] = 0;
+  if (ref.length === 3) {
+    // 0 + x = x for the first (non-negative) square: the general loop's sum
+    const [c0, c1, c2] = ref;
+    for (let p = 1; p < n; p++) {
+      const i = use[p], h = use[p - 1];
+      const d0 = c0[i] - c0[h], d1 = c1[i] - c1[h], d2 = c2[i] - c2[h];
+      s[p] = s[p - 1] + Math.sqrt(d0 * d0 + d1 * d1 + d2 * d2);
+    }
+    return;
+  }
+  for (let p = 1; p < n; p++) {
+    let d2 = 0;
+    for (const c of ref) { const d = c[use[p]] - c[use[p - 1]]; d2 += d * d; }
+    s[p] = s[p - 1] + Math.sqrt(d2);
+  }
+}
+
+/**
+ * The pairs of both windows in one pass over the start epochs (the attitudes at each start computed once for both):
+ * time-window errors into errsT, distance-window errors (D > 0) into errsD, their counts into counts[0], counts[1].
+ */
+function pairErrors(inp: RelativeInput, s: Float64Array, window_s: number, tol: number, D: number, errsT: Float64Array,
+  errsD: Float64Array, counts: Float64Array): void {
+  const { t_s, use } = inp;
+  const n = use.length;
   let countT = 0, countD = 0;
   let qT = 0, qD = 0;
-  let timeDone = false, distanceDone = !withDistance;
+  let timeDone = false, distanceDone = !(D > 0);
   const hasAtt = !!inp.estAtt && !!inp.refAtt && inp.est.length === 3;
   for (let p = 0; p < n && !(timeDone && distanceDone); p++) {
     const i = use[p];
@@ -182,11 +237,7 @@ export function relativeErrors(inp: RelativeInput, window_s: number, medianStep_
     if (jT >= 0) { const e = pairErrorWith(inp, i, jT, rotated); if (Number.isFinite(e)) errsT[countT++] = e; }
     if (jD >= 0) { const e = pairErrorWith(inp, i, jD, rotated); if (Number.isFinite(e)) errsD[countD++] = e; }
   }
-  const out = {
-    time: stats(errsT, countT), ...(withDistance ? { distance: stats(errsD, countD) } : {}), distance_m: D, pathLength_m,
-  };
-  giveBack(s, withDistance ? errsD : undefined);
-  return out;
+  counts[0] = countT; counts[1] = countD;
 }
 
 /** Reference path length over the used epochs, metres. */

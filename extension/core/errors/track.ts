@@ -23,6 +23,7 @@ import {
 import { geodeticToLocal, type GeodeticOrigin, type LocalFrame } from './geodetic';
 import { componentSigma, neesSeries, type BlockCovariance } from './nees';
 import { normalisedQuaternionColumns, rotationAt, type AttitudeColumns } from './attitude';
+import { columnBlock } from '../columnBlock';
 
 /** Names of the error blocks. */
 export type BlockName = 'position' | 'velocity' | 'orientation';
@@ -155,11 +156,81 @@ function blockCovariance(state: StateStream, states: string[], sigmaNames: strin
   return undefined;
 }
 
-/** r - p at the compared epochs, NaN elsewhere (one pass, every value written once). */
-function differenceColumn(r: Float64Array, p: Float64Array, n: number, compared: (k: number) => boolean): Float64Array {
-  const e = new Float64Array(n);
-  for (let k = 0; k < n; k++) e[k] = compared(k) ? r[k] - p[k] : NaN;
-  return e;
+/*
+ * The per-epoch loops below are small functions of one loop each, with one store per value whatever the branch:
+ * this stage runs once per process, and V8 compiles a hot loop only after a few thousand slow iterations; a loop in a
+ * long function, or followed by code that has not run yet, or a rare branch with its own stores (a missing epoch)
+ * sends it back to the slow tier for thousands more (seen with --trace-deopt/--trace-osr on a 250k-epoch log, where
+ * heap profiles of one run showed most epochs of such loops boxing numbers in the slow tier).
+ */
+
+/** ALIGN_OK where every present reference position component is finite, ALIGN_IN_GAP elsewhere. */
+function positionStatus(p: (Float64Array | undefined)[], n: number): Uint8Array {
+  const status = new Uint8Array(n);
+  const [c0, c1, c2] = p;
+  for (let k = 0; k < n; k++) {
+    const ok = (!c0 || Number.isFinite(c0[k])) && (!c1 || Number.isFinite(c1[k])) && (!c2 || Number.isFinite(c2[k]));
+    status[k] = ok ? ALIGN_OK : ALIGN_IN_GAP;
+  }
+  return status;
+}
+
+/** ALIGN_OK where the attitude is usable (all ALIGN_OK without one), ALIGN_IN_GAP elsewhere. */
+function attitudeStatus(att: AttitudeColumns | undefined, n: number): Uint8Array {
+  const status = new Uint8Array(n);
+  for (let k = 0; k < n; k++) status[k] = !att || rotationAt(scratchA, att, k) ? ALIGN_OK : ALIGN_IN_GAP;
+  return status;
+}
+
+/**
+ * Orientation error (rotation vector, rad) per epoch: navigation side Log(R_true R_est^T), body side
+ * Log(R_est^T R_true); NaN where not compared or either attitude is unusable.
+ */
+function orientationErrors(estAtt: AttitudeColumns, refAtt: AttitudeColumns, status: Uint8Array, n: number, w0: number, w1: number,
+  side: 'nav' | 'body', column: () => Float64Array): Float64Array[] {
+  const ex = column(), ey = column(), ez = column();
+  const E = new Float64Array(9), v = new Float64Array(3);
+  const Re = scratchA, Rt = scratchB;
+  ex.fill(NaN, 0, w0); ey.fill(NaN, 0, w0); ez.fill(NaN, 0, w0);
+  ex.fill(NaN, w1, n); ey.fill(NaN, w1, n); ez.fill(NaN, w1, n);
+  const body = side === 'body';
+  for (let k = w0; k < w1; k++) {
+    const ok = status[k] === ALIGN_OK && rotationAt(Re, estAtt, k) && rotationAt(Rt, refAtt, k);
+    if (ok) {
+      if (body) mat3MultiplyTransposeA(E, Re, Rt); else mat3MultiplyTransposeB(E, Rt, Re);
+      so3Log(v, E);
+    }
+    ex[k] = ok ? v[0] : NaN; ey[k] = ok ? v[1] : NaN; ez[k] = ok ? v[2] : NaN;
+  }
+  return [ex, ey, ez];
+}
+
+/**
+ * r[c] - p[c] of every component at the compared epochs (inside [w0, w1) with status ALIGN_OK), NaN elsewhere: one
+ * pass writing every value once (a per-epoch predicate closure and one pass per component cost ~40 ms on 250k epochs).
+ */
+function differenceColumns(r: Float64Array[], p: Float64Array[], n: number, w0: number, w1: number, status: Uint8Array,
+  column: () => Float64Array): Float64Array[] {
+  const d = r.length;
+  const out: Float64Array[] = [];
+  for (let c = 0; c < d; c++) {
+    const e = column();
+    e.fill(NaN, 0, w0); e.fill(NaN, w1, n);
+    out.push(e);
+  }
+  if (d === 3) {
+    const [r0, r1, r2] = r, [p0, p1, p2] = p, [e0, e1, e2] = out;
+    for (let k = w0; k < w1; k++) {
+      const ok = status[k] === ALIGN_OK;
+      e0[k] = ok ? r0[k] - p0[k] : NaN; e1[k] = ok ? r1[k] - p1[k] : NaN; e2[k] = ok ? r2[k] - p2[k] : NaN;
+    }
+  } else {
+    for (let c = 0; c < d; c++) {
+      const rc = r[c], pc = p[c], e = out[c];
+      for (let k = w0; k < w1; k++) e[k] = status[k] === ALIGN_OK ? rc[k] - pc[k] : NaN;
+    }
+  }
+  return out;
 }
 
 /**
@@ -193,6 +264,11 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   const hasVel = allDefined(refV) && allDefined(estV);
   const hasAtt = !!(refQ && estQRaw);
   if (!hasPos && !hasVel && !hasAtt) return undefined;
+
+  // Every long column the track keeps comes from one allocation (columnBlock.ts: huge pages instead of ~500 page
+  // faults per column); the count is an upper bound (slots never used cost no memory).
+  const group = log.conventions.errorGroup ?? 'SO3xR3';
+  const column = columnBlock(n, (ref ? 3 + velDims + 4 : 0) + 3 + velDims + 3 + 3 + (group !== 'SO3xR3' ? 9 : 0) + (state.P ? 10 : 0));
 
   // --- time alignment -------------------------------------------------------------------------------------
   let offset = ref ? settings.timeOffset_s : 0;
@@ -228,11 +304,11 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
     const step = medianStep(ref.t_s, ref.length);
     const br = bracketTimes(state.t_s, n, ref.t_s, ref.length, offset, valid, MAX_GAP_STEPS * step * (1 + 1e-9));
     const interp = (c: Float64Array | undefined): Float64Array | undefined =>
-      c ? interpolateColumn(c, br, new Float64Array(n)) : undefined;
+      c ? interpolateColumn(c, br, column()) : undefined;
     rp = refPos ? refPos.p.map(interp) : [];
     rv = hasVel ? (refV as Float64Array[]).map((c) => interp(c) as Float64Array) : [];
     if (refQ) {
-      const out: [Float64Array, Float64Array, Float64Array, Float64Array] = [new Float64Array(n), new Float64Array(n), new Float64Array(n), new Float64Array(n)];
+      const out: [Float64Array, Float64Array, Float64Array, Float64Array] = [column(), column(), column(), column()];
       interpolateAttitude(refQ[0], refQ[1], refQ[2], refQ[3], br, out);
       refAtt = attitudeOf(out, 'unit');
     }
@@ -240,22 +316,13 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   } else {
     // The reference is in the estimate's own records: every epoch is its own bracket, so its columns are read in
     // place (no interpolated copies); an epoch is compared when its reference position (or attitude) is there.
-    status = new Uint8Array(n);
-    const [c0, c1, c2] = refPos ? refPos.p : [];
-    const qAtt = !refPos && refQ ? attitudeOf(refQ, 'logged') : undefined;
-    for (let k = 0; k < n; k++) {
-      let ok = true;
-      if (refPos) ok = (!c0 || Number.isFinite(c0[k])) && (!c1 || Number.isFinite(c1[k])) && (!c2 || Number.isFinite(c2[k]));
-      else if (qAtt) ok = rotationAt(scratchA, qAtt, k);
-      status[k] = ok ? ALIGN_OK : ALIGN_IN_GAP;
-    }
+    status = refPos ? positionStatus(refPos.p, n) : attitudeStatus(refQ ? attitudeOf(refQ, 'logged') : undefined, n);
     // The frame offset and lever arm below change the reference positions: they get their own copy then.
     rp = refPos ? refPos.p.map((c) => (c && (off || lever) ? c.slice(0, n) : c)) : [];
     rv = hasVel ? (refV as Float64Array[]) : [];
     if (refQ) refAtt = attitudeOf(refQ, 'loggedTwice');
   }
   const estAtt = estQRaw ? attitudeOf(estQRaw, 'logged') : undefined;
-  const compared = (k: number): boolean => k >= w0 && k < w1 && status[k] === ALIGN_OK;
 
   // Frame offset and lever arm on the reference positions.
   if (refPos && (off || lever)) {
@@ -276,7 +343,6 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   const blocks: BlockTrack[] = [];
   const side = log.conventions.attitudeErrorSide;
-  const group = log.conventions.errorGroup ?? 'SO3xR3';
 
   // --- position --------------------------------------------------------------------------------------------
   const estP: Float64Array[] = [];
@@ -284,12 +350,8 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   if (hasPos) {
     const dims = rp[2] && estPos.p[2] ? 3 : 2;
     if (dims === 2) notes.push('position compared in 2-D: no height in the estimate or the reference');
-    const err: Float64Array[] = [];
-    for (let c = 0; c < dims; c++) {
-      const r = rp[c] as Float64Array, p = estPos.p[c] as Float64Array;
-      err.push(differenceColumn(r, p, n, compared));
-      estP.push(p); refP.push(r);
-    }
+    for (let c = 0; c < dims; c++) { estP.push(estPos.p[c] as Float64Array); refP.push(rp[c] as Float64Array); }
+    const err = differenceColumns(refP, estP, n, w0, w1, status, column);
     const names = ['p_x', 'p_y', 'p_z'].slice(0, dims);
     const cov = blockCovariance(state, names, names.map((s) => `sigma_${s}`));
     blocks.push({ name: 'position', err, neesErr: err, cov });
@@ -297,7 +359,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   // --- velocity --------------------------------------------------------------------------------------------
   if (hasVel) {
-    const err = (estV as Float64Array[]).map((p, c) => differenceColumn(rv[c], p, n, compared));
+    const err = differenceColumns(rv, estV as Float64Array[], n, w0, w1, status, column);
     const names = ['v_x', 'v_y', 'v_z'].slice(0, velDims);
     if (velDims === 2) notes.push('velocity compared in 2-D: no vertical velocity in the estimate or the reference');
     blocks.push({ name: 'velocity', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
@@ -305,16 +367,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
 
   // --- orientation -----------------------------------------------------------------------------------------
   if (hasAtt && estAtt && refAtt) {
-    const ex = new Float64Array(n), ey = new Float64Array(n), ez = new Float64Array(n);
-    const E = new Float64Array(9), v = new Float64Array(3);
-    const Re = scratchA, Rt = scratchB;
-    for (let k = 0; k < n; k++) {
-      if (!compared(k) || !rotationAt(Re, estAtt, k) || !rotationAt(Rt, refAtt, k)) { ex[k] = ey[k] = ez[k] = NaN; continue; }
-      if (side === 'body') mat3MultiplyTransposeA(E, Re, Rt); else mat3MultiplyTransposeB(E, Rt, Re);
-      so3Log(v, E);
-      ex[k] = v[0]; ey[k] = v[1]; ez[k] = v[2];
-    }
-    const err = [ex, ey, ez];
+    const err = orientationErrors(estAtt, refAtt, status, n, w0, w1, side, column);
     const names = ['att_x', 'att_y', 'att_z'];
     blocks.push({ name: 'orientation', err, neesErr: err, cov: blockCovariance(state, names, names.map((s) => `sigma_${s}`)) });
   }
@@ -332,9 +385,9 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
       const size = useVel ? 15 : 12;
       const K = useVel ? 2 : 1;
       const Xe = new Float64Array(size), Xt = new Float64Array(size), eta = new Float64Array(size), xi = new Float64Array(3 + 3 * K);
-      const nPos = [0, 1, 2].map(() => new Float64Array(n).fill(NaN));
-      const nAtt = [0, 1, 2].map(() => new Float64Array(n).fill(NaN));
-      const nVel = [0, 1, 2].map(() => new Float64Array(n).fill(NaN));
+      const nPos = [0, 1, 2].map(() => column().fill(NaN));
+      const nAtt = [0, 1, 2].map(() => column().fill(NaN));
+      const nVel = [0, 1, 2].map(() => (useVel ? column() : new Float64Array(n)).fill(NaN));
       for (let k = w0; k < w1; k++) {
         if (!Number.isFinite(att.err[0][k]) || !Number.isFinite(pos.err[0][k])) continue;
         if (useVel && !Number.isFinite((vel as BlockTrack).err[0][k])) continue;
@@ -369,8 +422,8 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   // --- NEES per block and joint ----------------------------------------------------------------------------
   for (const b of blocks) {
     if (!b.cov) continue;
-    b.nees = neesSeries(b.neesErr, b.cov, n);
-    b.sigma = b.neesErr.map((_, i) => componentSigma(b.cov as BlockCovariance, i, n) as Float64Array);
+    b.nees = neesSeries(b.neesErr, b.cov, n, column());
+    b.sigma = b.neesErr.map((_, i) => componentSigma(b.cov as BlockCovariance, i, n, column) as Float64Array);
   }
   let joint: ErrorTrack['joint'];
   if (state.P && blocks.length > 1) {
@@ -382,7 +435,7 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
       errs.push(...b.neesErr);
     }
     const cov = blockCovariance(state, states, []);
-    if (cov?.full) joint = { dof: states.length, states, nees: neesSeries(errs, { full: cov.full }, n) };
+    if (cov?.full) joint = { dof: states.length, states, nees: neesSeries(errs, { full: cov.full }, n, column()) };
   }
 
   // --- the reference's own samples for the plot --------------------------------------------------------------

@@ -12,6 +12,7 @@
  * no general-purpose npm library exposes them with those branches.
  */
 import { SMALL_ANGLE_RAD, type QuatWXYZ, type Vec3 } from './quat';
+import { hypot3 } from './hypot';
 
 /** A 3x3 matrix stored row-major in 9 numbers. */
 export type Mat3 = Float64Array | number[];
@@ -162,7 +163,7 @@ export function so3Exp<T extends Mat3>(out: T, phi_rad: Vec3): T {
  */
 export function so3Log<T extends Vec3>(out: T, m: Mat3): T {
   const sx = (m[7] - m[5]) / 2, sy = (m[2] - m[6]) / 2, sz = (m[3] - m[1]) / 2; // sin(theta) u
-  const s = Math.hypot(sx, sy, sz);
+  const s = hypot3(sx, sy, sz); // the bits of Math.hypot without its per-call allocation (hypot.ts)
   const c = (m[0] + m[4] + m[8] - 1) / 2; // cos(theta)
   const theta = Math.atan2(s, c);
   if (theta < SMALL_ANGLE_RAD) {

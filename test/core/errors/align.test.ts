@@ -3,7 +3,9 @@ import { describe, expect, it } from 'vitest';
 import { Quaternion, Vector3 } from 'three';
 import {
   ALIGN_IN_GAP, ALIGN_OK, ALIGN_OUTSIDE_SPAN, bracketTimes, estimateTimeOffset, interpolateAttitude, interpolateColumn,
+  medianStep, medianStepAtMost,
 } from '../../../extension/core/errors/align';
+import { seededRandom } from '../geometry/helpers';
 import { analyzeErrors } from '../../../extension/core/errors/index';
 import { resolveSettings } from '../../../extension/core/settings';
 import { navLog, stateStream } from './fixtures';
@@ -52,6 +54,27 @@ describe('bracketTimes / interpolateColumn', () => {
     interpolateAttitude(cols[0], cols[1], cols[2], cols[3], br, out);
     const ts = new Quaternion().slerpQuaternions(qa, qb, 0.3);
     expectClose([out[0][0], out[1][0], out[2][0], out[3][0]], [ts.w, ts.x, ts.y, ts.z], 1e-12);
+  });
+});
+
+describe('medianStepAtMost', () => {
+  it('is true only when the median step (by selection) is at most the cap, and decides the usual logs', () => {
+    const rand = seededRandom(21);
+    let decided = 0;
+    for (let trial = 0; trial < 400; trial++) {
+      const n = 2 + Math.floor(rand() * 60);
+      const t = new Float64Array(n);
+      for (let i = 1; i < n; i++) t[i] = t[i - 1] + (rand() < 0.1 ? 0 : rand() < 0.2 ? -0.5 : 0.01 + rand() * 0.2);
+      const cap = 0.02 + rand() * 0.2;
+      const exact = medianStep(t, n);
+      if (medianStepAtMost(t, 0, n, cap)) { decided++; expect(exact).toBeLessThanOrEqual(cap); }
+    }
+    expect(decided).toBeGreaterThan(50);
+    // [CONSTRUCTED] 100 Hz stamps: a 5 s window's tenth (0.5 s) is far above the step
+    const t = Float64Array.from({ length: 1000 }, (_, i) => i / 100);
+    expect(medianStepAtMost(t, 0, 1000, 0.5)).toBe(true);
+    expect(medianStepAtMost(t, 0, 1000, 0.001)).toBe(false);
+    expect(medianStepAtMost(new Float64Array(1), 0, 1, 1)).toBe(false);
   });
 });
 

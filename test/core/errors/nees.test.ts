@@ -4,7 +4,9 @@
  */
 import { describe, expect, it } from 'vitest';
 import { chi2MeanInterval } from '../../../extension/core/stats/chi2';
-import { effectiveSampleSize, meanInterval, neesAutocorrelation } from '../../../extension/core/errors/nees';
+import {
+  effectiveSampleSize, errorAutocorrelations, meanInterval, neesAutocorrelation, normalisedErrorAutocorrelations,
+} from '../../../extension/core/errors/nees';
 import { analyzeErrors } from '../../../extension/core/errors/index';
 import { resolveSettings } from '../../../extension/core/settings';
 import { simulateRun } from './simulate';
@@ -55,6 +57,79 @@ describe('effective sample size', () => {
     const K = 100000;
     const expected = (K * (1 - a * a)) / (1 + a * a);
     expect(Math.abs(effectiveSampleSize(K, rho) / expected - 1)).toBeLessThan(0.1);
+  });
+});
+
+/**
+ * The autocorrelations written out plainly from their definition (common practice, Box-Jenkins: mean removed, biased
+ * estimator dividing by the series length, pairs with a missing value skipped; truncated at the first lag whose
+ * component average is not positive), for the hand-tuned version in nees.ts to match bit for bit.
+ */
+function plainAutocorrelations(z: Float64Array[], i0: number, i1: number, maxLagCap = 500): number[][] {
+  const m = i1 - i0;
+  const maxLag = Math.min(maxLagCap, Math.floor(m / 4));
+  const out: number[][] = z.map(() => []);
+  const stats = z.map((c) => {
+    let s = 0, cnt = 0;
+    for (let k = i0; k < i1; k++) if (Number.isFinite(c[k])) { s += c[k]; cnt++; }
+    const mean = cnt > 0 ? s / cnt : NaN;
+    let v = 0, cv = 0;
+    for (let k = i0; k < i1; k++) if (Number.isFinite(c[k])) { v += (c[k] - mean) * (c[k] - mean); cv++; }
+    return { mean, variance: cv > 1 ? v / cv : NaN };
+  });
+  for (let lag = 1; lag <= maxLag; lag++) {
+    const rs = z.map((c, i) => {
+      const { mean, variance } = stats[i];
+      if (!(variance > 0)) return 0;
+      let s = 0;
+      for (let k = i0; k + lag < i1; k++) if (Number.isFinite(c[k]) && Number.isFinite(c[k + lag])) s += (c[k] - mean) * (c[k + lag] - mean);
+      return s / (m * variance);
+    });
+    if (!(rs.reduce((a, b) => a + b, 0) / rs.length > 0)) break;
+    rs.forEach((r, i) => out[i].push(r));
+  }
+  return out;
+}
+
+describe('error autocorrelations: the blocked sums equal the plain definition bit for bit', () => {
+  const g = gaussian(seededRandom(5));
+  const n = 6000;
+  const ar = (a: number): Float64Array => {
+    const c = new Float64Array(n);
+    let e = g();
+    for (let k = 0; k < n; k++) { e = a * e + Math.sqrt(1 - a * a) * g(); c[k] = e; }
+    return c;
+  };
+  it('long-memory AR(1) components without gaps (hundreds of lags, blocks of four and a tail)', () => {
+    const z = [ar(0.995), ar(0.99), ar(0.998)];
+    const got = errorAutocorrelations(z, 100, n);
+    const want = plainAutocorrelations(z, 100, n);
+    expect(want[0].length).toBeGreaterThan(50);
+    expect(got.map((r) => Array.from(r))).toEqual(want);
+  });
+  it('components with missing values, and one constant component', () => {
+    const z = [ar(0.99), ar(0.9), new Float64Array(n).fill(2)];
+    for (let k = 0; k < n; k += 37) z[0][k] = NaN;
+    for (let k = 5; k < n; k += 101) z[1][k] = Infinity;
+    const got = errorAutocorrelations(z, 0, n);
+    const want = plainAutocorrelations(z, 0, n);
+    expect(want[0].length).toBeGreaterThan(10);
+    expect(got.map((r) => Array.from(r))).toEqual(want);
+  });
+  it('normalised components e / sigma equal those of the divided columns; a component without sigma counts as 0', () => {
+    const e = [ar(0.99), ar(0.98)];
+    const sigma = [Float64Array.from({ length: n }, (_, k) => 0.5 + (k % 7) / 10), Float64Array.from({ length: n }, () => 2)];
+    sigma[0][17] = 0; // an infinite z: skipped
+    const z = e.map((c, i) => Float64Array.from(c, (v, k) => v / sigma[i][k]));
+    expect(normalisedErrorAutocorrelations(e, sigma, 0, n).map((r) => Array.from(r))).toEqual(plainAutocorrelations(z, 0, n));
+    // three components (the usual block, summed three at a time), with a missing error and a zero sigma
+    const e3 = [ar(0.99), ar(0.95), ar(0.97)];
+    e3[1][40] = NaN;
+    const s3 = [sigma[0], sigma[1], Float64Array.from({ length: n }, (_, k) => (k === 99 ? 0 : 1.5))];
+    const z3 = e3.map((c, i) => Float64Array.from(c, (v, k) => v / s3[i][k]));
+    expect(normalisedErrorAutocorrelations(e3, s3, 0, n).map((r) => Array.from(r))).toEqual(plainAutocorrelations(z3, 0, n));
+    const withMissing = normalisedErrorAutocorrelations(e, [sigma[0], undefined], 0, n);
+    expect(withMissing.map((r) => Array.from(r))).toEqual(plainAutocorrelations([z[0], new Float64Array(n).fill(NaN)], 0, n));
   });
 });
 
