@@ -43,7 +43,8 @@ export function nisHistogram(nis: Float64Array, n: number, dof: number, bins = H
   }
   const edges = Array.from({ length: bins + 1 }, (_, k) => k * width);
   const density = counts.map((c) => c / (n * width));
-  const pdf = counts.map((_, k) => (chi2Cdf(edges[k + 1], dof) - chi2Cdf(edges[k], dof)) / width);
+  const cdfAt = edges.map((e) => chi2Cdf(e, dof)); // each edge once (it bounds two bins)
+  const pdf = counts.map((_, k) => (cdfAt[k + 1] - cdfAt[k]) / width);
   return { edges, counts, density, pdf, overflow, n };
 }
 
