@@ -17,7 +17,8 @@ import { oneSampleTTest } from '../stats/ttest';
 import { twoSidedNormalQuantile } from '../stats/autocorrelation';
 import { computeNisDetailed, wrappedInnovations, NIS_BAD_COVARIANCE, NIS_FROM_LOG, NIS_MISSING } from './nis';
 import { TopK } from './topK';
-import { prefixSums, slidingAverage, windowTest, type WindowSpec } from './window';
+import { prefixSums, prefixSumsInto, slidingAverage, windowTest, type WindowSpec } from './window';
+import { giveBack, takeFloat64 } from '../scratch';
 import { whiteness } from './whiteness';
 import { nisHistogram, nisKsTest } from './histogram';
 import { covarianceHealth } from './covariance';
@@ -92,11 +93,10 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   const gateValue = chi2Quantile(settings.gate, dof);
   const [lo95, hi95] = chi2Interval(0.95, dof);
 
-  const scan = scanNis(channel, nis, source, gateValue, lo95, hi95, settings.maxWorst);
+  const scan = scanUpdates(channel, nis, source, nu, gateValue, lo95, hi95, settings.maxWorst);
   const { m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
   const { idUpdates, idRejected, idCount, idSum, idInside, idOutliers } = scan;
-  const inn = scanInnovations(channel, nu);
-  const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW } = inn;
+  const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW } = scan;
 
   const accepted = n - rejected;
   const nisSummary: ChannelReport['nis'] = {
@@ -111,11 +111,15 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   const report: ChannelReport = { name, dof, updates: n, rejected, outliers, nis: nisSummary };
   if (accepted === 0) report.note = 'every update of this channel was rejected by the estimator';
 
-  // Outlier findings.
+  // Outlier findings. Their tail probabilities are kept by update for `worst` below (mostly the same updates; each
+  // chi-square tail costs microseconds).
+  const tailOf = new Map<number, number>();
   const gateText = `${formatPercent(settings.gate)} gate (${formatNumber(gateValue, 3)}) for ${dof} dof`;
   for (let q = 0; q < outlierIdx.length; q++) {
     const i = outlierIdx[q];
     const id = idOf(channel, i);
+    const p = chi2Sf(nis[i], dof);
+    tailOf.set(i, p);
     const f: Finding = {
       kind: 'outlier',
       t: t[i],
@@ -124,7 +128,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
       channel: name,
       ...(id !== undefined ? { id } : {}),
       score: nis[i],
-      p: chi2Sf(nis[i], dof),
+      p,
       severity: 'warning',
       message: `NIS ${formatNumber(nis[i])} is beyond the ${gateText}`,
     };
@@ -140,7 +144,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     const id = idOf(channel, i);
     return {
       t: t[i], line: lineCol[i], channel: name, ...(id !== undefined ? { id } : {}),
-      score: best.keys[r], p: chi2Sf(best.keys[r], dof),
+      score: best.keys[r], p: tailOf.get(i) ?? chi2Sf(best.keys[r], dof), // keys[r] is nis[i]
     };
   });
 
@@ -151,15 +155,17 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   // Windowed NIS.
   const spec = windowSpec(settings);
   if (spec && m > 0) {
-    const prefix = prefixSums(nisC, m);
+    const prefix = prefixSumsInto(nisC, m, takeFloat64(m + 1));
     const tV = tC.subarray(0, m);
     const nV = nisC.subarray(0, m);
-    // the summary now; the panel's per-update columns when the series is first read (lazySeries.ts)
+    // the summary now; the panel's per-update columns when the series is first read (lazySeries.ts), from prefix
+    // sums of their own (the same values) so the scratch column above goes back now
     const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks, false);
     const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks);
+    giveBack(prefix);
     const confidence = settings.confidence;
     let columns: ReturnType<typeof slidingAverage> | undefined;
-    const slideColumns = (): ReturnType<typeof slidingAverage> => (columns ??= slidingAverage(tV, nV, m, dof, spec, confidence, prefix, breaks));
+    const slideColumns = (): ReturnType<typeof slidingAverage> => (columns ??= slidingAverage(tV, nV, m, dof, spec, confidence, prefixSums(nV, m), breaks));
     series.push(lazySeries({ key: `nisWindow/${name}`, group: 'innovations', label: `${name} windowed NIS`, unit: '1' }, {
       x: () => tV.slice(),
       y: () => slideColumns().mean,
@@ -258,6 +264,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
 
   // Whiteness.
   const white = whiteness(nuW.subarray(0, mW * dof), zW.subarray(0, mW * dof), mW, dof, settings.whitenessLags);
+  giveBack(nuW, zW);
   if (white) {
     report.whiteness = {
       lags: white.lags,
@@ -373,22 +380,25 @@ function nisSeries(
 ): Series[] {
   const { name, dof, length: n } = channel;
   const rej = channel.rejected;
-  const band = chi2Interval(confidence, dof);
+  let band: [number, number] | undefined; // two chi-square quantiles, only when the panel reads the band
   const out: Series[] = [lazySeries({ key: `nis/${name}`, group: 'innovations', label: `${name} NIS`, unit: '1' }, {
     x, y: () => {
       const y = new Float64Array(n);
       for (let i = 0; i < n; i++) y[i] = rej[i] ? NaN : nis[i];
       return y;
     },
-    line, lo: () => new Float64Array(n).fill(band[0]), hi: () => new Float64Array(n).fill(band[1]),
+    line,
+    lo: () => new Float64Array(n).fill((band ??= chi2Interval(confidence, dof))[0]),
+    hi: () => new Float64Array(n).fill((band ??= chi2Interval(confidence, dof))[1]),
   })];
   if (rejected > 0) {
     const xr = new Float64Array(rejected);
     const yr = new Float64Array(rejected);
     const lr = new Float64Array(rejected);
-    const xAll = x(), lineAll = line();
+    // from the log's own columns (the values the shared copies hold), so those copies stay lazy
+    const tAll = channel.t_s, lineAll = channel.line;
     let q = 0;
-    for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = xAll[i]; yr[q] = nis[i]; lr[q] = lineAll[i]; q++; }
+    for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = tAll[i]; yr[q] = nis[i]; lr[q] = lineAll[i]; q++; }
     out.push({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1', x: xr, y: yr, line: lr });
   }
   return out;
@@ -427,8 +437,8 @@ function innovationSeries(
   }, { x, y, line, ...(cov ? { lo: () => makeBand(cov).lo, hi: () => makeBand(cov).hi } : {}) });
 }
 
-/** What one pass over the NIS values gathers (accepted updates with a finite NIS, compacted). */
-interface NisScan {
+/** What one pass over the updates gathers: NIS figures (accepted updates with a finite NIS, compacted) and innovations. */
+interface UpdateScan {
   m: number;
   tC: Float64Array;
   nisC: Float64Array;
@@ -447,13 +457,32 @@ interface NisScan {
   idSum: Float64Array;
   idInside: Float64Array;
   idOutliers: Float64Array;
+  /** Welford count, mean and sum of squared deviations per innovation component. */
+  compCount: Float64Array;
+  compMean: Float64Array;
+  compM2: Float64Array;
+  idNuSum: Float64Array;
+  idNuCount: Float64Array;
+  /**
+   * Accepted updates with every component (and S_cc) finite: raw and normalized innovations, compacted
+   * (scratch columns: give them back once read).
+   */
+  nuW: Float64Array;
+  zW: Float64Array;
+  mW: number;
 }
 
-/** One allocation-free pass over the NIS of a channel (kept small so the engine optimises it as a whole). */
-function scanNis(
-  channel: Channel, nis: Float64Array, source: Uint8Array, gateValue: number, lo95: number, hi95: number, maxWorst: number,
-): NisScan {
-  const n = channel.length;
+/**
+ * One allocation-free pass over the NIS and the (angle-wrapped) innovations of a channel (kept to one loop: the
+ * two passes it replaces each cost a warm-up of their own on a cold start).
+ */
+function scanUpdates(
+  channel: Channel, nis: Float64Array, source: Uint8Array, nu: Float64Array,
+  gateValue: number, lo95: number, hi95: number, maxWorst: number,
+): UpdateScan {
+  const { dof, length: n, S } = channel;
+  const dd = dof * dof;
+  const hasS = S !== undefined && S.length >= n * dd;
   const t = channel.t_s;
   const rej = channel.rejected;
   const idCol = channel.id;
@@ -469,6 +498,14 @@ function scanNis(
   const idxC = new Int32Array(n);
   const top = new TopK(Math.max(0, maxWorst));
   const outlierIdx: number[] = [];
+  const compCount = new Float64Array(dof);
+  const compMean = new Float64Array(dof);
+  const compM2 = new Float64Array(dof);
+  const idNuSum = new Float64Array(nIds * dof);
+  const idNuCount = new Float64Array(nIds * dof);
+  const nuW = takeFloat64(n * dof);
+  const zW = takeFloat64(n * dof);
+  let mW = 0;
   let m = 0;
   let rejected = 0;
   let sum = 0;
@@ -485,6 +522,7 @@ function scanNis(
       if (k >= 0) idRejected[k]++;
       continue;
     }
+    // NIS figures.
     const v = nis[i];
     const from = source[i];
     if (Number.isFinite(v)) {
@@ -511,47 +549,7 @@ function scanNis(
     } else if (from === NIS_MISSING || from === NIS_BAD_COVARIANCE) {
       missing++;
     }
-  }
-  return {
-    m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
-    idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
-  };
-}
-
-/** What one pass over the innovations gathers. */
-interface InnovationScan {
-  /** Welford count, mean and sum of squared deviations per component. */
-  compCount: Float64Array;
-  compMean: Float64Array;
-  compM2: Float64Array;
-  idNuSum: Float64Array;
-  idNuCount: Float64Array;
-  /** Accepted updates with every component (and S_cc) finite: raw and normalized innovations, compacted. */
-  nuW: Float64Array;
-  zW: Float64Array;
-  mW: number;
-}
-
-/** One allocation-free pass over the (angle-wrapped) innovations of the accepted updates. */
-function scanInnovations(channel: Channel, nu: Float64Array): InnovationScan {
-  const { dof, length: n, S } = channel;
-  const dd = dof * dof;
-  const hasS = S !== undefined && S.length >= n * dd;
-  const rej = channel.rejected;
-  const idCol = channel.id;
-  const nIds = channel.ids.length;
-  const compCount = new Float64Array(dof);
-  const compMean = new Float64Array(dof);
-  const compM2 = new Float64Array(dof);
-  const idNuSum = new Float64Array(nIds * dof);
-  const idNuCount = new Float64Array(nIds * dof);
-  const nuW = new Float64Array(n * dof);
-  const zW = new Float64Array(n * dof);
-  let mW = 0;
-  for (let i = 0; i < n; i++) {
-    if (rej[i]) continue;
-    const idv = idCol[i];
-    const k = idv >= 0 && idv < nIds ? idv | 0 : -1;
+    // Innovations.
     const o = i * dof;
     let all = true;
     for (let c = 0; c < dof; c++) {
@@ -579,7 +577,11 @@ function scanInnovations(channel: Channel, nu: Float64Array): InnovationScan {
     }
     if (normOk) mW++;
   }
-  return { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW };
+  return {
+    m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
+    idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
+    compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW,
+  };
 }
 
 function idOf(channel: Channel, i: number): string | undefined {

@@ -169,9 +169,14 @@ function firstFinite(t: Float64Array, n: number): number {
 
 /** Prefix sums P[i] = sum of values[0..i). */
 export function prefixSums(values: Float64Array, n: number): Float64Array {
-  const p = new Float64Array(n + 1);
-  for (let i = 0; i < n; i++) p[i + 1] = p[i] + values[i];
-  return p;
+  return prefixSumsInto(values, n, new Float64Array(n + 1));
+}
+
+/** {@link prefixSums} written into `out` (at least n + 1 values, e.g. a scratch column); returns `out`. */
+export function prefixSumsInto(values: Float64Array, n: number, out: Float64Array): Float64Array {
+  out[0] = 0;
+  for (let i = 0; i < n; i++) out[i + 1] = out[i] + values[i];
+  return out;
 }
 
 /**
