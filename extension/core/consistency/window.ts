@@ -22,7 +22,7 @@
  * windows are short again) and the tested windows are placed from each segment's start; M counts the windows of
  * every segment, so the family-wise bound holds for the whole channel.
  */
-import { chi2Cdf, chi2Interval, chi2Sf } from '../stats/chi2';
+import { chi2Cdf, chi2Interval, chi2IntervalLower, chi2IntervalUpper, chi2Sf } from '../stats/chi2';
 import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 
 /** Window definition: seconds or a count of updates. */
@@ -96,68 +96,74 @@ class BoundsCache {
   upper(count: number): number { return this.hi[count]; }
 }
 
-/** Relative margin on the brackets of {@link BracketedBounds}: far above the round-off of a quantile. */
+/** Relative margin on the brackets of {@link BracketedBound}: far above the round-off of a quantile. */
 const BRACKET_MARGIN = 1e-9;
 
 /**
- * The same bounds as BoundsCache, for counts in [kMin, kMax], computed only where a window's decision needs them.
+ * One end of the bounds BoundsCache gives (the lower or the upper end of the average's interval), for counts in
+ * [kMin, kMax], computed only where a window's decision needs it.
  * A chi-square(nu + d) variable is a chi-square(nu) one plus an independent non-negative one, so every quantile
  * q_p(nu) grows with nu; for counts k1 < k < k2 the average's bound b(k) = q(k dof) / k therefore lies in
- * [b(k1) k1 / k, b(k2) k2 / k]. With the bounds of kMin and kMax computed first, most windows lie clearly inside
- * (or outside) these brackets and need no quantile of their own (each costs ~0.1 ms: hundreds of them were a large
- * part of the consistency stage); the rest are computed exactly and tighten the brackets of their neighbours.
- * Decisions are those of the exact bounds: a bracket is used only when the value is BRACKET_MARGIN clear of it.
+ * [b(k1) k1 / k, b(k2) k2 / k]. With the bounds of kMin and kMax computed first, most windows lie clearly on one
+ * side of these brackets and need no quantile of their own (each costs ~0.1 ms: hundreds of them were a large part
+ * of the consistency stage); the rest are computed exactly and tighten the brackets of their neighbours.
+ * Decisions are those of the exact bound: a bracket is used only when the value is BRACKET_MARGIN clear of it.
  */
-class BracketedBounds {
-  private readonly lo: Float64Array;
-  private readonly hi: Float64Array;
-  /** Nearest count (offset from kMin) below / above with computed bounds; -1 when none. */
+class BracketedBound {
+  private readonly value: Float64Array;
+  private readonly done: Uint8Array;
+  /** Nearest count (offset from kMin) below / above whose bound is computed; -1 when none. */
   private readonly below: Int32Array;
   private readonly above: Int32Array;
-  private readonly done: Uint8Array;
-  constructor(private readonly confidence: number, private readonly dof: number, private readonly kMin: number, kMax: number) {
+  constructor(
+    private readonly quantile: (confidence: number, dof: number) => number,
+    private readonly confidence: number, private readonly dof: number, private readonly kMin: number, kMax: number,
+  ) {
     const size = kMax - kMin + 1;
-    this.lo = new Float64Array(size);
-    this.hi = new Float64Array(size);
+    this.value = new Float64Array(size);
+    this.done = new Uint8Array(size);
     this.below = new Int32Array(size).fill(-1);
     this.above = new Int32Array(size).fill(-1);
-    this.done = new Uint8Array(size);
-    this.ensure(kMin);
-    this.ensure(kMax);
+    this.exact(kMin);
+    this.exact(kMax);
   }
-  /** Compute the exact bounds of `count` (if not yet); then read `lower(count)` and `upper(count)`. */
-  ensure(count: number): void {
+  /** The exact bound of `count`, computed on first use (as BoundsCache: quantile of count * dof, over count). */
+  exact(count: number): number {
     const o = count - this.kMin;
-    if (this.done[o]) return;
-    const b = chi2Interval(this.confidence, this.dof * count);
-    this.lo[o] = b[0] / count;
-    this.hi[o] = b[1] / count;
+    if (this.done[o]) return this.value[o];
+    const v = this.quantile(this.confidence, this.dof * count) / count;
+    this.value[o] = v;
     this.done[o] = 1;
     const size = this.done.length;
     for (let q = o + 1; q < size; q++) { this.below[q] = o; if (this.done[q]) break; }
     for (let q = o - 1; q >= 0; q--) { this.above[q] = o; if (this.done[q]) break; }
+    return v;
   }
-  lower(count: number): number { return this.lo[count - this.kMin]; }
-  upper(count: number): number { return this.hi[count - this.kMin]; }
-  /**
-   * Whether `mean` certainly lies inside the bounds of `count` (lower <= mean <= upper): 1 inside, -1 outside,
-   * 0 not decided by the brackets (call `ensure` and compare).
-   */
-  decide(count: number, mean: number): number {
+  /** Whether mean > bound(count), exactly as a comparison with the exact bound would answer. */
+  exceeds(count: number, mean: number): boolean {
     const o = count - this.kMin;
-    if (this.done[o]) return 0;
-    const a = this.below[o];
-    const b = this.above[o];
-    if (a < 0 || b < 0) return 0;
-    const ka = a + this.kMin;
-    const kb = b + this.kMin;
-    const upperLow = ((this.hi[a] * ka) / count) * (1 - BRACKET_MARGIN);
-    const lowerHigh = ((this.lo[b] * kb) / count) * (1 + BRACKET_MARGIN);
-    if (mean >= lowerHigh && mean <= upperLow) return 1;
-    const upperHigh = ((this.hi[b] * kb) / count) * (1 + BRACKET_MARGIN);
-    const lowerLow = ((this.lo[a] * ka) / count) * (1 - BRACKET_MARGIN);
-    if (mean > upperHigh || mean < lowerLow) return -1;
-    return 0; // near a bound, or a NaN anywhere
+    if (!this.done[o]) {
+      const a = this.below[o];
+      const b = this.above[o];
+      if (a >= 0 && b >= 0) {
+        if (mean <= ((this.value[a] * (a + this.kMin)) / count) * (1 - BRACKET_MARGIN)) return false;
+        if (mean > ((this.value[b] * (b + this.kMin)) / count) * (1 + BRACKET_MARGIN)) return true;
+      }
+    }
+    return mean > this.exact(count);
+  }
+  /** Whether mean < bound(count), exactly as a comparison with the exact bound would answer. */
+  under(count: number, mean: number): boolean {
+    const o = count - this.kMin;
+    if (!this.done[o]) {
+      const a = this.below[o];
+      const b = this.above[o];
+      if (a >= 0 && b >= 0) {
+        if (mean >= ((this.value[b] * (b + this.kMin)) / count) * (1 + BRACKET_MARGIN)) return false;
+        if (mean < ((this.value[a] * (a + this.kMin)) / count) * (1 - BRACKET_MARGIN)) return true;
+      }
+    }
+    return mean < this.exact(count);
   }
 }
 
@@ -288,15 +294,18 @@ function slidingInside95(
   }
   let fullInside95 = 0;
   if (full > 0) {
-    const band95 = new BracketedBounds(0.95, dof, kMin, kMax);
+    const lo95 = new BracketedBound(chi2IntervalLower, 0.95, dof, kMin, kMax);
+    const hi95 = new BracketedBound(chi2IntervalUpper, 0.95, dof, kMin, kMax);
+    // Inside is m >= lower && m <= upper, as slidingAverage compares; for a mean that is not NaN and finite
+    // bounds (always, for a positive dof) that is neither under the lower nor above the upper bound.
+    const finite = [lo95.exact(kMin), lo95.exact(kMax), hi95.exact(kMin), hi95.exact(kMax)].every(Number.isFinite);
     for (let w = 0; w < full; w++) {
       const k = counts[w];
       const m = means[w];
-      const sure = band95.decide(k, m);
-      if (sure > 0) fullInside95++;
-      else if (sure === 0) {
-        band95.ensure(k);
-        if (m >= band95.lower(k) && m <= band95.upper(k)) fullInside95++;
+      if (!finite) {
+        if (m >= lo95.exact(k) && m <= hi95.exact(k)) fullInside95++;
+      } else if (!Number.isNaN(m) && !hi95.exceeds(k, m) && !lo95.under(k, m)) {
+        fullInside95++;
       }
     }
   }
@@ -328,22 +337,21 @@ export function windowTest(
     if (k < kMin) kMin = k;
     if (k > kMax) kMax = k;
   }
-  const bounds = tests > 0 ? new BracketedBounds(1 - alphaPerTest, dof, kMin, kMax) : undefined;
+  // Each end of the bounds is computed only for the counts whose decision needs it (BracketedBound), e.g. only
+  // the upper end for a window above its bounds; comparisons are those of the exact bounds.
+  const lower = tests > 0 ? new BracketedBound(chi2IntervalLower, 1 - alphaPerTest, dof, kMin, kMax) : undefined;
+  const upper = tests > 0 ? new BracketedBound(chi2IntervalUpper, 1 - alphaPerTest, dof, kMin, kMax) : undefined;
   const runs: InconsistentRun[] = [];
   let open: InconsistentRun | undefined;
-  for (let wi = 0; wi < tests && bounds; wi++) {
+  for (let wi = 0; wi < tests && lower && upper; wi++) {
     const a = starts[wi];
     const b = ends[wi];
     const k = b - a;
     const m = (prefix[b] - prefix[a]) / k;
-    // Certainly inside its bounds: not flagged, and it closes a run, as an exact comparison would.
-    if (bounds.decide(k, m) > 0) { open = undefined; continue; }
-    bounds.ensure(k);
-    const lo = bounds.lower(k);
-    const hi = bounds.upper(k);
-    const side = m > hi ? 'overconfident' : m < lo ? 'pessimistic' : undefined;
+    // m > hi ? overconfident : m < lo ? pessimistic : not flagged
+    const side = upper.exceeds(k, m) ? 'overconfident' : lower.under(k, m) ? 'pessimistic' : undefined;
     if (!side) { open = undefined; continue; }
-    const bound = side === 'overconfident' ? hi : lo;
+    const bound = side === 'overconfident' ? upper.exact(k) : lower.exact(k);
     if (open && open.side === side) {
       open.last = b - 1;
       open.windows++;
