@@ -96,23 +96,46 @@ function blockSources(state: StateStream): { blocks: BlockSource[]; stride: numb
 }
 
 /**
- * Median of a block's finite positive traces, sampled every `every` epochs (a floor needs no exact median): the
- * upper middle value, as after a sort, found by selection in a scratch column.
+ * The blocks flattened for the epoch loop: block k reads the P diagonal offsets diag[diagStart[k]..diagStart[k+1])
+ * and the sigma columns sig[sigStart[k]..sigStart[k+1]).
  */
-function positiveMedianTrace(
-  b: BlockSource, n: number, every: number, matrix: Float64Array | undefined, stride: number, xs: Float64Array,
-): number {
-  const diagonal = b.diagonal;
-  const sigmas = b.sigmas;
-  let m = 0;
-  for (let i = 0; i < n; i += every) {
-    let v = 0;
-    if (matrix) for (let q = 0; q < diagonal.length; q++) v += matrix[i * stride + diagonal[q]];
-    for (let q = 0; q < sigmas.length; q++) { const s = sigmas[q][i]; v += s * s; }
-    if (v > 0 && Number.isFinite(v)) xs[m++] = v;
+interface BlockLayout {
+  blocks: BlockSource[];
+  stride: number;
+  matrix: Float64Array | undefined;
+  diag: number[];
+  diagStart: Int32Array;
+  sig: Float64Array[];
+  sigStart: Int32Array;
+}
+
+function blockLayout(state: StateStream): BlockLayout {
+  const { blocks, stride } = blockSources(state);
+  const matrix = stride > 0 ? state.P?.matrix : undefined;
+  const nb = blocks.length;
+  const diagStart = new Int32Array(nb + 1);
+  const sigStart = new Int32Array(nb + 1);
+  const diag: number[] = [];
+  const sig: Float64Array[] = [];
+  for (let k = 0; k < nb; k++) {
+    for (const d of blocks[k].diagonal) diag.push(d);
+    for (const c of blocks[k].sigmas) sig.push(c);
+    diagStart[k + 1] = diag.length;
+    sigStart[k + 1] = sig.length;
   }
-  if (m === 0) return NaN;
-  return selectInPlace(xs, m >> 1, m);
+  return { blocks, stride, matrix, diag, diagStart, sig, sigStart };
+}
+
+/**
+ * What the first pass also gathers, for the floors: every `every`-th epoch's finite positive trace of each block
+ * (block k's at samples[k * per ..], `count[k]` of them), and the smallest previous trace a ratio was taken from.
+ */
+interface FloorSample {
+  every: number;
+  per: number;
+  samples: Float64Array;
+  count: Int32Array;
+  minBefore: Float64Array;
 }
 
 /**
@@ -128,54 +151,76 @@ export function detectCovarianceJumps(
 ): CovarianceJump[] {
   const n = state.length;
   if (n < 2 || !(factor > 1)) return [];
+  // The epoch loop reads every variance column once (memory-bound: ~18 MB for 9 sigma columns of 250k epochs), so
+  // the floors' median traces, which need a sample of the same traces before the loop, are gathered by the loop
+  // itself: it first runs without floors, which gives the same ratios whenever no previous trace lies below its
+  // block's floor (the usual case: a floor is a millionth of the median); otherwise it runs again with them.
+  const layout = blockLayout(state);
+  const nb = layout.blocks.length;
+  const step = step_s ?? sampledMedianStep(state.t_s, n);
+  const every = Math.max(1, Math.floor(n / 20000));
+  const per = Math.ceil(n / every);
+  const sample: FloorSample = {
+    every, per, samples: takeFloat64(nb * per), count: new Int32Array(nb), minBefore: new Float64Array(nb).fill(Infinity),
+  };
+  const out = scanJumps(state, layout, step, factor, merge_s, undefined, sample);
+  const floors = new Float64Array(nb);
+  let floorsApply = false;
+  for (let k = 0; k < nb; k++) {
+    // Median of the block's finite positive traces (sampled: a floor needs no exact median), the upper middle
+    // value as after a sort.
+    const m = sample.count[k];
+    const median = m === 0 ? NaN : selectInPlace(sample.samples.subarray(k * per, k * per + m), m >> 1, m);
+    floors[k] = FLOOR_RELATIVE * median;
+    if (!(floors[k] > 0) || sample.minBefore[k] < floors[k]) floorsApply = true;
+  }
+  giveBack(sample.samples);
+  return floorsApply ? scanJumps(state, layout, step, factor, merge_s, floors, undefined) : out;
+}
+
+/**
+ * The epoch loop of {@link detectCovarianceJumps}: with `floors`, the rule of the file comment (blocks whose floor
+ * is not positive are left out); without, no floor (and `sample` is filled).
+ */
+function scanJumps(
+  state: StateStream, layout: BlockLayout, step: number, factor: number, merge_s: number,
+  floors: Float64Array | undefined, sample: FloorSample | undefined,
+): CovarianceJump[] {
   // One pass over the epochs, every block's trace computed on the fly: no column per state or block is made
   // (new memory is the expensive part on a long log), only a few numbers per block. The traces are summed inline
   // in the same order as a per-block helper would (P diagonal, then sigma squares): a call and two for-of loops per
   // block and epoch cost ~4x the arithmetic on 250k epochs.
-  const { blocks, stride } = blockSources(state);
-  const matrix = stride > 0 ? state.P?.matrix : undefined;
+  const n = state.length;
   const t = state.t_s;
-  const step = step_s ?? sampledMedianStep(t, n);
+  const { blocks, stride, matrix, diag, diagStart, sig, sigStart } = layout;
   const nb = blocks.length;
-  const every = Math.max(1, Math.floor(n / 20000));
-  const sample = takeFloat64(Math.ceil(n / every));
-  const floors = new Float64Array(nb);
-  for (let k = 0; k < nb; k++) floors[k] = FLOOR_RELATIVE * positiveMedianTrace(blocks[k], n, every, matrix, stride, sample);
-  giveBack(sample);
-  // Flat lists: block k reads diagonal offsets diag[diagStart[k]..diagStart[k+1]) and sigma columns
-  // sig[sigStart[k]..sigStart[k+1]).
-  const diagStart = new Int32Array(nb + 1);
-  const sigStart = new Int32Array(nb + 1);
-  const diag: number[] = [];
-  const sig: Float64Array[] = [];
-  for (let k = 0; k < nb; k++) {
-    for (const d of blocks[k].diagonal) diag.push(d);
-    for (const c of blocks[k].sigmas) sig.push(c);
-    diagStart[k + 1] = diag.length;
-    sigStart[k + 1] = sig.length;
-  }
   const prevTrace = new Float64Array(nb);
   const prevIndex = new Int32Array(nb).fill(-1);
   const out: CovarianceJump[] = [];
   const limit = 1.5 * step;
+  let untilSample = 0;
   for (let i = 0; i < n; i++) {
     let best = 0;
     let bestBlock = -1;
     let bestBefore = 0;
     let bestAfter = 0;
     const row = i * stride;
+    const sampleNow = sample !== undefined && untilSample === 0;
+    if (sample) untilSample = sampleNow ? sample.every - 1 : untilSample - 1;
     for (let k = 0; k < nb; k++) {
-      const floor = floors[k];
-      if (!(floor > 0)) continue;
+      const floor = floors ? floors[k] : 0;
+      if (floors && !(floor > 0)) continue;
       let v = 0;
       if (matrix) for (let q = diagStart[k]; q < diagStart[k + 1]; q++) v += matrix[row + diag[q]];
       for (let q = sigStart[k]; q < sigStart[k + 1]; q++) { const s = sig[q][i]; v += s * s; }
       if (!(v > 0) || !Number.isFinite(v)) continue; // NaN, zero or negative: that epoch is skipped for the block
+      if (sampleNow && sample) sample.samples[k * sample.per + sample.count[k]++] = v;
       const prev = prevIndex[k];
       if (prev >= 0) {
         const dt = t[i] - t[prev];
         const before = prevTrace[k];
-        const raw = v / Math.max(before, floor);
+        if (sample && before < sample.minBefore[k]) sample.minBefore[k] = before;
+        const raw = floors ? v / Math.max(before, floor) : v / before;
         const r = step > 0 && dt > limit ? Math.pow(raw, step / dt) : raw;
         if (r > best) {
           best = r;
