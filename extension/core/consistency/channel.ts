@@ -15,12 +15,12 @@ import { finiteJson } from '../finite';
 import { chi2Interval, chi2Quantile, chi2Sf } from '../stats/chi2';
 import { oneSampleTTest } from '../stats/ttest';
 import { twoSidedNormalQuantile } from '../stats/autocorrelation';
-import { computeNisDetailed, wrappedInnovations, NIS_BAD_COVARIANCE, NIS_FROM_LOG, NIS_MISSING } from './nis';
+import { hasFullS, nisOfUpdate, wrappedInnovations, NIS_BAD_COVARIANCE, NIS_FROM_LOG, NIS_MISSING } from './nis';
 import { TopK } from './topK';
-import { prefixSums, prefixSumsInto, slidingAverage, windowTest, type WindowSpec } from './window';
+import { prefixSums, slidingAverage, windowTest, type WindowSpec } from './window';
 import { giveBack, takeFloat64 } from '../scratch';
 import { whiteness } from './whiteness';
-import { nisHistogram, nisKsTest } from './histogram';
+import { HISTOGRAM_BINS, histogramBinWidth, nisHistogramFromCounts, nisKsTest } from './histogram';
 import { covarianceHealth } from './covariance';
 import { formatNumber, formatPercent } from './format';
 import { lazySeries } from '../lazySeries';
@@ -83,7 +83,6 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     const report: ChannelReport = { name, dof, updates: n, rejected: countRejected(channel), outliers: 0, nis: { dof } };
     return { report, findings, series, worst: [], nis: new Float64Array(n).fill(NaN) };
   }
-  const { nis, source } = computeNisDetailed(channel);
   const nu = wrappedInnovations(channel);
   const t = channel.t_s;
   const lineCol = channel.line;
@@ -93,8 +92,9 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   const gateValue = chi2Quantile(settings.gate, dof);
   const [lo95, hi95] = chi2Interval(0.95, dof);
 
-  const scan = scanUpdates(channel, nis, source, nu, gateValue, lo95, hi95, settings.maxWorst);
-  const { m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
+  const binWidth = histogramBinWidth(dof);
+  const scan = scanUpdates(channel, nu, gateValue, lo95, hi95, settings.maxWorst, binWidth);
+  const { nis, m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
   const { idUpdates, idRejected, idCount, idSum, idInside, idOutliers } = scan;
   const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW } = scan;
 
@@ -155,14 +155,13 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   // Windowed NIS.
   const spec = windowSpec(settings);
   if (spec && m > 0) {
-    const prefix = prefixSumsInto(nisC, m, takeFloat64(m + 1));
+    const prefix = scan.prefix;
     const tV = tC.subarray(0, m);
     const nV = nisC.subarray(0, m);
     // the summary now; the panel's per-update columns when the series is first read (lazySeries.ts), from prefix
     // sums of their own (the same values) so the scratch column above goes back now
     const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks, false);
     const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks);
-    giveBack(prefix);
     const confidence = settings.confidence;
     let columns: ReturnType<typeof slidingAverage> | undefined;
     const slideColumns = (): ReturnType<typeof slidingAverage> => (columns ??= slidingAverage(tV, nV, m, dof, spec, confidence, prefixSums(nV, m), breaks));
@@ -264,7 +263,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
 
   // Whiteness.
   const white = whiteness(nuW.subarray(0, mW * dof), zW.subarray(0, mW * dof), mW, dof, settings.whitenessLags);
-  giveBack(nuW, zW);
+  giveBack(nuW, zW, scan.prefix);
   if (white) {
     report.whiteness = {
       lags: white.lags,
@@ -299,7 +298,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   }
 
   // NIS distribution.
-  const hist = nisHistogram(nisC, m, dof);
+  const hist = nisHistogramFromCounts(scan.binCounts, scan.overflow, m, dof, binWidth);
   if (hist) {
     const ks = nisKsTest(nisC, m, dof);
     nisSummary.histogram = hist;
@@ -439,6 +438,8 @@ function innovationSeries(
 
 /** What one pass over the updates gathers: NIS figures (accepted updates with a finite NIS, compacted) and innovations. */
 interface UpdateScan {
+  /** NIS of every update (rejected ones included; NaN where not computable), as computeNisDetailed gives. */
+  nis: Float64Array;
   m: number;
   tC: Float64Array;
   nisC: Float64Array;
@@ -470,6 +471,11 @@ interface UpdateScan {
   nuW: Float64Array;
   zW: Float64Array;
   mW: number;
+  /** Prefix sums of nisC (scratch, m + 1 values: give it back once read). */
+  prefix: Float64Array;
+  /** Histogram counts of nisC, bins of `binWidth` (HISTOGRAM_BINS), and the values beyond the last bin. */
+  binCounts: Float64Array;
+  overflow: number;
 }
 
 /**
@@ -477,8 +483,7 @@ interface UpdateScan {
  * two passes it replaces each cost a warm-up of their own on a cold start).
  */
 function scanUpdates(
-  channel: Channel, nis: Float64Array, source: Uint8Array, nu: Float64Array,
-  gateValue: number, lo95: number, hi95: number, maxWorst: number,
+  channel: Channel, nu: Float64Array, gateValue: number, lo95: number, hi95: number, maxWorst: number, binWidth: number,
 ): UpdateScan {
   const { dof, length: n, S } = channel;
   const dd = dof * dof;
@@ -505,6 +510,14 @@ function scanUpdates(
   const idNuCount = new Float64Array(nIds * dof);
   const nuW = takeFloat64(n * dof);
   const zW = takeFloat64(n * dof);
+  const nis = new Float64Array(n);
+  const work = new Float64Array(dd + dof);
+  const haveS = hasFullS(channel);
+  const prefix = takeFloat64(n + 1);
+  prefix[0] = 0;
+  const bins = HISTOGRAM_BINS;
+  const binCounts = new Float64Array(bins);
+  let overflow = 0;
   let mW = 0;
   let m = 0;
   let rejected = 0;
@@ -514,6 +527,7 @@ function scanUpdates(
   let fromLog = 0;
   let missing = 0;
   for (let i = 0; i < n; i++) {
+    const from = nisOfUpdate(channel, nu, haveS, i, work, nis); // of rejected updates too
     const idv = idCol[i];
     const k = idv >= 0 && idv < nIds ? idv | 0 : -1;
     if (k >= 0) idUpdates[k]++;
@@ -524,12 +538,15 @@ function scanUpdates(
     }
     // NIS figures.
     const v = nis[i];
-    const from = source[i];
     if (Number.isFinite(v)) {
       tC[m] = t[i];
       nisC[m] = v;
       idxC[m] = i;
+      prefix[m + 1] = prefix[m] + v;
       m++;
+      const b = Math.floor(v / binWidth);
+      if (b >= bins) overflow++;
+      else if (b >= 0) binCounts[b]++;
       sum += v;
       const isInside = v >= lo95 && v <= hi95;
       if (isInside) inside++;
@@ -580,7 +597,7 @@ function scanUpdates(
   return {
     m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
     idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
-    compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW,
+    compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW, prefix, binCounts, overflow, nis,
   };
 }
 
