@@ -161,7 +161,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     // the summary now; the panel's per-update columns when the series is first read (lazySeries.ts), from prefix
     // sums of their own (the same values) so the scratch column above goes back now
     const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks, false);
-    const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks);
+    const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks, scan.timesSorted);
     const confidence = settings.confidence;
     let columns: ReturnType<typeof slidingAverage> | undefined;
     const slideColumns = (): ReturnType<typeof slidingAverage> => (columns ??= slidingAverage(tV, nV, m, dof, spec, confidence, prefixSums(nV, m), breaks));
@@ -471,6 +471,8 @@ interface UpdateScan {
   nuW: Float64Array;
   zW: Float64Array;
   mW: number;
+  /** Whether tC[0..m) is non-decreasing without NaN. */
+  timesSorted: boolean;
   /** Prefix sums of nisC (scratch, m + 1 values: give it back once read). */
   prefix: Float64Array;
   /** Histogram counts of nisC, bins of `binWidth` (HISTOGRAM_BINS), and the values beyond the last bin. */
@@ -518,6 +520,8 @@ function scanUpdates(
   const bins = HISTOGRAM_BINS;
   const binCounts = new Float64Array(bins);
   let overflow = 0;
+  let timesSorted = true;
+  let lastT = -Infinity;
   let mW = 0;
   let m = 0;
   let rejected = 0;
@@ -539,7 +543,10 @@ function scanUpdates(
     // NIS figures.
     const v = nis[i];
     if (Number.isFinite(v)) {
-      tC[m] = t[i];
+      const ti = t[i];
+      if (!(ti >= lastT)) timesSorted = false; // also for a NaN time
+      lastT = ti;
+      tC[m] = ti;
       nisC[m] = v;
       idxC[m] = i;
       prefix[m + 1] = prefix[m] + v;
@@ -597,7 +604,7 @@ function scanUpdates(
   return {
     m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
     idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
-    compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW, prefix, binCounts, overflow, nis,
+    compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW, prefix, binCounts, overflow, nis, timesSorted,
   };
 }
 

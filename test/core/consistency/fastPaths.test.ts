@@ -152,4 +152,23 @@ describe('window bounds from brackets', () => {
     expect(covered).toBe(flagged.length);
     for (const run of r.runs) expect(flagged).toContain(run.first);
   });
+
+  it('windows placed by bisection on sorted times are the windows the linear scan places', () => {
+    const rng = makeRng(9);
+    const n = 5000;
+    const t = new Float64Array(n);
+    let time = 100;
+    for (let i = 0; i < n; i++) {
+      time += rng.uniform() < 0.002 ? 30 * rng.uniform() : rng.uniform() < 0.1 ? 0 : 0.02 * rng.uniform(); // gaps, ties
+      t[i] = time;
+    }
+    const nis = Float64Array.from({ length: n }, (_, i) => { const z = rng.normal(); return z * z * (i % 1700 < 200 ? 3 : 1); });
+    for (const size of [0.05, 1, 7.5, 200]) {
+      const spec = { kind: 'seconds', size } as const;
+      const linear = windowTest(t, nis, n, 1, spec, 0.01, undefined, [2500], false);
+      const bisected = windowTest(t, nis, n, 1, spec, 0.01, undefined, [2500], true);
+      expect(bisected).toEqual(linear);
+      expect(linear.tests).toBeGreaterThan(0);
+    }
+  });
 });
