@@ -391,14 +391,22 @@ function nisSeries(
     hi: () => new Float64Array(n).fill((band ??= chi2Interval(confidence, dof))[1]),
   })];
   if (rejected > 0) {
-    const xr = new Float64Array(rejected);
-    const yr = new Float64Array(rejected);
-    const lr = new Float64Array(rejected);
-    // from the log's own columns (the values the shared copies hold), so those copies stay lazy
-    const tAll = channel.t_s, lineAll = channel.line;
-    let q = 0;
-    for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = tAll[i]; yr[q] = nis[i]; lr[q] = lineAll[i]; q++; }
-    out.push({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1', x: xr, y: yr, line: lr });
+    // The rejected updates' columns, made together when the panel first reads one of them.
+    let columns: { x: Float64Array; y: Float64Array; line: Float64Array } | undefined;
+    const rejectedColumns = (): { x: Float64Array; y: Float64Array; line: Float64Array } => {
+      if (columns) return columns;
+      const xr = new Float64Array(rejected);
+      const yr = new Float64Array(rejected);
+      const lr = new Float64Array(rejected);
+      // from the log's own columns (the values the shared copies hold), so those copies stay lazy
+      const tAll = channel.t_s, lineAll = channel.line;
+      let q = 0;
+      for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = tAll[i]; yr[q] = nis[i]; lr[q] = lineAll[i]; q++; }
+      return (columns = { x: xr, y: yr, line: lr });
+    };
+    out.push(lazySeries({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1' }, {
+      x: () => rejectedColumns().x, y: () => rejectedColumns().y, line: () => rejectedColumns().line,
+    }));
   }
   return out;
 }

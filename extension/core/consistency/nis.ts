@@ -72,7 +72,16 @@ export function nisOfUpdate(channel: Channel, nu: Float64Array, haveS: boolean, 
   const { dof, S, nisLogged } = channel;
   let value = NaN;
   let from = NIS_MISSING;
-  if (haveS && S !== undefined) {
+  if (haveS && S !== undefined && dof === 1) {
+    // The general branch below for one component, written out (most channels are scalar; the per-update
+    // loops and calls cost more than the arithmetic on a cold start): x^2 / s, as inverseQuadraticForm gives.
+    const x = nu[i];
+    const s = S[i];
+    if (Number.isFinite(x) && Number.isFinite(s)) {
+      value = s > 0 ? (x * x) / s : NaN;
+      from = Number.isFinite(value) ? NIS_FROM_INNOVATION : NIS_BAD_COVARIANCE;
+    }
+  } else if (haveS && S !== undefined) {
     let finite = true;
     const o = i * dof;
     for (let c = 0; c < dof; c++) if (!Number.isFinite(nu[o + c])) { finite = false; break; }
