@@ -18,7 +18,7 @@ import { twoSidedNormalQuantile } from '../stats/autocorrelation';
 import { hasFullS, nisOfUpdate, wrappedInnovations, NIS_BAD_COVARIANCE, NIS_FROM_LOG, NIS_MISSING } from './nis';
 import { TopK } from './topK';
 import { prefixSums, slidingAverage, windowTest, type WindowSpec } from './window';
-import { giveBack, takeFloat64 } from '../scratch';
+import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 import { whiteness } from './whiteness';
 import { HISTOGRAM_BINS, histogramBinWidth, nisHistogramFromCounts, nisKsTest } from './histogram';
 import { covarianceHealth } from './covariance';
@@ -163,14 +163,22 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks, false);
     const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks, scan.timesSorted);
     const confidence = settings.confidence;
+    // The compacted columns above are work columns, given back below; the panel's columns are made from copies
+    // of their own (the same selection: accepted updates with a finite NIS) when first read.
+    let kept: { t: Float64Array; nis: Float64Array; idx: Int32Array } | undefined;
+    const compacted = (): { t: Float64Array; nis: Float64Array; idx: Int32Array } => (kept ??= compactAccepted(channel, nis, m));
     let columns: ReturnType<typeof slidingAverage> | undefined;
-    const slideColumns = (): ReturnType<typeof slidingAverage> => (columns ??= slidingAverage(tV, nV, m, dof, spec, confidence, prefixSums(nV, m), breaks));
+    const slideColumns = (): ReturnType<typeof slidingAverage> => {
+      const c = compacted();
+      return (columns ??= slidingAverage(c.t, c.nis, m, dof, spec, confidence, prefixSums(c.nis, m), breaks));
+    };
     series.push(lazySeries({ key: `nisWindow/${name}`, group: 'innovations', label: `${name} windowed NIS`, unit: '1' }, {
-      x: () => tV.slice(),
+      x: () => compacted().t.slice(),
       y: () => slideColumns().mean,
       line: () => {
+        const idx = compacted().idx;
         const lineW = new Float64Array(m);
-        for (let q = 0; q < m; q++) lineW[q] = lineCol[idxC[q]];
+        for (let q = 0; q < m; q++) lineW[q] = lineCol[idx[q]];
         return lineW;
       },
       lo: () => slideColumns().lo,
@@ -208,6 +216,8 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
       });
     }
   }
+
+  giveBack(scan.prefix); // read by the windows only: the whiteness below reuses it
 
   // One copy of the time and line columns, shared by this channel's per-update series (never the log's own arrays),
   // made when a series is first read (lazySeries.ts).
@@ -263,7 +273,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
 
   // Whiteness.
   const white = whiteness(nuW.subarray(0, mW * dof), zW.subarray(0, mW * dof), mW, dof, settings.whitenessLags);
-  giveBack(nuW, zW, scan.prefix);
+  giveBack(nuW, zW);
   if (white) {
     report.whiteness = {
       lags: white.lags,
@@ -370,6 +380,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     report.byId = byId;
   }
 
+  giveBack(tC, nisC, idxC); // every reader above is done; the panel's series make their own copies
   return { report: finiteJson(report) as unknown as ChannelReport, findings, series, worst, nis };
 }
 
@@ -444,11 +455,33 @@ function innovationSeries(
   }, { x, y, line, ...(cov ? { lo: () => makeBand(cov).lo, hi: () => makeBand(cov).hi } : {}) });
 }
 
+/**
+ * The accepted updates with a finite NIS, compacted (times, NIS and update index), as the channel scan selects
+ * them: fresh arrays of `m` values for the panel's series.
+ */
+function compactAccepted(channel: Channel, nis: Float64Array, m: number): { t: Float64Array; nis: Float64Array; idx: Int32Array } {
+  const t = new Float64Array(m);
+  const v = new Float64Array(m);
+  const idx = new Int32Array(m);
+  const rej = channel.rejected;
+  const time = channel.t_s;
+  let q = 0;
+  for (let i = 0; i < channel.length && q < m; i++) {
+    if (rej[i] || !Number.isFinite(nis[i])) continue;
+    t[q] = time[i];
+    v[q] = nis[i];
+    idx[q] = i;
+    q++;
+  }
+  return { t, nis: v, idx };
+}
+
 /** What one pass over the updates gathers: NIS figures (accepted updates with a finite NIS, compacted) and innovations. */
 interface UpdateScan {
   /** NIS of every update (rejected ones included; NaN where not computable), as computeNisDetailed gives. */
   nis: Float64Array;
   m: number;
+  /** Compacted times, NIS and update indices (work columns of at least m values: give them back once read). */
   tC: Float64Array;
   nisC: Float64Array;
   idxC: Int32Array;
@@ -508,9 +541,9 @@ function scanUpdates(
   const idSum = new Float64Array(nIds);
   const idInside = new Float64Array(nIds);
   const idOutliers = new Float64Array(nIds);
-  const tC = new Float64Array(n);
-  const nisC = new Float64Array(n);
-  const idxC = new Int32Array(n);
+  const tC = takeFloat64(n);
+  const nisC = takeFloat64(n);
+  const idxC = takeInt32(n);
   const top = new TopK(Math.max(0, maxWorst));
   const outlierIdx: number[] = [];
   const compCount = new Float64Array(dof);
