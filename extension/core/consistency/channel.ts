@@ -17,7 +17,7 @@ import { oneSampleTTest } from '../stats/ttest';
 import { twoSidedNormalQuantile } from '../stats/autocorrelation';
 import { hasFullS, nisOfUpdate, wrappedInnovations, NIS_BAD_COVARIANCE, NIS_FROM_LOG, NIS_MISSING } from './nis';
 import { TopK } from './topK';
-import { prefixSums, slidingAverage, windowTest, type WindowSpec } from './window';
+import { insideShareFromPrefix, prefixSums, slidingAverage, windowTestFromPrefix, type WindowSpec } from './window';
 import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 import { whiteness } from './whiteness';
 import { HISTOGRAM_BINS, histogramBinWidth, nisHistogramFromCounts, nisKsTest } from './histogram';
@@ -50,7 +50,9 @@ export function windowSpec(settings: AnalysisSettings): WindowSpec | undefined {
 }
 
 /** NIS count, mean and share inside the per-update 95% bounds of each segment of the accepted updates. */
-function nisSegments(tC: Float64Array, nisC: Float64Array, m: number, breaks: readonly number[], lo95: number, hi95: number):
+function nisSegments(
+  tC: Float64Array, nis: Float64Array, idxC: Int32Array, m: number, breaks: readonly number[], lo95: number, hi95: number,
+):
   { t: number; tEnd: number; count: number; mean?: number; inside95?: number }[] {
   const cuts = [0, ...breaks, m];
   const out: { t: number; tEnd: number; count: number; mean?: number; inside95?: number }[] = [];
@@ -59,8 +61,9 @@ function nisSegments(tC: Float64Array, nisC: Float64Array, m: number, breaks: re
     if (b <= a) continue;
     let sum = 0, inside = 0;
     for (let q = a; q < b; q++) {
-      sum += nisC[q];
-      if (nisC[q] >= lo95 && nisC[q] <= hi95) inside++;
+      const v = nis[idxC[q]];
+      sum += v;
+      if (v >= lo95 && v <= hi95) inside++;
     }
     out.push({ t: tC[a], tEnd: tC[b - 1], count: b - a, mean: sum / (b - a), inside95: inside / (b - a) });
   }
@@ -94,7 +97,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
 
   const binWidth = histogramBinWidth(dof);
   const scan = scanUpdates(channel, nu, gateValue, lo95, hi95, settings.maxWorst, binWidth);
-  const { nis, m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
+  const { nis, m, tC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
   const { idUpdates, idRejected, idCount, idSum, idInside, idOutliers } = scan;
   const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW } = scan;
 
@@ -150,18 +153,17 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
 
   // Per segment (between filter restarts): NIS figures; the windows below never straddle a restart.
   const breaks = m > 0 && resets_s.length > 0 ? segmentBreaks(tC, 0, m, resets_s) : [];
-  if (breaks.length > 0) nisSummary.segments = nisSegments(tC, nisC, m, breaks, lo95, hi95);
+  if (breaks.length > 0) nisSummary.segments = nisSegments(tC, nis, idxC, m, breaks, lo95, hi95);
 
   // Windowed NIS.
   const spec = windowSpec(settings);
   if (spec && m > 0) {
     const prefix = scan.prefix;
     const tV = tC.subarray(0, m);
-    const nV = nisC.subarray(0, m);
     // the summary now; the panel's per-update columns when the series is first read (lazySeries.ts), from prefix
     // sums of their own (the same values) so the scratch column above goes back now
-    const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks, false);
-    const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks, scan.timesSorted);
+    const slide = insideShareFromPrefix(tV, m, dof, spec, prefix, breaks);
+    const test = windowTestFromPrefix(tV, m, dof, spec, settings.familyAlpha, prefix, breaks, scan.timesSorted);
     const confidence = settings.confidence;
     // The compacted columns above are work columns, given back below; the panel's columns are made from copies
     // of their own (the same selection: accepted updates with a finite NIS) when first read.
@@ -310,7 +312,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   // NIS distribution.
   const hist = nisHistogramFromCounts(scan.binCounts, scan.overflow, m, dof, binWidth);
   if (hist) {
-    const ks = nisKsTest(nisC, m, dof);
+    const ks = nisKsTest(nis, m, dof, idxC);
     nisSummary.histogram = hist;
     if (ks) nisSummary.ks = { d: ks.d, p: ks.p, n: ks.n, stride: ks.stride };
     const centers = Float64Array.from({ length: hist.counts.length }, (_, k) => 0.5 * (hist.edges[k] + hist.edges[k + 1]));
@@ -380,7 +382,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     report.byId = byId;
   }
 
-  giveBack(tC, nisC, idxC); // every reader above is done; the panel's series make their own copies
+  giveBack(tC, idxC); // every reader above is done; the panel's series make their own copies
   return { report: finiteJson(report) as unknown as ChannelReport, findings, series, worst, nis };
 }
 
@@ -481,9 +483,8 @@ interface UpdateScan {
   /** NIS of every update (rejected ones included; NaN where not computable), as computeNisDetailed gives. */
   nis: Float64Array;
   m: number;
-  /** Compacted times, NIS and update indices (work columns of at least m values: give them back once read). */
+  /** Compacted times and update indices (work columns of at least m values: give them back once read). */
   tC: Float64Array;
-  nisC: Float64Array;
   idxC: Int32Array;
   sum: number;
   inside: number;
@@ -514,9 +515,9 @@ interface UpdateScan {
   mW: number;
   /** Whether tC[0..m) is non-decreasing without NaN. */
   timesSorted: boolean;
-  /** Prefix sums of nisC (scratch, m + 1 values: give it back once read). */
+  /** Prefix sums of the compacted NIS (scratch, m + 1 values: give it back once read). */
   prefix: Float64Array;
-  /** Histogram counts of nisC, bins of `binWidth` (HISTOGRAM_BINS), and the values beyond the last bin. */
+  /** Histogram counts of the compacted NIS, bins of `binWidth` (HISTOGRAM_BINS), and the values beyond the last bin. */
   binCounts: Float64Array;
   overflow: number;
 }
@@ -542,7 +543,6 @@ function scanUpdates(
   const idInside = new Float64Array(nIds);
   const idOutliers = new Float64Array(nIds);
   const tC = takeFloat64(n);
-  const nisC = takeFloat64(n);
   const idxC = takeInt32(n);
   const top = new TopK(Math.max(0, maxWorst));
   const outlierIdx: number[] = [];
@@ -588,7 +588,6 @@ function scanUpdates(
       if (!(ti >= lastT)) timesSorted = false; // also for a NaN time
       lastT = ti;
       tC[m] = ti;
-      nisC[m] = v;
       idxC[m] = i;
       prefix[m + 1] = prefix[m] + v;
       m++;
@@ -643,7 +642,7 @@ function scanUpdates(
     if (normOk) mW++;
   }
   return {
-    m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
+    m, tC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
     idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
     compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW, prefix, binCounts, overflow, nis, timesSorted,
   };

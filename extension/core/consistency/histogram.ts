@@ -65,12 +65,15 @@ export function nisHistogramFromCounts(
   return { edges, counts, density, pdf, overflow, n };
 }
 
-/** KS test of the finite `nis[0..n)` against chi-square(dof) on at most KS_MAX_SAMPLES evenly strided values. */
-export function nisKsTest(nis: Float64Array, n: number, dof: number): (KsResult & { stride: number }) | undefined {
+/**
+ * KS test of the finite `nis[0..n)` against chi-square(dof) on at most KS_MAX_SAMPLES evenly strided values. With
+ * `index`, the values are nis[index[0..n)] (a compacted selection without a copy of its own).
+ */
+export function nisKsTest(nis: Float64Array, n: number, dof: number, index?: Int32Array): (KsResult & { stride: number }) | undefined {
   const stride = Math.max(1, Math.ceil(n / KS_MAX_SAMPLES));
   const sample = new Float64Array(Math.ceil(n / stride));
   let k = 0;
-  for (let i = 0; i < n; i += stride) sample[k++] = nis[i];
+  for (let i = 0; i < n; i += stride) sample[k++] = index ? nis[index[i]] : nis[i];
   const r = ksTest(sample.subarray(0, k), (x) => chi2Cdf(x, dof));
   return r ? { ...r, stride } : undefined;
 }

@@ -195,7 +195,7 @@ export function slidingAverage(
   t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, confidence: number,
   prefix = prefixSums(nis, n), breaks: readonly number[] = [], withColumns = true,
 ): SlidingAverage {
-  if (!withColumns) return slidingInside95(t_s, n, dof, spec, prefix, breaks);
+  if (!withColumns) return insideShareFromPrefix(t_s, n, dof, spec, prefix, breaks);
   const size_ = n;
   const mean = new Float64Array(size_);
   const count = new Float64Array(size_);
@@ -249,12 +249,13 @@ export function slidingAverage(
 }
 
 /**
- * {@link slidingAverage} without the per-update columns: `full` and `fullInside95` only. The windows are walked
+ * {@link slidingAverage} without the per-update columns (`withColumns` false): `full` and `fullInside95` only, from
+ * the prefix sums of the NIS (all it reads of them; the per-update columns come back empty). The windows are walked
  * exactly as there, and the inside-95% decision is taken with bracketed bounds (BracketedBound) between the smallest
  * and largest count of a full window.
  */
-function slidingInside95(
-  t_s: Float64Array, n: number, dof: number, spec: WindowSpec, prefix: Float64Array, breaks: readonly number[],
+export function insideShareFromPrefix(
+  t_s: Float64Array, n: number, dof: number, spec: WindowSpec, prefix: Float64Array, breaks: readonly number[] = [],
 ): SlidingAverage {
   // Two walks over the windows: the first finds the smallest and largest count of a full window (the brackets'
   // ends), the second decides each window. Walking twice costs less than keeping every window's count and average
@@ -325,6 +326,16 @@ function slidingInside95(
 export function windowTest(
   t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, familyAlpha: number,
   prefix = prefixSums(nis, n), breaks: readonly number[] = [], timesSorted = false,
+): WindowTest {
+  return windowTestFromPrefix(t_s, n, dof, spec, familyAlpha, prefix, breaks, timesSorted);
+}
+
+/**
+ * {@link windowTest} from the prefix sums of the NIS (all it reads of them), for a caller that keeps no NIS column.
+ */
+export function windowTestFromPrefix(
+  t_s: Float64Array, n: number, dof: number, spec: WindowSpec, familyAlpha: number,
+  prefix: Float64Array, breaks: readonly number[] = [], timesSorted = false,
 ): WindowTest {
   // Pass 1: the windows of every segment (depends on the times only, so M is fixed before any NIS is looked at).
   const starts: number[] = [];
