@@ -15,11 +15,12 @@ import { finiteJson } from '../finite';
 import { chi2Interval, chi2Quantile, chi2Sf } from '../stats/chi2';
 import { oneSampleTTest } from '../stats/ttest';
 import { twoSidedNormalQuantile } from '../stats/autocorrelation';
-import { computeNisDetailed, wrappedInnovations, NIS_BAD_COVARIANCE, NIS_FROM_LOG, NIS_MISSING } from './nis';
+import { hasFullS, nisOfUpdate, wrappedInnovations, NIS_BAD_COVARIANCE, NIS_FROM_LOG, NIS_MISSING } from './nis';
 import { TopK } from './topK';
-import { prefixSums, slidingAverage, windowTest, type WindowSpec } from './window';
+import { insideShareFromPrefix, prefixSums, slidingAverage, windowTestFromPrefix, type WindowSpec } from './window';
+import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 import { whiteness } from './whiteness';
-import { nisHistogram, nisKsTest } from './histogram';
+import { HISTOGRAM_BINS, histogramBinWidth, nisHistogramFromCounts, nisKsTest } from './histogram';
 import { covarianceHealth } from './covariance';
 import { formatNumber, formatPercent } from './format';
 import { lazySeries } from '../lazySeries';
@@ -49,7 +50,9 @@ export function windowSpec(settings: AnalysisSettings): WindowSpec | undefined {
 }
 
 /** NIS count, mean and share inside the per-update 95% bounds of each segment of the accepted updates. */
-function nisSegments(tC: Float64Array, nisC: Float64Array, m: number, breaks: readonly number[], lo95: number, hi95: number):
+function nisSegments(
+  tC: Float64Array, nis: Float64Array, idxC: Int32Array, m: number, breaks: readonly number[], lo95: number, hi95: number,
+):
   { t: number; tEnd: number; count: number; mean?: number; inside95?: number }[] {
   const cuts = [0, ...breaks, m];
   const out: { t: number; tEnd: number; count: number; mean?: number; inside95?: number }[] = [];
@@ -58,8 +61,9 @@ function nisSegments(tC: Float64Array, nisC: Float64Array, m: number, breaks: re
     if (b <= a) continue;
     let sum = 0, inside = 0;
     for (let q = a; q < b; q++) {
-      sum += nisC[q];
-      if (nisC[q] >= lo95 && nisC[q] <= hi95) inside++;
+      const v = nis[idxC[q]];
+      sum += v;
+      if (v >= lo95 && v <= hi95) inside++;
     }
     out.push({ t: tC[a], tEnd: tC[b - 1], count: b - a, mean: sum / (b - a), inside95: inside / (b - a) });
   }
@@ -82,7 +86,6 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     const report: ChannelReport = { name, dof, updates: n, rejected: countRejected(channel), outliers: 0, nis: { dof } };
     return { report, findings, series, worst: [], nis: new Float64Array(n).fill(NaN) };
   }
-  const { nis, source } = computeNisDetailed(channel);
   const nu = wrappedInnovations(channel);
   const t = channel.t_s;
   const lineCol = channel.line;
@@ -92,11 +95,11 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   const gateValue = chi2Quantile(settings.gate, dof);
   const [lo95, hi95] = chi2Interval(0.95, dof);
 
-  const scan = scanNis(channel, nis, source, gateValue, lo95, hi95, settings.maxWorst);
-  const { m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
+  const binWidth = histogramBinWidth(dof);
+  const scan = scanUpdates(channel, nu, gateValue, lo95, hi95, settings.maxWorst, binWidth);
+  const { nis, m, tC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
   const { idUpdates, idRejected, idCount, idSum, idInside, idOutliers } = scan;
-  const inn = scanInnovations(channel, nu);
-  const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW } = inn;
+  const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW } = scan;
 
   const accepted = n - rejected;
   const nisSummary: ChannelReport['nis'] = {
@@ -111,11 +114,15 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   const report: ChannelReport = { name, dof, updates: n, rejected, outliers, nis: nisSummary };
   if (accepted === 0) report.note = 'every update of this channel was rejected by the estimator';
 
-  // Outlier findings.
+  // Outlier findings. Their tail probabilities are kept by update for `worst` below (mostly the same updates; each
+  // chi-square tail costs microseconds).
+  const tailOf = new Map<number, number>();
   const gateText = `${formatPercent(settings.gate)} gate (${formatNumber(gateValue, 3)}) for ${dof} dof`;
   for (let q = 0; q < outlierIdx.length; q++) {
     const i = outlierIdx[q];
     const id = idOf(channel, i);
+    const p = chi2Sf(nis[i], dof);
+    tailOf.set(i, p);
     const f: Finding = {
       kind: 'outlier',
       t: t[i],
@@ -124,7 +131,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
       channel: name,
       ...(id !== undefined ? { id } : {}),
       score: nis[i],
-      p: chi2Sf(nis[i], dof),
+      p,
       severity: 'warning',
       message: `NIS ${formatNumber(nis[i])} is beyond the ${gateText}`,
     };
@@ -140,32 +147,40 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     const id = idOf(channel, i);
     return {
       t: t[i], line: lineCol[i], channel: name, ...(id !== undefined ? { id } : {}),
-      score: best.keys[r], p: chi2Sf(best.keys[r], dof),
+      score: best.keys[r], p: tailOf.get(i) ?? chi2Sf(best.keys[r], dof), // keys[r] is nis[i]
     };
   });
 
   // Per segment (between filter restarts): NIS figures; the windows below never straddle a restart.
   const breaks = m > 0 && resets_s.length > 0 ? segmentBreaks(tC, 0, m, resets_s) : [];
-  if (breaks.length > 0) nisSummary.segments = nisSegments(tC, nisC, m, breaks, lo95, hi95);
+  if (breaks.length > 0) nisSummary.segments = nisSegments(tC, nis, idxC, m, breaks, lo95, hi95);
 
   // Windowed NIS.
   const spec = windowSpec(settings);
   if (spec && m > 0) {
-    const prefix = prefixSums(nisC, m);
+    const prefix = scan.prefix;
     const tV = tC.subarray(0, m);
-    const nV = nisC.subarray(0, m);
-    // the summary now; the panel's per-update columns when the series is first read (lazySeries.ts)
-    const slide = slidingAverage(tV, nV, m, dof, spec, settings.confidence, prefix, breaks, false);
-    const test = windowTest(tV, nV, m, dof, spec, settings.familyAlpha, prefix, breaks);
+    // the summary now; the panel's per-update columns when the series is first read (lazySeries.ts), from prefix
+    // sums of their own (the same values) so the scratch column above goes back now
+    const slide = insideShareFromPrefix(tV, m, dof, spec, prefix, breaks);
+    const test = windowTestFromPrefix(tV, m, dof, spec, settings.familyAlpha, prefix, breaks, scan.timesSorted);
     const confidence = settings.confidence;
+    // The compacted columns above are work columns, given back below; the panel's columns are made from copies
+    // of their own (the same selection: accepted updates with a finite NIS) when first read.
+    let kept: { t: Float64Array; nis: Float64Array; idx: Int32Array } | undefined;
+    const compacted = (): { t: Float64Array; nis: Float64Array; idx: Int32Array } => (kept ??= compactAccepted(channel, nis, m));
     let columns: ReturnType<typeof slidingAverage> | undefined;
-    const slideColumns = (): ReturnType<typeof slidingAverage> => (columns ??= slidingAverage(tV, nV, m, dof, spec, confidence, prefix, breaks));
+    const slideColumns = (): ReturnType<typeof slidingAverage> => {
+      const c = compacted();
+      return (columns ??= slidingAverage(c.t, c.nis, m, dof, spec, confidence, prefixSums(c.nis, m), breaks));
+    };
     series.push(lazySeries({ key: `nisWindow/${name}`, group: 'innovations', label: `${name} windowed NIS`, unit: '1' }, {
-      x: () => tV.slice(),
+      x: () => compacted().t.slice(),
       y: () => slideColumns().mean,
       line: () => {
+        const idx = compacted().idx;
         const lineW = new Float64Array(m);
-        for (let q = 0; q < m; q++) lineW[q] = lineCol[idxC[q]];
+        for (let q = 0; q < m; q++) lineW[q] = lineCol[idx[q]];
         return lineW;
       },
       lo: () => slideColumns().lo,
@@ -203,6 +218,8 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
       });
     }
   }
+
+  giveBack(scan.prefix); // read by the windows only: the whiteness below reuses it
 
   // One copy of the time and line columns, shared by this channel's per-update series (never the log's own arrays),
   // made when a series is first read (lazySeries.ts).
@@ -258,6 +275,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
 
   // Whiteness.
   const white = whiteness(nuW.subarray(0, mW * dof), zW.subarray(0, mW * dof), mW, dof, settings.whitenessLags);
+  giveBack(nuW, zW);
   if (white) {
     report.whiteness = {
       lags: white.lags,
@@ -292,9 +310,9 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   }
 
   // NIS distribution.
-  const hist = nisHistogram(nisC, m, dof);
+  const hist = nisHistogramFromCounts(scan.binCounts, scan.overflow, m, dof, binWidth);
   if (hist) {
-    const ks = nisKsTest(nisC, m, dof);
+    const ks = nisKsTest(nis, m, dof, idxC);
     nisSummary.histogram = hist;
     if (ks) nisSummary.ks = { d: ks.d, p: ks.p, n: ks.n, stride: ks.stride };
     const centers = Float64Array.from({ length: hist.counts.length }, (_, k) => 0.5 * (hist.edges[k] + hist.edges[k + 1]));
@@ -364,6 +382,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     report.byId = byId;
   }
 
+  giveBack(tC, idxC); // every reader above is done; the panel's series make their own copies
   return { report: finiteJson(report) as unknown as ChannelReport, findings, series, worst, nis };
 }
 
@@ -373,23 +392,34 @@ function nisSeries(
 ): Series[] {
   const { name, dof, length: n } = channel;
   const rej = channel.rejected;
-  const band = chi2Interval(confidence, dof);
+  let band: [number, number] | undefined; // two chi-square quantiles, only when the panel reads the band
   const out: Series[] = [lazySeries({ key: `nis/${name}`, group: 'innovations', label: `${name} NIS`, unit: '1' }, {
     x, y: () => {
       const y = new Float64Array(n);
       for (let i = 0; i < n; i++) y[i] = rej[i] ? NaN : nis[i];
       return y;
     },
-    line, lo: () => new Float64Array(n).fill(band[0]), hi: () => new Float64Array(n).fill(band[1]),
+    line,
+    lo: () => new Float64Array(n).fill((band ??= chi2Interval(confidence, dof))[0]),
+    hi: () => new Float64Array(n).fill((band ??= chi2Interval(confidence, dof))[1]),
   })];
   if (rejected > 0) {
-    const xr = new Float64Array(rejected);
-    const yr = new Float64Array(rejected);
-    const lr = new Float64Array(rejected);
-    const xAll = x(), lineAll = line();
-    let q = 0;
-    for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = xAll[i]; yr[q] = nis[i]; lr[q] = lineAll[i]; q++; }
-    out.push({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1', x: xr, y: yr, line: lr });
+    // The rejected updates' columns, made together when the panel first reads one of them.
+    let columns: { x: Float64Array; y: Float64Array; line: Float64Array } | undefined;
+    const rejectedColumns = (): { x: Float64Array; y: Float64Array; line: Float64Array } => {
+      if (columns) return columns;
+      const xr = new Float64Array(rejected);
+      const yr = new Float64Array(rejected);
+      const lr = new Float64Array(rejected);
+      // from the log's own columns (the values the shared copies hold), so those copies stay lazy
+      const tAll = channel.t_s, lineAll = channel.line;
+      let q = 0;
+      for (let i = 0; i < n; i++) if (rej[i]) { xr[q] = tAll[i]; yr[q] = nis[i]; lr[q] = lineAll[i]; q++; }
+      return (columns = { x: xr, y: yr, line: lr });
+    };
+    out.push(lazySeries({ key: `nisRejected/${name}`, group: 'innovations', label: `${name} NIS (rejected)`, unit: '1' }, {
+      x: () => rejectedColumns().x, y: () => rejectedColumns().y, line: () => rejectedColumns().line,
+    }));
   }
   return out;
 }
@@ -427,11 +457,34 @@ function innovationSeries(
   }, { x, y, line, ...(cov ? { lo: () => makeBand(cov).lo, hi: () => makeBand(cov).hi } : {}) });
 }
 
-/** What one pass over the NIS values gathers (accepted updates with a finite NIS, compacted). */
-interface NisScan {
+/**
+ * The accepted updates with a finite NIS, compacted (times, NIS and update index), as the channel scan selects
+ * them: fresh arrays of `m` values for the panel's series.
+ */
+function compactAccepted(channel: Channel, nis: Float64Array, m: number): { t: Float64Array; nis: Float64Array; idx: Int32Array } {
+  const t = new Float64Array(m);
+  const v = new Float64Array(m);
+  const idx = new Int32Array(m);
+  const rej = channel.rejected;
+  const time = channel.t_s;
+  let q = 0;
+  for (let i = 0; i < channel.length && q < m; i++) {
+    if (rej[i] || !Number.isFinite(nis[i])) continue;
+    t[q] = time[i];
+    v[q] = nis[i];
+    idx[q] = i;
+    q++;
+  }
+  return { t, nis: v, idx };
+}
+
+/** What one pass over the updates gathers: NIS figures (accepted updates with a finite NIS, compacted) and innovations. */
+interface UpdateScan {
+  /** NIS of every update (rejected ones included; NaN where not computable), as computeNisDetailed gives. */
+  nis: Float64Array;
   m: number;
+  /** Compacted times and update indices (work columns of at least m values: give them back once read). */
   tC: Float64Array;
-  nisC: Float64Array;
   idxC: Int32Array;
   sum: number;
   inside: number;
@@ -447,13 +500,38 @@ interface NisScan {
   idSum: Float64Array;
   idInside: Float64Array;
   idOutliers: Float64Array;
+  /** Welford count, mean and sum of squared deviations per innovation component. */
+  compCount: Float64Array;
+  compMean: Float64Array;
+  compM2: Float64Array;
+  idNuSum: Float64Array;
+  idNuCount: Float64Array;
+  /**
+   * Accepted updates with every component (and S_cc) finite: raw and normalized innovations, compacted
+   * (scratch columns: give them back once read).
+   */
+  nuW: Float64Array;
+  zW: Float64Array;
+  mW: number;
+  /** Whether tC[0..m) is non-decreasing without NaN. */
+  timesSorted: boolean;
+  /** Prefix sums of the compacted NIS (scratch, m + 1 values: give it back once read). */
+  prefix: Float64Array;
+  /** Histogram counts of the compacted NIS, bins of `binWidth` (HISTOGRAM_BINS), and the values beyond the last bin. */
+  binCounts: Float64Array;
+  overflow: number;
 }
 
-/** One allocation-free pass over the NIS of a channel (kept small so the engine optimises it as a whole). */
-function scanNis(
-  channel: Channel, nis: Float64Array, source: Uint8Array, gateValue: number, lo95: number, hi95: number, maxWorst: number,
-): NisScan {
-  const n = channel.length;
+/**
+ * One allocation-free pass over the NIS and the (angle-wrapped) innovations of a channel (kept to one loop: the
+ * two passes it replaces each cost a warm-up of their own on a cold start).
+ */
+function scanUpdates(
+  channel: Channel, nu: Float64Array, gateValue: number, lo95: number, hi95: number, maxWorst: number, binWidth: number,
+): UpdateScan {
+  const { dof, length: n, S } = channel;
+  const dd = dof * dof;
+  const hasS = S !== undefined && S.length >= n * dd;
   const t = channel.t_s;
   const rej = channel.rejected;
   const idCol = channel.id;
@@ -464,11 +542,28 @@ function scanNis(
   const idSum = new Float64Array(nIds);
   const idInside = new Float64Array(nIds);
   const idOutliers = new Float64Array(nIds);
-  const tC = new Float64Array(n);
-  const nisC = new Float64Array(n);
-  const idxC = new Int32Array(n);
+  const tC = takeFloat64(n);
+  const idxC = takeInt32(n);
   const top = new TopK(Math.max(0, maxWorst));
   const outlierIdx: number[] = [];
+  const compCount = new Float64Array(dof);
+  const compMean = new Float64Array(dof);
+  const compM2 = new Float64Array(dof);
+  const idNuSum = new Float64Array(nIds * dof);
+  const idNuCount = new Float64Array(nIds * dof);
+  const nuW = takeFloat64(n * dof);
+  const zW = takeFloat64(n * dof);
+  const nis = new Float64Array(n);
+  const work = new Float64Array(dd + dof);
+  const haveS = hasFullS(channel);
+  const prefix = takeFloat64(n + 1);
+  prefix[0] = 0;
+  const bins = HISTOGRAM_BINS;
+  const binCounts = new Float64Array(bins);
+  let overflow = 0;
+  let timesSorted = true;
+  let lastT = -Infinity;
+  let mW = 0;
   let m = 0;
   let rejected = 0;
   let sum = 0;
@@ -477,6 +572,7 @@ function scanNis(
   let fromLog = 0;
   let missing = 0;
   for (let i = 0; i < n; i++) {
+    const from = nisOfUpdate(channel, nu, haveS, i, work, nis); // of rejected updates too
     const idv = idCol[i];
     const k = idv >= 0 && idv < nIds ? idv | 0 : -1;
     if (k >= 0) idUpdates[k]++;
@@ -485,13 +581,19 @@ function scanNis(
       if (k >= 0) idRejected[k]++;
       continue;
     }
+    // NIS figures.
     const v = nis[i];
-    const from = source[i];
     if (Number.isFinite(v)) {
-      tC[m] = t[i];
-      nisC[m] = v;
+      const ti = t[i];
+      if (!(ti >= lastT)) timesSorted = false; // also for a NaN time
+      lastT = ti;
+      tC[m] = ti;
       idxC[m] = i;
+      prefix[m + 1] = prefix[m] + v;
       m++;
+      const b = Math.floor(v / binWidth);
+      if (b >= bins) overflow++;
+      else if (b >= 0) binCounts[b]++;
       sum += v;
       const isInside = v >= lo95 && v <= hi95;
       if (isInside) inside++;
@@ -511,47 +613,7 @@ function scanNis(
     } else if (from === NIS_MISSING || from === NIS_BAD_COVARIANCE) {
       missing++;
     }
-  }
-  return {
-    m, tC, nisC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
-    idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
-  };
-}
-
-/** What one pass over the innovations gathers. */
-interface InnovationScan {
-  /** Welford count, mean and sum of squared deviations per component. */
-  compCount: Float64Array;
-  compMean: Float64Array;
-  compM2: Float64Array;
-  idNuSum: Float64Array;
-  idNuCount: Float64Array;
-  /** Accepted updates with every component (and S_cc) finite: raw and normalized innovations, compacted. */
-  nuW: Float64Array;
-  zW: Float64Array;
-  mW: number;
-}
-
-/** One allocation-free pass over the (angle-wrapped) innovations of the accepted updates. */
-function scanInnovations(channel: Channel, nu: Float64Array): InnovationScan {
-  const { dof, length: n, S } = channel;
-  const dd = dof * dof;
-  const hasS = S !== undefined && S.length >= n * dd;
-  const rej = channel.rejected;
-  const idCol = channel.id;
-  const nIds = channel.ids.length;
-  const compCount = new Float64Array(dof);
-  const compMean = new Float64Array(dof);
-  const compM2 = new Float64Array(dof);
-  const idNuSum = new Float64Array(nIds * dof);
-  const idNuCount = new Float64Array(nIds * dof);
-  const nuW = new Float64Array(n * dof);
-  const zW = new Float64Array(n * dof);
-  let mW = 0;
-  for (let i = 0; i < n; i++) {
-    if (rej[i]) continue;
-    const idv = idCol[i];
-    const k = idv >= 0 && idv < nIds ? idv | 0 : -1;
+    // Innovations.
     const o = i * dof;
     let all = true;
     for (let c = 0; c < dof; c++) {
@@ -579,7 +641,11 @@ function scanInnovations(channel: Channel, nu: Float64Array): InnovationScan {
     }
     if (normOk) mW++;
   }
-  return { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW };
+  return {
+    m, tC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
+    idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
+    compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW, prefix, binCounts, overflow, nis, timesSorted,
+  };
 }
 
 function idOf(channel: Channel, i: number): string | undefined {

@@ -8,7 +8,7 @@
  */
 import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import type { Channel } from '../model';
-import { asymmetry, choleskyFactor } from '../linalg/cholesky';
+import { choleskyFactor } from '../linalg/cholesky';
 
 /** Largest relative asymmetry |S_rc - S_cr| / max(|S_rr|, |S_cc|) still taken as symmetric (printing round-off). */
 export const ASYMMETRY_TOLERANCE = 1e-6;
@@ -47,6 +47,7 @@ export interface CovarianceHealth {
 export function covarianceHealth(channel: Channel, extra: number[] = []): CovarianceHealth | undefined {
   const { S, dof, length } = channel;
   if (!S || dof < 1) return undefined;
+  if (dof === 1) return scalarHealth(S, length);
   const dd = dof * dof;
   const work = new Float64Array(dd);
   const ok = new Uint8Array(length);
@@ -54,7 +55,6 @@ export function covarianceHealth(channel: Channel, extra: number[] = []): Covari
   let notSpd = 0;
   let asym = 0;
   let incomplete = 0;
-  let minDiag1 = Infinity;
   const runs: BadCovarianceRun[] = [];
   let moreRuns = 0;
   let open: BadCovarianceRun | undefined;
@@ -69,9 +69,8 @@ export function covarianceHealth(channel: Channel, extra: number[] = []): Covari
       continue;
     }
     checked++;
-    const isAsym = dof > 1 && asymmetry(S, o, dof) > ASYMMETRY_TOLERANCE;
+    const isAsym = isAsymmetric(S, o, dof);
     const isSpd = choleskyFactor(S, o, dof, work, 0);
-    if (dof === 1 && S[o] < minDiag1) minDiag1 = S[o];
     if (isAsym) asym++;
     if (!isSpd) notSpd++;
     if (!isAsym && isSpd) { ok[i] = 1; prevBad = false; continue; }
@@ -93,12 +92,6 @@ export function covarianceHealth(channel: Channel, extra: number[] = []): Covari
   }
   const out: CovarianceHealth = { checked, notSpd, asymmetric: asym, incomplete, eigenSampled: 0, runs, moreRuns };
   if (checked === 0) return out;
-  if (dof === 1) {
-    out.minEigenvalue = minDiag1;
-    if (minDiag1 > 0) out.maxCondition = 1;
-    out.eigenSampled = checked;
-    return out;
-  }
   // Eigen-figures on a sample of well-formed updates.
   const picks = new Set<number>();
   const stride = Math.max(1, Math.floor(length / EIGEN_SAMPLE));
@@ -131,5 +124,68 @@ export function covarianceHealth(channel: Channel, extra: number[] = []): Covari
   }
   if (Number.isFinite(minEig)) out.minEigenvalue = minEig;
   if (maxCond > 0) out.maxCondition = maxCond;
+  return out;
+}
+
+/**
+ * Whether the finite n x n matrix at `o` is asymmetric beyond ASYMMETRY_TOLERANCE: the same decision as
+ * `asymmetry(S, o, n) > ASYMMETRY_TOLERANCE` (linalg/cholesky.ts) for the finite matrices checked here, stopping
+ * at the first pair beyond it.
+ */
+function isAsymmetric(S: Float64Array, o: number, n: number): boolean {
+  for (let r = 0; r < n; r++) {
+    const srr = Math.abs(S[o + r * n + r]);
+    for (let c = r + 1; c < n; c++) {
+      const scale = Math.max(srr, Math.abs(S[o + c * n + c]), Number.MIN_VALUE);
+      if (Math.abs(S[o + r * n + c] - S[o + c * n + r]) / scale > ASYMMETRY_TOLERANCE) return true;
+    }
+  }
+  return false;
+}
+
+/**
+ * {@link covarianceHealth} of a one-dimensional S (a variance per update), in one pass without a factorisation:
+ * a 1 x 1 S is symmetric, positive definite exactly when it is above 0 (choleskyFactor's pivot test d > |d| 1e-14
+ * for a finite d), and it is its own eigenvalue (every update is in the eigen sample).
+ */
+function scalarHealth(S: Float64Array, length: number): CovarianceHealth {
+  let checked = 0;
+  let notSpd = 0;
+  let incomplete = 0;
+  let minDiag = Infinity;
+  const runs: BadCovarianceRun[] = [];
+  let moreRuns = 0;
+  let open: BadCovarianceRun | undefined;
+  let prevBad = false;
+  for (let i = 0; i < length; i++) {
+    const v = S[i];
+    if (!Number.isFinite(v)) {
+      prevBad = false;
+      continue;
+    }
+    checked++;
+    if (v < minDiag) minDiag = v;
+    if (v > Math.abs(v) * 1e-14) { prevBad = false; continue; }
+    notSpd++;
+    if (!prevBad) {
+      if (runs.length < MAX_BAD_RUNS) {
+        open = { first: i, last: i, count: 0, notSpd: 0, asymmetric: 0 };
+        runs.push(open);
+      } else {
+        open = undefined;
+        moreRuns++;
+      }
+    }
+    prevBad = true;
+    if (!open) continue;
+    open.last = i;
+    open.count++;
+    open.notSpd++;
+  }
+  const out: CovarianceHealth = { checked, notSpd, asymmetric: 0, incomplete, eigenSampled: 0, runs, moreRuns };
+  if (checked === 0) return out;
+  out.minEigenvalue = minDiag;
+  if (minDiag > 0) out.maxCondition = 1;
+  out.eigenSampled = checked;
   return out;
 }

@@ -32,27 +32,48 @@ export interface NisHistogram {
 /** Histogram of the finite `nis[0..n)` against chi-square(dof). Undefined when n = 0. */
 export function nisHistogram(nis: Float64Array, n: number, dof: number, bins = HISTOGRAM_BINS): NisHistogram | undefined {
   if (n === 0) return undefined;
-  const top = chi2Quantile(0.999, dof);
-  const width = top / bins;
-  const counts = new Array<number>(bins).fill(0);
+  const width = histogramBinWidth(dof, bins);
+  const counts = new Float64Array(bins);
   let overflow = 0;
   for (let i = 0; i < n; i++) {
     const b = Math.floor(nis[i] / width);
     if (b >= bins) overflow++;
     else if (b >= 0) counts[b]++;
   }
+  return nisHistogramFromCounts(counts, overflow, n, dof, width);
+}
+
+/** Width of the histogram's bins: the chi-square(dof) 99.9% quantile over `bins`. */
+export function histogramBinWidth(dof: number, bins = HISTOGRAM_BINS): number {
+  return chi2Quantile(0.999, dof) / bins;
+}
+
+/**
+ * The histogram from counts a caller gathered itself (bin floor(nis / width) for each of n values; `overflow` beyond
+ * the last bin), the same as {@link nisHistogram} gives for those values. Undefined when n = 0.
+ */
+export function nisHistogramFromCounts(
+  binCounts: Float64Array, overflow: number, n: number, dof: number, width: number,
+): NisHistogram | undefined {
+  if (n === 0) return undefined;
+  const bins = binCounts.length;
+  const counts = Array.from(binCounts);
   const edges = Array.from({ length: bins + 1 }, (_, k) => k * width);
   const density = counts.map((c) => c / (n * width));
-  const pdf = counts.map((_, k) => (chi2Cdf(edges[k + 1], dof) - chi2Cdf(edges[k], dof)) / width);
+  const cdfAt = edges.map((e) => chi2Cdf(e, dof)); // each edge once (it bounds two bins)
+  const pdf = counts.map((_, k) => (cdfAt[k + 1] - cdfAt[k]) / width);
   return { edges, counts, density, pdf, overflow, n };
 }
 
-/** KS test of the finite `nis[0..n)` against chi-square(dof) on at most KS_MAX_SAMPLES evenly strided values. */
-export function nisKsTest(nis: Float64Array, n: number, dof: number): (KsResult & { stride: number }) | undefined {
+/**
+ * KS test of the finite `nis[0..n)` against chi-square(dof) on at most KS_MAX_SAMPLES evenly strided values. With
+ * `index`, the values are nis[index[0..n)] (a compacted selection without a copy of its own).
+ */
+export function nisKsTest(nis: Float64Array, n: number, dof: number, index?: Int32Array): (KsResult & { stride: number }) | undefined {
   const stride = Math.max(1, Math.ceil(n / KS_MAX_SAMPLES));
   const sample = new Float64Array(Math.ceil(n / stride));
   let k = 0;
-  for (let i = 0; i < n; i += stride) sample[k++] = nis[i];
+  for (let i = 0; i < n; i += stride) sample[k++] = index ? nis[index[i]] : nis[i];
   const r = ksTest(sample.subarray(0, k), (x) => chi2Cdf(x, dof));
   return r ? { ...r, stride } : undefined;
 }

@@ -47,44 +47,67 @@ export function wrappedInnovations(channel: Channel): Float64Array {
  * One pass, allocation-free inside the loop.
  */
 export function computeNisDetailed(channel: Channel): { nis: Float64Array; source: Uint8Array } {
-  const { dof, length, S, nisLogged } = channel;
+  const { dof, length } = channel;
   const nu = wrappedInnovations(channel);
   const nis = new Float64Array(length);
   const source = new Uint8Array(length);
   const work = new Float64Array(dof * dof + dof);
-  const dd = dof * dof;
-  const haveS = S !== undefined && S.length >= length * dd && dof > 0;
-  for (let i = 0; i < length; i++) {
-    let value = NaN;
-    let from = NIS_MISSING;
-    if (haveS) {
-      let finite = true;
-      const o = i * dof;
-      for (let c = 0; c < dof; c++) if (!Number.isFinite(nu[o + c])) { finite = false; break; }
-      if (finite) {
-        let sFinite = true;
-        const so = i * dd;
-        for (let c = 0; c < dd; c++) if (!Number.isFinite(S[so + c])) { sFinite = false; break; }
-        if (sFinite) {
-          value = inverseQuadraticForm(S, so, dof, nu, o, work);
-          from = Number.isFinite(value) ? NIS_FROM_INNOVATION : NIS_BAD_COVARIANCE;
-        }
-      }
-    }
-    if (!Number.isFinite(value)) {
-      value = NaN;
-      if (nisLogged !== undefined && i < nisLogged.length) {
-        const logged = nisLogged[i];
-        if (Number.isFinite(logged) && logged >= 0) {
-          value = logged;
-          if (from !== NIS_BAD_COVARIANCE) from = NIS_FROM_LOG;
-        }
-      }
-    }
-    nis[i] = value;
-    source[i] = from;
-  }
+  const haveS = hasFullS(channel);
+  for (let i = 0; i < length; i++) source[i] = nisOfUpdate(channel, nu, haveS, i, work, nis);
   return { nis, source };
+}
+
+/** Whether the channel logs a full S for every update (the condition {@link nisOfUpdate} is given as `haveS`). */
+export function hasFullS(channel: Channel): boolean {
+  const { dof, length, S } = channel;
+  return S !== undefined && S.length >= length * dof * dof && dof > 0;
+}
+
+/**
+ * The NIS of update `i` (as {@link computeNisDetailed}), written to `nis[i]`; returns where it came from. `nu` is
+ * the channel's wrapped innovations, `haveS` is {@link hasFullS}, `work` holds dof * dof + dof values. For a caller
+ * that gathers its own figures in the same pass over the updates. No allocation.
+ */
+export function nisOfUpdate(channel: Channel, nu: Float64Array, haveS: boolean, i: number, work: Float64Array, nis: Float64Array): number {
+  const { dof, S, nisLogged } = channel;
+  let value = NaN;
+  let from = NIS_MISSING;
+  if (haveS && S !== undefined && dof === 1) {
+    // The general branch below for one component, written out (most channels are scalar; the per-update
+    // loops and calls cost more than the arithmetic on a cold start): x^2 / s, as inverseQuadraticForm gives.
+    const x = nu[i];
+    const s = S[i];
+    if (Number.isFinite(x) && Number.isFinite(s)) {
+      value = s > 0 ? (x * x) / s : NaN;
+      from = Number.isFinite(value) ? NIS_FROM_INNOVATION : NIS_BAD_COVARIANCE;
+    }
+  } else if (haveS && S !== undefined) {
+    let finite = true;
+    const o = i * dof;
+    for (let c = 0; c < dof; c++) if (!Number.isFinite(nu[o + c])) { finite = false; break; }
+    if (finite) {
+      const dd = dof * dof;
+      let sFinite = true;
+      const so = i * dd;
+      for (let c = 0; c < dd; c++) if (!Number.isFinite(S[so + c])) { sFinite = false; break; }
+      if (sFinite) {
+        value = inverseQuadraticForm(S, so, dof, nu, o, work);
+        from = Number.isFinite(value) ? NIS_FROM_INNOVATION : NIS_BAD_COVARIANCE;
+      }
+    }
+  }
+  if (!Number.isFinite(value)) {
+    value = NaN;
+    if (nisLogged !== undefined && i < nisLogged.length) {
+      const logged = nisLogged[i];
+      if (Number.isFinite(logged) && logged >= 0) {
+        value = logged;
+        if (from !== NIS_BAD_COVARIANCE) from = NIS_FROM_LOG;
+      }
+    }
+  }
+  nis[i] = value;
+  return from;
 }
 
 /**

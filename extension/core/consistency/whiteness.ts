@@ -15,7 +15,8 @@
  *   (Bar-Shalom, Li and Kirubarajan 2001, sec. 5.4).
  * Everything is O(K * L).
  */
-import { autocorrelation, autocorrelationBound, ljungBox, normalizedAutocorrelation } from '../stats/autocorrelation';
+import { autocorrelation, ljungBox, normalizedAutocorrelation, twoSidedNormalQuantile } from '../stats/autocorrelation';
+import { giveBack, takeFloat64 } from '../scratch';
 
 /** Whiteness figures of one channel. */
 export interface WhitenessResult {
@@ -45,23 +46,27 @@ export function whiteness(
 ): WhitenessResult | undefined {
   const lags = Math.min(Math.floor(maxLags), Math.floor(count / 5));
   if (!(lags >= 1)) return undefined;
-  const column = new Float64Array(count);
+  // One component's normalized innovations in a scratch column (the flat array itself when there is one component).
+  const column = dof === 1 ? z : takeFloat64(count);
   const r = new Float64Array(lags);
   const components: { ljungBoxQ: number; ljungBoxP: number }[] = [];
   let best = -1;
   let bestP = Infinity;
   for (let c = 0; c < dof; c++) {
-    for (let k = 0; k < count; k++) column[k] = z[k * dof + c];
+    if (dof > 1) for (let k = 0; k < count; k++) column[k] = z[k * dof + c];
     autocorrelation(column, count, lags, r);
     const lb = ljungBox(r, count, lags);
     components.push({ ljungBoxQ: lb.q, ljungBoxP: lb.p });
     if (lb.p < bestP) { bestP = lb.p; best = c; }
   }
+  if (column !== z) giveBack(column);
   const rho = normalizedAutocorrelation(nu, dof, count, lags);
   const rhoBound = new Float64Array(lags);
+  const z95 = twoSidedNormalQuantile(0.95); // once, not per lag (autocorrelationBound(0.95, pairs) per lag)
   let outside = 0;
   for (let j = 1; j <= lags; j++) {
-    rhoBound[j - 1] = autocorrelationBound(0.95, count - j);
+    const pairs = count - j;
+    rhoBound[j - 1] = pairs > 0 ? z95 / Math.sqrt(pairs) : NaN;
     if (Math.abs(rho[j - 1]) > rhoBound[j - 1]) outside++;
   }
   if (best < 0) {

@@ -22,7 +22,7 @@
  * windows are short again) and the tested windows are placed from each segment's start; M counts the windows of
  * every segment, so the family-wise bound holds for the whole channel.
  */
-import { chi2Cdf, chi2Interval, chi2Sf } from '../stats/chi2';
+import { chi2Cdf, chi2Interval, chi2IntervalLower, chi2IntervalUpper, chi2Sf } from '../stats/chi2';
 
 /** Window definition: seconds or a count of updates. */
 export type WindowSpec = { kind: 'seconds'; size: number } | { kind: 'updates'; size: number };
@@ -95,6 +95,77 @@ class BoundsCache {
   upper(count: number): number { return this.hi[count]; }
 }
 
+/** Relative margin on the brackets of {@link BracketedBound}: far above the round-off of a quantile. */
+const BRACKET_MARGIN = 1e-9;
+
+/**
+ * One end of the bounds BoundsCache gives (the lower or the upper end of the average's interval), for counts in
+ * [kMin, kMax], computed only where a window's decision needs it.
+ * A chi-square(nu + d) variable is a chi-square(nu) one plus an independent non-negative one, so every quantile
+ * q_p(nu) grows with nu; for counts k1 < k < k2 the average's bound b(k) = q(k dof) / k therefore lies in
+ * [b(k1) k1 / k, b(k2) k2 / k]. With the bounds of kMin and kMax computed first, most windows lie clearly on one
+ * side of these brackets and need no quantile of their own (each costs ~0.1 ms: hundreds of them were a large part
+ * of the consistency stage); the rest are computed exactly and tighten the brackets of their neighbours.
+ * Decisions are those of the exact bound: a bracket is used only when the value is BRACKET_MARGIN clear of it.
+ */
+class BracketedBound {
+  private readonly value: Float64Array;
+  private readonly done: Uint8Array;
+  /** Nearest count (offset from kMin) below / above whose bound is computed; -1 when none. */
+  private readonly below: Int32Array;
+  private readonly above: Int32Array;
+  constructor(
+    private readonly quantile: (confidence: number, dof: number) => number,
+    private readonly confidence: number, private readonly dof: number, private readonly kMin: number, kMax: number,
+  ) {
+    const size = kMax - kMin + 1;
+    this.value = new Float64Array(size);
+    this.done = new Uint8Array(size);
+    this.below = new Int32Array(size).fill(-1);
+    this.above = new Int32Array(size).fill(-1);
+    this.exact(kMin);
+    this.exact(kMax);
+  }
+  /** The exact bound of `count`, computed on first use (as BoundsCache: quantile of count * dof, over count). */
+  exact(count: number): number {
+    const o = count - this.kMin;
+    if (this.done[o]) return this.value[o];
+    const v = this.quantile(this.confidence, this.dof * count) / count;
+    this.value[o] = v;
+    this.done[o] = 1;
+    const size = this.done.length;
+    for (let q = o + 1; q < size; q++) { this.below[q] = o; if (this.done[q]) break; }
+    for (let q = o - 1; q >= 0; q--) { this.above[q] = o; if (this.done[q]) break; }
+    return v;
+  }
+  /** Whether mean > bound(count), exactly as a comparison with the exact bound would answer. */
+  exceeds(count: number, mean: number): boolean {
+    const o = count - this.kMin;
+    if (!this.done[o]) {
+      const a = this.below[o];
+      const b = this.above[o];
+      if (a >= 0 && b >= 0) {
+        if (mean <= ((this.value[a] * (a + this.kMin)) / count) * (1 - BRACKET_MARGIN)) return false;
+        if (mean > ((this.value[b] * (b + this.kMin)) / count) * (1 + BRACKET_MARGIN)) return true;
+      }
+    }
+    return mean > this.exact(count);
+  }
+  /** Whether mean < bound(count), exactly as a comparison with the exact bound would answer. */
+  under(count: number, mean: number): boolean {
+    const o = count - this.kMin;
+    if (!this.done[o]) {
+      const a = this.below[o];
+      const b = this.above[o];
+      if (a >= 0 && b >= 0) {
+        if (mean >= ((this.value[b] * (b + this.kMin)) / count) * (1 + BRACKET_MARGIN)) return false;
+        if (mean < ((this.value[a] * (a + this.kMin)) / count) * (1 - BRACKET_MARGIN)) return true;
+      }
+    }
+    return mean < this.exact(count);
+  }
+}
+
 /** The first finite value of `t[0..n)`, NaN when there is none. */
 function firstFinite(t: Float64Array, n: number): number {
   for (let i = 0; i < n; i++) if (Number.isFinite(t[i])) return t[i];
@@ -103,9 +174,14 @@ function firstFinite(t: Float64Array, n: number): number {
 
 /** Prefix sums P[i] = sum of values[0..i). */
 export function prefixSums(values: Float64Array, n: number): Float64Array {
-  const p = new Float64Array(n + 1);
-  for (let i = 0; i < n; i++) p[i + 1] = p[i] + values[i];
-  return p;
+  return prefixSumsInto(values, n, new Float64Array(n + 1));
+}
+
+/** {@link prefixSums} written into `out` (at least n + 1 values, e.g. a scratch column); returns `out`. */
+export function prefixSumsInto(values: Float64Array, n: number, out: Float64Array): Float64Array {
+  out[0] = 0;
+  for (let i = 0; i < n; i++) out[i + 1] = out[i] + values[i];
+  return out;
 }
 
 /**
@@ -119,7 +195,8 @@ export function slidingAverage(
   t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, confidence: number,
   prefix = prefixSums(nis, n), breaks: readonly number[] = [], withColumns = true,
 ): SlidingAverage {
-  const size_ = withColumns ? n : 0;
+  if (!withColumns) return insideShareFromPrefix(t_s, n, dof, spec, prefix, breaks);
+  const size_ = n;
   const mean = new Float64Array(size_);
   const count = new Float64Array(size_);
   const lo = new Float64Array(size_).fill(NaN);
@@ -172,36 +249,125 @@ export function slidingAverage(
 }
 
 /**
+ * {@link slidingAverage} without the per-update columns (`withColumns` false): `full` and `fullInside95` only, from
+ * the prefix sums of the NIS (all it reads of them; the per-update columns come back empty). The windows are walked
+ * exactly as there, and the inside-95% decision is taken with bracketed bounds (BracketedBound) between the smallest
+ * and largest count of a full window.
+ */
+export function insideShareFromPrefix(
+  t_s: Float64Array, n: number, dof: number, spec: WindowSpec, prefix: Float64Array, breaks: readonly number[] = [],
+): SlidingAverage {
+  // Two walks over the windows: the first finds the smallest and largest count of a full window (the brackets'
+  // ends), the second decides each window. Walking twice costs less than keeping every window's count and average
+  // in work columns (first touches of new memory cost ~3.5 ms per MB here).
+  const byUpdates = spec.kind === 'updates';
+  const size = spec.size;
+  let full = 0;
+  let kMin = Infinity;
+  let kMax = 0;
+  let fullInside95 = 0;
+  let lo95: BracketedBound | undefined;
+  let hi95: BracketedBound | undefined;
+  let finite = true;
+  for (let pass = 0; pass < 2; pass++) {
+    if (pass === 1) {
+      if (full === 0) break;
+      lo95 = new BracketedBound(chi2IntervalLower, 0.95, dof, kMin, kMax);
+      hi95 = new BracketedBound(chi2IntervalUpper, 0.95, dof, kMin, kMax);
+      finite = [lo95.exact(kMin), lo95.exact(kMax), hi95.exact(kMin), hi95.exact(kMax)].every(Number.isFinite);
+    }
+    let j = 0;
+    let s0 = 0; // first update of the current segment
+    let nextBreak = 0;
+    let t0 = firstFinite(t_s, n);
+    for (let i = 0; i < n; i++) {
+      if (nextBreak < breaks.length && i === breaks[nextBreak]) {
+        s0 = i;
+        j = i;
+        t0 = firstFinite(t_s.subarray(i), n - i);
+        nextBreak++;
+      }
+      let isFull: boolean;
+      if (byUpdates) {
+        j = Math.max(s0, i - size + 1);
+        isFull = i - s0 + 1 >= size;
+      } else {
+        const start = t_s[i] - size;
+        while (j < i && t_s[j] <= start) j++;
+        isFull = t_s[i] - t0 >= size;
+      }
+      if (!isFull) continue;
+      const k = i - j + 1;
+      if (pass === 0 || !lo95 || !hi95) {
+        full++;
+        if (k < kMin) kMin = k;
+        if (k > kMax) kMax = k;
+        continue;
+      }
+      const m = (prefix[i + 1] - prefix[j]) / k;
+      // Inside is m >= lower && m <= upper, as slidingAverage compares; for a mean that is not NaN and finite
+      // bounds (always, for a positive dof) that is neither under the lower nor above the upper bound.
+      if (!finite) {
+        if (m >= lo95.exact(k) && m <= hi95.exact(k)) fullInside95++;
+      } else if (!Number.isNaN(m) && !hi95.exceeds(k, m) && !lo95.under(k, m)) {
+        fullInside95++;
+      }
+    }
+  }
+  return { mean: new Float64Array(0), count: new Float64Array(0), lo: new Float64Array(0), hi: new Float64Array(0), full, fullInside95 };
+}
+
+/**
  * The corrected `inconsistent` test over half-overlapping windows (see the file comment): at most `familyAlpha`
  * probability of any finding for a consistent channel.
+ * @param timesSorted the caller knows `t_s[0..n)` is non-decreasing without NaN (windows are then placed by bisection;
+ *   the same windows)
  */
 export function windowTest(
   t_s: Float64Array, nis: Float64Array, n: number, dof: number, spec: WindowSpec, familyAlpha: number,
-  prefix = prefixSums(nis, n), breaks: readonly number[] = [],
+  prefix = prefixSums(nis, n), breaks: readonly number[] = [], timesSorted = false,
+): WindowTest {
+  return windowTestFromPrefix(t_s, n, dof, spec, familyAlpha, prefix, breaks, timesSorted);
+}
+
+/**
+ * {@link windowTest} from the prefix sums of the NIS (all it reads of them), for a caller that keeps no NIS column.
+ */
+export function windowTestFromPrefix(
+  t_s: Float64Array, n: number, dof: number, spec: WindowSpec, familyAlpha: number,
+  prefix: Float64Array, breaks: readonly number[] = [], timesSorted = false,
 ): WindowTest {
   // Pass 1: the windows of every segment (depends on the times only, so M is fixed before any NIS is looked at).
   const starts: number[] = [];
   const ends: number[] = [];
   const cuts = [0, ...breaks.filter((b) => b > 0 && b < n), n];
   for (let c = 0; c + 1 < cuts.length; c++) {
-    if (cuts[c + 1] > cuts[c]) placeWindows(t_s, cuts[c], cuts[c + 1], spec, starts, ends);
+    if (cuts[c + 1] > cuts[c]) placeWindows(t_s, cuts[c], cuts[c + 1], spec, starts, ends, timesSorted);
   }
   const tests = starts.length;
   const alphaPerTest = tests > 0 ? familyAlpha / tests : familyAlpha;
-  const bounds = new BoundsCache(1 - alphaPerTest, dof);
+  let kMin = Infinity;
+  let kMax = 0;
+  for (let wi = 0; wi < tests; wi++) {
+    const k = ends[wi] - starts[wi];
+    if (k < kMin) kMin = k;
+    if (k > kMax) kMax = k;
+  }
+  // Each end of the bounds is computed only for the counts whose decision needs it (BracketedBound), e.g. only
+  // the upper end for a window above its bounds; comparisons are those of the exact bounds.
+  const lower = tests > 0 ? new BracketedBound(chi2IntervalLower, 1 - alphaPerTest, dof, kMin, kMax) : undefined;
+  const upper = tests > 0 ? new BracketedBound(chi2IntervalUpper, 1 - alphaPerTest, dof, kMin, kMax) : undefined;
   const runs: InconsistentRun[] = [];
   let open: InconsistentRun | undefined;
-  for (let wi = 0; wi < tests; wi++) {
+  for (let wi = 0; wi < tests && lower && upper; wi++) {
     const a = starts[wi];
     const b = ends[wi];
     const k = b - a;
     const m = (prefix[b] - prefix[a]) / k;
-    bounds.ensure(k);
-    const lo = bounds.lower(k);
-    const hi = bounds.upper(k);
-    const side = m > hi ? 'overconfident' : m < lo ? 'pessimistic' : undefined;
+    // m > hi ? overconfident : m < lo ? pessimistic : not flagged
+    const side = upper.exceeds(k, m) ? 'overconfident' : lower.under(k, m) ? 'pessimistic' : undefined;
     if (!side) { open = undefined; continue; }
-    const bound = side === 'overconfident' ? hi : lo;
+    const bound = side === 'overconfident' ? upper.exact(k) : lower.exact(k);
     if (open && open.side === side) {
       open.last = b - 1;
       open.windows++;
@@ -219,8 +385,36 @@ export function windowTest(
   return { tests, alphaPerTest, runs };
 }
 
+/**
+ * The first index in [from, n) whose time is at least x (n when none), for non-decreasing times without NaN: the
+ * index the linear scan `while (i < n && !(t[i] >= x)) i++` stops at, found by galloping and bisection (the scan
+ * walked every update twice per half window).
+ */
+function firstAtLeast(t: Float64Array, from: number, n: number, x: number): number {
+  if (Number.isNaN(x)) return n; // nothing is >= NaN: the scan runs to the end
+  if (from >= n || t[from] >= x) return from;
+  // t[lo] < x; find hi with t[hi] >= x (or n)
+  let lo = from;
+  let step = 1;
+  let hi = from + 1;
+  while (hi < n && t[hi] < x) {
+    lo = hi;
+    step *= 2;
+    hi = lo + step;
+  }
+  if (hi > n) hi = n;
+  while (hi - lo > 1) {
+    const mid = (lo + hi) >> 1;
+    if (t[mid] >= x) hi = mid;
+    else lo = mid;
+  }
+  return hi;
+}
+
 /** Pass 1 of {@link windowTest} for updates [a0, a1): half-overlapping windows from the range's start. */
-function placeWindows(t_s: Float64Array, a0: number, a1: number, spec: WindowSpec, starts: number[], ends: number[]): void {
+function placeWindows(
+  t_s: Float64Array, a0: number, a1: number, spec: WindowSpec, starts: number[], ends: number[], sorted: boolean,
+): void {
   const n = a1;
   if (spec.kind === 'updates') {
     const k = Math.max(1, Math.floor(spec.size));
@@ -243,10 +437,12 @@ function placeWindows(t_s: Float64Array, a0: number, a1: number, spec: WindowSpe
   for (let guard = 0; Number.isFinite(t0) && guard < 4 * (a1 - a0) + 16; guard++) {
     const s = t0 + k * h;
     // `!(t >= s)` also steps over NaN times, which no window can place.
-    while (a < n && !(t_s[a] >= s)) a++;
+    if (sorted) a = firstAtLeast(t_s, a, n, s);
+    else while (a < n && !(t_s[a] >= s)) a++;
     if (a >= n) break;
     if (b < a) b = a;
-    while (b < n && !(t_s[b] >= s + w)) b++;
+    if (sorted) b = firstAtLeast(t_s, b, n, s + w);
+    else while (b < n && !(t_s[b] >= s + w)) b++;
     if (b > a) {
       starts.push(a);
       ends.push(b);

@@ -27,7 +27,8 @@
  *   kept (the segment starts there) with the largest factor.
  */
 import type { StateStream } from '../model';
-import { sampledMedianStep } from '../stats/median';
+import { sampledMedianStep, selectInPlace } from '../stats/median';
+import { giveBack, takeFloat64 } from '../scratch';
 
 /** Default threshold on the one-epoch variance ratio of a block. */
 export const DEFAULT_JUMP_FACTOR = 10;
@@ -94,26 +95,47 @@ function blockSources(state: StateStream): { blocks: BlockSource[]; stride: numb
   return { blocks: [...byName.values()], stride: 0 };
 }
 
-/** Trace of block `b` at epoch `i` (NaN when a variance is missing there). */
-function blockTrace(b: BlockSource, i: number, matrix: Float64Array | undefined, stride: number): number {
-  let tr = 0;
-  if (matrix) for (const d of b.diagonal) tr += matrix[i * stride + d];
-  for (const col of b.sigmas) tr += col[i] * col[i];
-  return tr;
+/**
+ * The blocks flattened for the epoch loop: block k reads the P diagonal offsets diag[diagStart[k]..diagStart[k+1])
+ * and the sigma columns sig[sigStart[k]..sigStart[k+1]).
+ */
+interface BlockLayout {
+  blocks: BlockSource[];
+  stride: number;
+  matrix: Float64Array | undefined;
+  diag: number[];
+  diagStart: Int32Array;
+  sig: Float64Array[];
+  sigStart: Int32Array;
 }
 
-
-/** Median of a block's finite positive traces (sampled: a floor needs no exact median). */
-function positiveMedianTrace(b: BlockSource, n: number, matrix: Float64Array | undefined, stride: number): number {
-  const every = Math.max(1, Math.floor(n / 20000));
-  const xs: number[] = [];
-  for (let i = 0; i < n; i += every) {
-    const v = blockTrace(b, i, matrix, stride);
-    if (v > 0 && Number.isFinite(v)) xs.push(v);
+function blockLayout(state: StateStream): BlockLayout {
+  const { blocks, stride } = blockSources(state);
+  const matrix = stride > 0 ? state.P?.matrix : undefined;
+  const nb = blocks.length;
+  const diagStart = new Int32Array(nb + 1);
+  const sigStart = new Int32Array(nb + 1);
+  const diag: number[] = [];
+  const sig: Float64Array[] = [];
+  for (let k = 0; k < nb; k++) {
+    for (const d of blocks[k].diagonal) diag.push(d);
+    for (const c of blocks[k].sigmas) sig.push(c);
+    diagStart[k + 1] = diag.length;
+    sigStart[k + 1] = sig.length;
   }
-  if (xs.length === 0) return NaN;
-  xs.sort((p, q) => p - q);
-  return xs[xs.length >> 1];
+  return { blocks, stride, matrix, diag, diagStart, sig, sigStart };
+}
+
+/**
+ * What the first pass also gathers, for the floors: every `every`-th epoch's finite positive trace of each block
+ * (block k's at samples[k * per ..], `count[k]` of them), and the smallest previous trace a ratio was taken from.
+ */
+interface FloorSample {
+  every: number;
+  per: number;
+  samples: Float64Array;
+  count: Int32Array;
+  minBefore: Float64Array;
 }
 
 /**
@@ -122,38 +144,88 @@ function positiveMedianTrace(b: BlockSource, n: number, matrix: Float64Array | u
  * @param state the log's state records
  * @param factor threshold on a block's one-epoch variance ratio (DEFAULT_JUMP_FACTOR)
  * @param merge_s jumps closer than this to the previous candidate are one restart, seconds
+ * @param step_s the median epoch step (sampledMedianStep of `state.t_s`), when the caller has it already
  */
-export function detectCovarianceJumps(state: StateStream, factor = DEFAULT_JUMP_FACTOR, merge_s = 1): CovarianceJump[] {
+export function detectCovarianceJumps(
+  state: StateStream, factor = DEFAULT_JUMP_FACTOR, merge_s = 1, step_s?: number,
+): CovarianceJump[] {
   const n = state.length;
   if (n < 2 || !(factor > 1)) return [];
+  // The epoch loop reads every variance column once (memory-bound: ~18 MB for 9 sigma columns of 250k epochs), so
+  // the floors' median traces, which need a sample of the same traces before the loop, are gathered by the loop
+  // itself: it first runs without floors, which gives the same ratios whenever no previous trace lies below its
+  // block's floor (the usual case: a floor is a millionth of the median); otherwise it runs again with them.
+  const layout = blockLayout(state);
+  const nb = layout.blocks.length;
+  const step = step_s ?? sampledMedianStep(state.t_s, n);
+  const every = Math.max(1, Math.floor(n / 20000));
+  const per = Math.ceil(n / every);
+  const sample: FloorSample = {
+    every, per, samples: takeFloat64(nb * per), count: new Int32Array(nb), minBefore: new Float64Array(nb).fill(Infinity),
+  };
+  const out = scanJumps(state, layout, step, factor, merge_s, undefined, sample);
+  const floors = new Float64Array(nb);
+  let floorsApply = false;
+  for (let k = 0; k < nb; k++) {
+    // Median of the block's finite positive traces (sampled: a floor needs no exact median), the upper middle
+    // value as after a sort.
+    const m = sample.count[k];
+    const median = m === 0 ? NaN : selectInPlace(sample.samples.subarray(k * per, k * per + m), m >> 1, m);
+    floors[k] = FLOOR_RELATIVE * median;
+    if (!(floors[k] > 0) || sample.minBefore[k] < floors[k]) floorsApply = true;
+  }
+  giveBack(sample.samples);
+  return floorsApply ? scanJumps(state, layout, step, factor, merge_s, floors, undefined) : out;
+}
+
+/**
+ * The epoch loop of {@link detectCovarianceJumps}: with `floors`, the rule of the file comment (blocks whose floor
+ * is not positive are left out); without, no floor (and `sample` is filled).
+ */
+function scanJumps(
+  state: StateStream, layout: BlockLayout, step: number, factor: number, merge_s: number,
+  floors: Float64Array | undefined, sample: FloorSample | undefined,
+): CovarianceJump[] {
   // One pass over the epochs, every block's trace computed on the fly: no column per state or block is made
-  // (new memory is the expensive part on a long log), only a few numbers per block.
-  const { blocks, stride } = blockSources(state);
-  const matrix = stride > 0 ? state.P?.matrix : undefined;
+  // (new memory is the expensive part on a long log), only a few numbers per block. The traces are summed inline
+  // in the same order as a per-block helper would (P diagonal, then sigma squares): a call and two for-of loops per
+  // block and epoch cost ~4x the arithmetic on 250k epochs.
+  const n = state.length;
   const t = state.t_s;
-  const step = sampledMedianStep(t, n);
-  const floors = blocks.map((b) => FLOOR_RELATIVE * positiveMedianTrace(b, n, matrix, stride));
-  const prevTrace = new Float64Array(blocks.length);
-  const prevIndex = new Int32Array(blocks.length).fill(-1);
+  const { blocks, stride, matrix, diag, diagStart, sig, sigStart } = layout;
+  const nb = blocks.length;
+  const prevTrace = new Float64Array(nb);
+  const prevIndex = new Int32Array(nb).fill(-1);
   const out: CovarianceJump[] = [];
+  const limit = 1.5 * step;
+  let untilSample = 0;
   for (let i = 0; i < n; i++) {
     let best = 0;
     let bestBlock = -1;
     let bestBefore = 0;
     let bestAfter = 0;
-    for (let k = 0; k < blocks.length; k++) {
-      if (!(floors[k] > 0)) continue;
-      const v = blockTrace(blocks[k], i, matrix, stride);
+    const row = i * stride;
+    const sampleNow = sample !== undefined && untilSample === 0;
+    if (sample) untilSample = sampleNow ? sample.every - 1 : untilSample - 1;
+    for (let k = 0; k < nb; k++) {
+      const floor = floors ? floors[k] : 0;
+      if (floors && !(floor > 0)) continue;
+      let v = 0;
+      if (matrix) for (let q = diagStart[k]; q < diagStart[k + 1]; q++) v += matrix[row + diag[q]];
+      for (let q = sigStart[k]; q < sigStart[k + 1]; q++) { const s = sig[q][i]; v += s * s; }
       if (!(v > 0) || !Number.isFinite(v)) continue; // NaN, zero or negative: that epoch is skipped for the block
+      if (sampleNow && sample) sample.samples[k * sample.per + sample.count[k]++] = v;
       const prev = prevIndex[k];
       if (prev >= 0) {
         const dt = t[i] - t[prev];
-        const raw = v / Math.max(prevTrace[k], floors[k]);
-        const r = step > 0 && dt > 1.5 * step ? Math.pow(raw, step / dt) : raw;
+        const before = prevTrace[k];
+        if (sample && before < sample.minBefore[k]) sample.minBefore[k] = before;
+        const raw = floors ? v / Math.max(before, floor) : v / before;
+        const r = step > 0 && dt > limit ? Math.pow(raw, step / dt) : raw;
         if (r > best) {
           best = r;
           bestBlock = k;
-          bestBefore = prevTrace[k];
+          bestBefore = before;
           bestAfter = v;
         }
       }

@@ -103,10 +103,11 @@ function analyzeResetsUnsafe(log: NavLog, settings: AnalysisSettings): StageOutp
   const logged = mergeResetTimes(log.resets);
   const confirmed = mergeResetTimes(settings.confirmedResets_s);
   // Half the median step: how close a reset time must be to "be at" an epoch.
-  const tol = Math.max(sampledMedianStep(state.t_s, n) / 2, 1e-9);
+  const step = sampledMedianStep(state.t_s, n); // once: the detector below needs it too
+  const tol = Math.max(step / 2, 1e-9);
   const findings: Finding[] = [];
   const candidates: ResetCandidate[] = [];
-  for (const j of detectCovarianceJumps(state, factor, Math.max(settings.window_s / 5, 4 * tol))) {
+  for (const j of detectCovarianceJumps(state, factor, Math.max(settings.window_s / 5, 4 * tol), step)) {
     const fileIndex = state.fileIndex?.[j.index];
     const file = fileIndex !== undefined && log.files[fileIndex] !== undefined ? log.files[fileIndex] : state.file;
     const c: ResetCandidate = {

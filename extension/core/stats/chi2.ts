@@ -27,8 +27,17 @@ export function chi2Sf(x: number, dof: number): number {
 
 /** Two-sided interval [q((1-c)/2), q((1+c)/2)] of chi-square(dof), e.g. c = 0.95. */
 export function chi2Interval(confidence: number, dof: number): [number, number] {
-  const a = (1 - confidence) / 2;
-  return [chisquareQuantile(a, dof), chisquareQuantile(1 - a, dof)];
+  return [chi2IntervalLower(confidence, dof), chi2IntervalUpper(confidence, dof)];
+}
+
+/** The lower end of {@link chi2Interval} alone (the same value), for a caller that needs one side. */
+export function chi2IntervalLower(confidence: number, dof: number): number {
+  return chisquareQuantile((1 - confidence) / 2, dof);
+}
+
+/** The upper end of {@link chi2Interval} alone (the same value), for a caller that needs one side. */
+export function chi2IntervalUpper(confidence: number, dof: number): number {
+  return chisquareQuantile(1 - (1 - confidence) / 2, dof);
 }
 
 /**

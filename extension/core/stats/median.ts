@@ -3,6 +3,7 @@
  * give (the middle element, or the mean of the two middle ones), without the O(n log n) sort of long columns.
  * Hand-written: the typed-array sort of the platform is the only alternative, and it sorts everything.
  */
+import { giveBack, takeFloat64 } from '../scratch';
 
 /**
  * The k-th smallest of a[0..n) (0-based), partially reordering `a` in place: afterwards a[0..k) <= a[k] <= a[k+1..n).
@@ -45,12 +46,13 @@ export function medianInPlace(a: Float64Array, n = a.length): number {
  */
 export function sampledMedianStep(t: Float64Array, n: number, maxSamples = 100_000): number {
   const stride = Math.max(1, Math.floor(n / maxSamples));
-  const steps = new Float64Array(Math.ceil(n / stride));
+  const steps = takeFloat64(Math.ceil(n / stride)); // a work column: fresh memory costs more than the selection
   let m = 0;
   for (let i = stride; i < n; i += stride) {
     const d = t[i] - t[i - 1];
     if (d > 0 && Number.isFinite(d)) steps[m++] = d;
   }
-  if (m === 0) return 0;
-  return selectInPlace(steps, m >> 1, m);
+  const median = m === 0 ? 0 : selectInPlace(steps, m >> 1, m);
+  giveBack(steps);
+  return median;
 }

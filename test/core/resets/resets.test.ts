@@ -105,6 +105,21 @@ describe('covariance-jump detection on seeded Kalman filter runs', () => {
     expect(j[0].factor).toBeCloseTo(101 / 2, 12); // trace of the p block: (100 + 1) / (1 + 1)
   });
 
+  it('a variance logged as almost 0 is raised to the floor (a millionth of the median) before the ratio', () => {
+    // Constructed: sigma 1 everywhere except 1e-10 at epoch 20 (variance 1e-20); the floor is 1e-6 * median 1, so
+    // the ratio at epoch 21 is 1 / 1e-6, not 1e20. A block with no finite variance (v) has no floor and is left out.
+    const t = Float64Array.from({ length: 40 }, (_, i) => i * 0.1);
+    const s = Float64Array.from(t, (_, i) => (i === 20 ? 1e-10 : 1));
+    const log = navLog(stateStream(t, { sigma_p_x: s, sigma_v_x: new Float64Array(40).fill(NaN) }));
+    const j = detectCovarianceJumps(log.state);
+    expect(j.map((x) => [x.index, x.block])).toEqual([[21, 'p']]);
+    expect(j[0].factor).toBeCloseTo(1e6, 3);
+    expect(j[0].sigmaBefore).toBeCloseTo(1e-10, 20);
+    // without the tiny value and with the empty block the same: nothing
+    const flat = navLog(stateStream(t, { sigma_p_x: new Float64Array(40).fill(1), sigma_v_x: new Float64Array(40).fill(NaN) }));
+    expect(detectCovarianceJumps(flat.state)).toEqual([]);
+  });
+
   it('the shipped demo (a converging filter) has no candidate', async () => {
     const { report } = await analyzeFile(path.join(ROOT, 'demo/warehouse-flight.csv'), { anchors: path.join(ROOT, 'demo/anchors.csv'), notes: [] });
     expect(reportProblems(report)).toEqual([]);
