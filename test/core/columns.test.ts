@@ -1,9 +1,8 @@
 /**
- * Columns carved from one allocation (columnBlock.ts) and work columns reserved together (scratch.ts): each column
+ * Work columns reserved together (scratch.ts): each column
  * is its own, of the asked length (or more, for scratch), zero-filled where promised, and none overlaps another.
  */
 import { afterEach, describe, expect, it } from 'vitest';
-import { columnBlock } from '../../extension/core/columnBlock';
 import { emptyScratch, giveBack, reserveScratch, takeFloat64, takeInt32 } from '../../extension/core/scratch';
 
 /** Write a distinct value into every element of every column, then check each column still holds only its own. */
@@ -11,26 +10,6 @@ function expectDisjoint(columns: (Float64Array | Int32Array)[]): void {
   columns.forEach((c, j) => c.fill(j + 1));
   columns.forEach((c, j) => expect(c.every((v) => v === j + 1)).toBe(true));
 }
-
-describe('columnBlock', () => {
-  it('makes zero-filled columns of exactly the length, disjoint, the first `count` sharing one buffer', () => {
-    const column = columnBlock(1000, 3);
-    const cols = [column(), column(), column(), column()];
-    for (const c of cols) {
-      expect(c).toBeInstanceOf(Float64Array);
-      expect(c.length).toBe(1000);
-      expect(c.every((v) => v === 0)).toBe(true);
-    }
-    expect(cols[1].buffer).toBe(cols[0].buffer);
-    expect(cols[2].buffer).toBe(cols[0].buffer);
-    expect(cols[3].buffer).not.toBe(cols[0].buffer); // beyond the count: a column of its own
-    expectDisjoint(cols);
-  });
-  it('copes with nothing to carve (length 0 or count 0)', () => {
-    expect(columnBlock(0, 5)().length).toBe(0);
-    expect(columnBlock(10, 0)().length).toBe(10);
-  });
-});
 
 describe('reserveScratch', () => {
   afterEach(() => emptyScratch());

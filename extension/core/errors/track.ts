@@ -23,7 +23,7 @@ import {
 import { geodeticToLocal, type GeodeticOrigin, type LocalFrame } from './geodetic';
 import { componentSigma, neesSeries, type BlockCovariance } from './nees';
 import { normalisedQuaternionColumns, rotationAt, type AttitudeColumns } from './attitude';
-import { columnBlock } from '../columnBlock';
+import { newFloat64 } from '../columnAlloc';
 
 /** Names of the error blocks. */
 export type BlockName = 'position' | 'velocity' | 'orientation';
@@ -265,10 +265,10 @@ export function buildErrorTrack(log: NavLog, settings: AnalysisSettings): ErrorT
   const hasAtt = !!(refQ && estQRaw);
   if (!hasPos && !hasVel && !hasAtt) return undefined;
 
-  // Every long column the track keeps comes from one allocation (columnBlock.ts: huge pages instead of ~500 page
-  // faults per column); the count is an upper bound (slots never used cost no memory).
+  // Every long column the track keeps is cut from the run's slabs (columnAlloc.ts: huge pages instead of ~500 page
+  // faults per 2 MB column).
   const group = log.conventions.errorGroup ?? 'SO3xR3';
-  const column = columnBlock(n, (ref ? 3 + velDims + 4 : 0) + 3 + velDims + 3 + 3 + (group !== 'SO3xR3' ? 9 : 0) + (state.P ? 10 : 0));
+  const column = (): Float64Array => newFloat64(n);
 
   // --- time alignment -------------------------------------------------------------------------------------
   let offset = ref ? settings.timeOffset_s : 0;
