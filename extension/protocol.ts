@@ -94,6 +94,15 @@ export interface SeriesRequestMessage {
   widthPx: number;
 }
 
+/**
+ * Several `series/request`s in one message (the charts of one view after a linked zoom, or on first draw), answered
+ * by one `series/responseBatch` holding the answers in the same order.
+ */
+export interface SeriesRequestBatchMessage {
+  type: 'series/requestBatch';
+  requests: SeriesRequestMessage[];
+}
+
 /** Reveal a line of one of the run's files in a text editor beside the panel, selected. */
 export interface RevealLineMessage {
   type: 'reveal/line';
@@ -233,6 +242,7 @@ export type WebviewToHostMessage =
   | MonteCarloPickMessage
   | ReadyMessage
   | SeriesRequestMessage
+  | SeriesRequestBatchMessage
   | RevealLineMessage
   | CursorDidChangeMessage
   | LogWriteMessage
@@ -296,6 +306,14 @@ export interface SeriesResponseMessage {
   inWindow: number;
   /** Why no data came back (unknown key ...). */
   error?: string;
+  /** Milliseconds the host spent forming this answer (the envelope), for the editor bench's breakdown. */
+  host_ms?: number;
+}
+
+/** The answers to one `series/requestBatch`, in its order (their column buffers are transferred together). */
+export interface SeriesResponseBatchMessage {
+  type: 'series/responseBatch';
+  responses: SeriesResponseMessage[];
 }
 
 /** Move the linked cursor (from the next/previous worst epoch commands). */
@@ -412,6 +430,7 @@ export interface MonteCarloUpdateMessage {
 export type HostToWebviewMessage =
   | InitMessage
   | SeriesResponseMessage
+  | SeriesResponseBatchMessage
   | CursorSetMessage
   | StatusMessage
   | NotesUpdateMessage
@@ -475,6 +494,10 @@ function optIndex(value: unknown): value is number | undefined {
   return value === undefined || isIndex(value);
 }
 
+function isSeriesResponse(value: Record<string, unknown>): boolean {
+  return isIndex(value.id) && typeof value.key === 'string' && isBufferLike(value.x) && isBufferLike(value.y);
+}
+
 /** Most runs a comparison holds. */
 const MAX_RUNS = 64;
 
@@ -504,6 +527,22 @@ export function parsePersistedState(value: unknown): PersistedState | undefined 
   return { uri: value.uri, view: parseViewState(value.view) ?? {} };
 }
 
+/** Most requests one `series/requestBatch` may carry. */
+const MAX_BATCH = 512;
+
+function parseSeriesRequest(value: Record<string, unknown>): SeriesRequestMessage | string {
+  const { id, key, t0, t1, widthPx } = value;
+  if (!isIndex(id)) return 'series/request: id is not a non-negative integer';
+  if (typeof key !== 'string' || key.length === 0 || key.length > 512) return 'series/request: key is not a string';
+  if (!optFinite(t0) || !optFinite(t1)) return 'series/request: t0/t1 not finite';
+  if (t0 !== undefined && t1 !== undefined && !(t0 <= t1)) return 'series/request: t0 > t1';
+  if (!isIndex(widthPx, MAX_WIDTH_PX) || widthPx < 1) return 'series/request: widthPx out of range';
+  const out: SeriesRequestMessage = { type: 'series/request', id, key, widthPx };
+  if (t0 !== undefined) out.t0 = t0;
+  if (t1 !== undefined) out.t1 = t1;
+  return out;
+}
+
 /**
  * Check a message from the webview field by field. Returns the typed message (a clean copy holding only known
  * fields), or a reason string when it is unknown or malformed (the caller logs it and ignores the message).
@@ -516,17 +555,18 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
       const view = value.view === undefined ? undefined : parseViewState(value.view);
       return view ? { type, view } : { type };
     }
-    case 'series/request': {
-      const { id, key, t0, t1, widthPx } = value;
-      if (!isIndex(id)) return 'series/request: id is not a non-negative integer';
-      if (typeof key !== 'string' || key.length === 0 || key.length > 512) return 'series/request: key is not a string';
-      if (!optFinite(t0) || !optFinite(t1)) return 'series/request: t0/t1 not finite';
-      if (t0 !== undefined && t1 !== undefined && !(t0 <= t1)) return 'series/request: t0 > t1';
-      if (!isIndex(widthPx, MAX_WIDTH_PX) || widthPx < 1) return 'series/request: widthPx out of range';
-      const out: SeriesRequestMessage = { type, id, key, widthPx };
-      if (t0 !== undefined) out.t0 = t0;
-      if (t1 !== undefined) out.t1 = t1;
-      return out;
+    case 'series/request':
+      return parseSeriesRequest(value);
+    case 'series/requestBatch': {
+      const { requests } = value;
+      if (!Array.isArray(requests) || requests.length === 0 || requests.length > MAX_BATCH) return `series/requestBatch: requests is not an array of 1..${MAX_BATCH}`;
+      const out: SeriesRequestMessage[] = [];
+      for (const r of requests) {
+        const parsed = isRecord(r) && r.type === 'series/request' ? parseSeriesRequest(r) : 'not a series/request';
+        if (typeof parsed === 'string') return `series/requestBatch: request ${out.length}: ${parsed}`;
+        out.push(parsed);
+      }
+      return { type: 'series/requestBatch', requests: out };
     }
     case 'reveal/line': {
       const { line, file, t, worstIndex } = value;
@@ -628,8 +668,10 @@ export function parseHostMessage(value: unknown): HostToWebviewMessage | undefin
         ? (value as unknown as InitMessage)
         : undefined;
     case 'series/response':
-      return isIndex(value.id) && typeof value.key === 'string' && isBufferLike(value.x) && isBufferLike(value.y)
-        ? (value as unknown as SeriesResponseMessage)
+      return isSeriesResponse(value) ? (value as unknown as SeriesResponseMessage) : undefined;
+    case 'series/responseBatch':
+      return Array.isArray(value.responses) && value.responses.every((r) => isRecord(r) && r.type === 'series/response' && isSeriesResponse(r))
+        ? (value as unknown as SeriesResponseBatchMessage)
         : undefined;
     case 'cursor/set':
       return isFiniteNumber(value.t) ? (value as unknown as CursorSetMessage) : undefined;

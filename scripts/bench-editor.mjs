@@ -68,10 +68,11 @@ async function timeOpen(page, file) {
   await f.locator('body[data-charts-rendered]').waitFor({ state: 'attached', timeout: 300_000 });
   const tChart = Date.now();
   const charts = Number(await f.locator('body').getAttribute('data-charts-rendered'));
+  const renderTiming = JSON.parse((await f.locator('body').getAttribute('data-render-timing')) ?? 'null');
   // How the host read the log (webview/main.ts markRevision): mode and bytes of this first reading.
   const app = f.locator('main#app');
   const read = { mode: await app.getAttribute('data-read-mode'), bytes: Number(await app.getAttribute('data-read-bytes')), epochs: Number(await app.getAttribute('data-epochs')) };
-  return { dialog_ms: tAccepted - t0, openToReady_ms: tReady - tAccepted, readyToChart_ms: tChart - tReady, openToChart_ms: tChart - tAccepted, charts, read };
+  return { dialog_ms: tAccepted - t0, openToReady_ms: tReady - tAccepted, readyToChart_ms: tChart - tReady, openToChart_ms: tChart - tAccepted, charts, renderTiming, read };
 }
 
 async function timeZooms(page, n) {
@@ -83,6 +84,7 @@ async function timeZooms(page, n) {
   const key = await section.getAttribute('data-series');
   const samples = [];
   const envelopes = [];
+  const timings = [];
   for (let i = 0; i < n; i++) {
     await section.evaluate(probes.armPointsWatch, 60_000);
     await section.focus();
@@ -91,8 +93,9 @@ async function timeZooms(page, n) {
     if (r.ms < 0) throw new Error(`zoom ${i + 1} on ${key}: no answer within 60 s`);
     samples.push(r.ms);
     if (r.envelopeMs) envelopes.push(Number(r.envelopeMs));
+    if (r.timing) timings.push(JSON.parse(r.timing));
   }
-  return { series: key, zoomAnswer_ms_median: median(samples), zoomAnswer_ms: samples, envelope_ms_median: envelopes.length ? median(envelopes) : undefined };
+  return { series: key, zoomAnswer_ms_median: median(samples), zoomAnswer_ms: samples, envelope_ms_median: envelopes.length ? median(envelopes) : undefined, zoomTimings: timings };
 }
 
 async function main() {

@@ -17,6 +17,8 @@ import {
   type HostToWebviewMessage,
   type InitMessage,
   type SeriesInfo,
+  type SeriesRequestMessage,
+  type SeriesResponseBatchMessage,
   type SeriesResponseMessage,
   type StatusMessage,
   type ViewState,
@@ -47,11 +49,21 @@ import { resetAction, resetsSection } from './resets';
 import { button, divider, progressRing, registerUi, tabs, type Tabs } from './ui';
 import { panelApi } from './vscodeApi';
 
-/** Delay before linked charts re-query their envelopes after a zoom or pan, milliseconds. */
-const REQUERY_DEBOUNCE_MS = 60;
+/**
+ * Delay before the charts on screen re-query their envelopes after a zoom or pan, milliseconds: 0 only gathers the
+ * zooms of one task (the linked charts' own scale hooks). Bursts (a held key) are bounded by the in-flight gate
+ * instead: one batch of requests at a time, the latest window asked for when its answer came.
+ */
+const REQUERY_DEBOUNCE_MS = 0;
+/** After this long without an answer the in-flight gate opens anyway (a lost answer must not freeze zooming). */
+const IN_FLIGHT_GIVE_UP_MS = 1000;
 
 interface TimeEntry {
   kind: 'time';
+  /** The view (tab) the chart is on. */
+  viewId: string;
+  /** The window or selection changed while the chart's view was hidden: redraw and re-query when shown. */
+  stale: boolean;
   info: SeriesInfo;
   section: HTMLElement;
   chart: TimeChart;
@@ -63,6 +75,7 @@ interface TimeEntry {
 
 interface XyEntry {
   kind: 'xy';
+  viewId: string;
   infos: SeriesInfo[];
   section: HTMLElement;
   chart: XyChart;
@@ -74,6 +87,7 @@ interface XyEntry {
 
 interface HistogramEntry {
   kind: 'histogram';
+  viewId: string;
   section: HTMLElement;
   chart: HistogramChart;
   rendered: boolean;
@@ -99,7 +113,21 @@ let nextRequestId = 1;
 const pendingByRequest = new Map<number, Entry>();
 let requeryTimer: ReturnType<typeof setTimeout> | undefined;
 let extent: [number, number] = [0, 1];
+/** The id of the view (tab) on screen: only its charts follow a zoom at once, the others when shown. */
+let activeView = 'overview';
+/** Ids of the zoom requests not answered yet, and when they were sent (the in-flight gate). */
+const zoomInFlight = new Set<number>();
+let zoomSentAt = 0;
+let requeryOrigin: TimeChart | undefined;
+/** A zoom came while a batch was in flight: ask again when it is answered. */
+let zoomWanted = false;
 let firstRenderReported = false;
+/** performance.now() of each request's post, and of the last user zoom/pan (for the timing hooks the bench reads). */
+const sentAt = new Map<number, number>();
+let userWindowAt = -1;
+let initAt = -1;
+let builtAt = -1;
+let drawTotal_ms = 0;
 let currentTabs: Tabs | undefined;
 
 function log(level: 'info' | 'warning' | 'error', message: string): void {
@@ -184,9 +212,14 @@ function destroyCharts(): void {
   for (const e of entries) e.chart.destroy();
   entries = [];
   pendingByRequest.clear();
+  zoomInFlight.clear();
+  zoomWanted = false;
+  requeryOrigin = undefined;
 }
 
 function render(message: InitMessage): void {
+  initAt = performance.now();
+  drawTotal_ms = 0;
   destroyCharts();
   init = message;
   uri = message.uri;
@@ -209,8 +242,10 @@ function render(message: InitMessage): void {
     (id) => {
       view.view = id;
       persist();
+      showView(id);
     },
   );
+  activeView = active;
   const header = el('header', {}, el('h1', {}, message.logName), el('p', { class: 'reloading', role: 'status' }));
   header.append(exportButtons((format) => panelApi.post({ type: 'report/export', format })));
   if (message.notice) header.append(el('p', { class: 'notice', role: 'status' }, message.notice));
@@ -235,6 +270,7 @@ function render(message: InitMessage): void {
           view.view = id;
           persist();
           currentTabs?.select(id);
+          showView(id);
         },
       },
       compareHost,
@@ -245,6 +281,7 @@ function render(message: InitMessage): void {
   app.setAttribute('aria-busy', 'false');
   markRevision(message);
   persist();
+  builtAt = performance.now();
   requestAll();
   applySelection();
   maybeReportRendered();
@@ -327,17 +364,17 @@ function buildGroup(host: HTMLElement, id: string, all: readonly SeriesInfo[], m
   const anchors = message.series.find((s) => s.key === 'uwb/anchors');
   if (id === 'trajectory' && xy.length) {
     const layers = anchors && !xy.includes(anchors) ? [...xy, anchors] : xy;
-    addXyChart(host, layers, 'Trajectory from above', width);
+    addXyChart(host, id, layers, 'Trajectory from above', width);
   } else {
-    for (const s of xy) addXyChart(host, [s], s.label, width);
+    for (const s of xy) addXyChart(host, id, [s], s.label, width);
   }
   for (const s of series) {
     const kind = chartKind(s);
     if (kind === 'xy') continue;
-    addTimeChart(host, s, kind, report, width);
+    addTimeChart(host, id, s, kind, report, width);
     if (s.key.startsWith('nis/')) {
       const h = message.histograms.find((x) => x.key === s.key);
-      if (h) addHistogram(host, h, width);
+      if (h) addHistogram(host, id, h, width);
     }
   }
   const block = id === 'errors' ? report.errors : id === 'bias' ? report.bias : id === 'uwb' ? report.uwb : id === 'allan' ? report.imu ?? allanFigures(report.bias) : undefined;
@@ -369,7 +406,7 @@ function allanFigures(bias: unknown): unknown {
   return Object.keys(out).length ? out : undefined;
 }
 
-function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglog' | 'plain', report: InitMessage['report'], width: number): void {
+function addTimeChart(host: HTMLElement, viewId: string, info: SeriesInfo, kind: 'time' | 'loglog' | 'plain', report: InitMessage['report'], width: number): void {
   const { section, plot, tableHost, details } = chartSection(info.key, info.label, info.unit);
   host.append(section);
   const ownExtent: [number, number] = kind === 'time' ? extent : [info.x0, info.x1];
@@ -394,22 +431,22 @@ function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglo
     () => theme,
   );
   if (kind === 'time' && view.window) chart.setWindow(view.window[0], view.window[1]);
-  const entry: TimeEntry = { kind: 'time', info, section, chart, tableHost, requestId: 0, rendered: false };
+  const entry: TimeEntry = { kind: 'time', viewId, stale: false, info, section, chart, tableHost, requestId: 0, rendered: false };
   entries.push(entry);
   details.addEventListener('toggle', () => details.open && fillTable(entry));
   if (kind === 'time') section.addEventListener('keydown', (e) => onChartKey(e, chart, details));
 }
 
-function addXyChart(host: HTMLElement, infos: SeriesInfo[], label: string, width: number): void {
+function addXyChart(host: HTMLElement, viewId: string, infos: SeriesInfo[], label: string, width: number): void {
   const { section, plot, tableHost, details } = chartSection(infos[0].key, label, infos[0].unit || 'm');
   section.dataset.layers = infos.map((i) => i.key).join(' ');
   host.append(section);
-  const entry: XyEntry = { kind: 'xy', infos, section, chart: new XyChart(plot, infos[0].unit || 'm', width, () => theme), tableHost, requestIds: new Map(), columns: new Map(), rendered: false };
+  const entry: XyEntry = { kind: 'xy', viewId, infos, section, chart: new XyChart(plot, infos[0].unit || 'm', width, () => theme), tableHost, requestIds: new Map(), columns: new Map(), rendered: false };
   entries.push(entry);
   details.addEventListener('toggle', () => details.open && fillTable(entry));
 }
 
-function addHistogram(host: HTMLElement, h: HistogramInfo, width: number): void {
+function addHistogram(host: HTMLElement, viewId: string, h: HistogramInfo, width: number): void {
   const key = `histogram/${h.key}`;
   const { section, plot, tableHost } = chartSection(key, `Histogram of ${h.key} against chi-square (${h.dof} dof)`, '');
   host.append(section);
@@ -419,27 +456,63 @@ function addHistogram(host: HTMLElement, h: HistogramInfo, width: number): void 
   const rows = h.counts.map((c, i) => [`${h.edges[i].toPrecision(3)} – ${h.edges[i + 1].toPrecision(3)}`, String(c), h.expected[i].toFixed(1)]);
   rows.push([`≥ ${h.edges[h.edges.length - 1].toPrecision(3)}`, String(h.overflow), (h.total * 0.005).toFixed(1)]);
   tableHost.append(table(`NIS histogram, ${h.total} values`, ['NIS bin', 'Count', 'Expected'], rows));
-  entries.push({ kind: 'histogram', section, chart, rendered: true });
+  entries.push({ kind: 'histogram', viewId, section, chart, rendered: true });
 }
 
 // ---------------------------------------------------------------------------------------------------------------
 // Envelope requests and responses
 
-function request(entry: TimeEntry | XyEntry, key: string, window?: [number, number]): void {
+/** One envelope to ask for: a chart, the key of one of its series, the window (absent: the whole series). */
+interface Wanted {
+  entry: TimeEntry | XyEntry;
+  key: string;
+  window?: [number, number];
+}
+
+function requestMessage(w: Wanted): SeriesRequestMessage {
+  const { entry, key, window } = w;
   const id = nextRequestId++;
   pendingByRequest.set(id, entry);
+  sentAt.set(id, performance.now());
   if (entry.kind === 'time') entry.requestId = id;
   else entry.requestIds.set(key, id);
   const widthPx = entry.kind === 'time' ? entry.chart.plotWidthPx() : 1;
-  const msg = { type: 'series/request' as const, id, key, widthPx: Math.min(16384, Math.max(1, widthPx)) };
-  panelApi.post(window ? { ...msg, t0: window[0], t1: window[1] } : msg);
+  const msg: SeriesRequestMessage = { type: 'series/request', id, key, widthPx: Math.min(16384, Math.max(1, widthPx)) };
+  if (window) {
+    msg.t0 = window[0];
+    msg.t1 = window[1];
+  }
+  return msg;
 }
 
+/** Ask for `wanted` in one message (one request, or a batch answered by one batch); returns the request ids. */
+function send(wanted: readonly Wanted[]): number[] {
+  if (!wanted.length) return [];
+  const requests = wanted.map(requestMessage);
+  panelApi.post(requests.length === 1 ? requests[0] : { type: 'series/requestBatch', requests });
+  return requests.map((r) => r.id);
+}
+
+function wantedOf(e: TimeEntry | XyEntry): Wanted[] {
+  if (e.kind === 'xy') return e.infos.map((i) => ({ entry: e, key: i.key }));
+  return [{ entry: e, key: e.info.key, window: chartKindOf(e) === 'time' ? e.chart.visibleWindow() : undefined }];
+}
+
+/**
+ * Every chart's first envelope: the view on screen first (one batch), then each other view (one batch each). The
+ * host answers in order, so the charts the user sees are not queued behind the hidden ones; those are drawn as
+ * their answers come, one view per message, so the page can paint between them.
+ */
 function requestAll(): void {
+  const byView = new Map<string, Wanted[]>();
   for (const e of entries) {
-    if (e.kind === 'time') request(e, e.info.key, chartKindOf(e) === 'time' ? e.chart.visibleWindow() : undefined);
-    else if (e.kind === 'xy') for (const i of e.infos) request(e, i.key);
+    if (e.kind === 'histogram') continue;
+    const list = byView.get(e.viewId) ?? [];
+    list.push(...wantedOf(e));
+    byView.set(e.viewId, list);
   }
+  send(byView.get(activeView) ?? []);
+  for (const [id, list] of byView) if (id !== activeView) send(list);
 }
 
 function chartKindOf(e: TimeEntry): 'time' | 'loglog' | 'plain' {
@@ -447,25 +520,67 @@ function chartKindOf(e: TimeEntry): 'time' | 'loglog' | 'plain' {
   return k === 'xy' ? 'plain' : k;
 }
 
+function linkedTimeCharts(): TimeEntry[] {
+  return entries.filter((e): e is TimeEntry => e.kind === 'time' && chartKindOf(e) === 'time');
+}
+
 /**
- * Ask again for every time chart's envelope of its window (debounced). The host answers in order, so the chart the
- * user zoomed goes first, then the charts on screen, then those on hidden views: the answer the user waits for is
- * not queued behind some forty others.
+ * Ask again for the envelopes of the time charts on screen (the one the user zoomed first), in one batch. The
+ * charts on hidden views were marked stale by {@link onUserWindow} and are asked for when their view is shown.
+ * While a batch is unanswered the next waits for it (then asks for the latest window), so a held key does not queue
+ * dozens of answers.
  */
 function requeryTimeCharts(origin?: TimeChart): void {
-  if (requeryTimer) clearTimeout(requeryTimer);
-  requeryTimer = setTimeout(() => {
-    requeryTimer = undefined;
-    const rank = (e: TimeEntry): number => (e.chart === origin ? 0 : e.section.offsetParent !== null ? 1 : 2);
-    const charts = entries.filter((e): e is TimeEntry => e.kind === 'time' && chartKindOf(e) === 'time');
-    charts.sort((a, b) => rank(a) - rank(b)); // stable: the page order within each rank
-    for (const e of charts) request(e, e.info.key, e.chart.visibleWindow());
-  }, REQUERY_DEBOUNCE_MS);
+  if (origin) requeryOrigin = origin;
+  if (requeryTimer) return;
+  requeryTimer = setTimeout(flushRequery, REQUERY_DEBOUNCE_MS);
+}
+
+function flushRequery(): void {
+  requeryTimer = undefined;
+  if (zoomInFlight.size > 0 && performance.now() - zoomSentAt < IN_FLIGHT_GIVE_UP_MS) {
+    zoomWanted = true; // resumed in onResponse
+    return;
+  }
+  zoomInFlight.clear();
+  const origin = requeryOrigin;
+  requeryOrigin = undefined;
+  const charts = linkedTimeCharts().filter((e) => e.viewId === activeView);
+  charts.sort((a, b) => (a.chart === origin ? 0 : 1) - (b.chart === origin ? 0 : 1)); // stable: page order after it
+  const ids = send(charts.flatMap(wantedOf));
+  for (const id of ids) zoomInFlight.add(id);
+  zoomSentAt = performance.now();
+}
+
+/** The view `id` came on screen: its charts that missed a zoom, a pan or a selection catch up. */
+function showView(id: string): void {
+  if (id === activeView) return;
+  activeView = id;
+  const stale = linkedTimeCharts().filter((e) => e.viewId === id && e.stale);
+  if (!stale.length) return;
+  const window = view.window ?? extent;
+  for (const e of stale) {
+    e.stale = false;
+    e.chart.select(view.cursor_s);
+    e.chart.setWindow(window[0], window[1]);
+  }
+  send(stale.flatMap(wantedOf));
+}
+
+function onResponseBatch(msg: SeriesResponseBatchMessage): void {
+  for (const r of msg.responses) onResponse(r);
 }
 
 function onResponse(msg: SeriesResponseMessage): void {
+  const tRecv = performance.now();
+  if (zoomInFlight.delete(msg.id) && zoomInFlight.size === 0 && (requeryOrigin !== undefined || zoomWanted)) {
+    zoomWanted = false;
+    requeryTimeCharts();
+  }
   const entry = pendingByRequest.get(msg.id);
   pendingByRequest.delete(msg.id);
+  const tSent = sentAt.get(msg.id) ?? tRecv;
+  sentAt.delete(msg.id);
   if (!entry || entry.kind === 'histogram') return;
   if (msg.error) log('warning', `series ${msg.key}: ${msg.error}`);
   const columns: Columns = {
@@ -479,6 +594,18 @@ function onResponse(msg: SeriesResponseMessage): void {
     if (msg.id !== entry.requestId) return; // a newer window was asked for
     entry.columns = columns;
     const points = entry.chart.setData(columns.x, columns.y, columns.lo, columns.hi);
+    const tDrawn = performance.now();
+    drawTotal_ms += tDrawn - tRecv;
+    if (msg.host_ms !== undefined) entry.section.dataset.lastEnvelopeMs = msg.host_ms.toFixed(2);
+    entry.section.dataset.lastTiming = JSON.stringify({
+      sinceUser_ms: userWindowAt >= 0 ? +(tSent - userWindowAt).toFixed(1) : undefined,
+      roundTrip_ms: +(tRecv - tSent).toFixed(1),
+      host_ms: msg.host_ms !== undefined ? +msg.host_ms.toFixed(2) : undefined,
+      draw_ms: +(tDrawn - tRecv).toFixed(1),
+      points,
+      bytes: msg.x.byteLength * (2 + (msg.lo ? 1 : 0) + (msg.hi ? 1 : 0) + (msg.line ? 1 : 0)),
+      pending: pendingByRequest.size,
+    });
     entry.section.dataset.points = String(points);
     entry.rendered = true;
   } else {
@@ -537,6 +664,8 @@ function maybeReportRendered(): void {
   if (firstRenderReported) return;
   if (!entries.every((e) => e.rendered)) return;
   firstRenderReported = true;
+  const now = performance.now();
+  document.body.dataset.renderTiming = JSON.stringify({ build_ms: +(builtAt - initAt).toFixed(1), toAllDrawn_ms: +(now - initAt).toFixed(1), draw_ms: +drawTotal_ms.toFixed(1), charts: entries.length });
   document.body.dataset.chartsRendered = String(entries.length);
 }
 
@@ -544,9 +673,14 @@ function maybeReportRendered(): void {
 // Cursor, selection, zoom and pan
 
 function onUserWindow(t0: number, t1: number, origin?: TimeChart): void {
+  userWindowAt = performance.now();
   view.window = [t0, t1];
   persist();
-  for (const e of entries) if (e.kind === 'time' && chartKindOf(e) === 'time' && e.chart !== origin) e.chart.setWindow(t0, t1);
+  for (const e of linkedTimeCharts()) {
+    if (e.chart === origin) continue;
+    if (e.viewId === activeView) e.chart.setWindow(t0, t1);
+    else e.stale = true; // no redraw of hidden canvases: caught up in showView
+  }
   requeryTimeCharts(origin);
 }
 
@@ -577,7 +711,11 @@ function applySelection(): void {
     const w = centreOn(current, extent, t);
     if (w !== current) onUserWindow(w[0], w[1]);
   }
-  for (const e of entries) if (e.kind === 'time') e.chart.select(t);
+  for (const e of entries) {
+    if (e.kind !== 'time') continue;
+    if (e.viewId === activeView || chartKindOf(e) !== 'time') e.chart.select(t);
+    else e.stale = true;
+  }
   for (const b of app.querySelectorAll<HTMLButtonElement>('[data-testid="worst-list"] button')) {
     const on = view.worstIndex !== undefined && b.dataset.index === String(view.worstIndex);
     if (on) {
@@ -597,6 +735,9 @@ function onMessage(msg: HostToWebviewMessage): void {
       break;
     case 'series/response':
       onResponse(msg);
+      break;
+    case 'series/responseBatch':
+      onResponseBatch(msg);
       break;
     case 'cursor/set':
       select(msg.t, msg.worstIndex);
@@ -642,6 +783,7 @@ function start(): void {
       if (w === lastWidth) return; // e.g. a scrollbar came or went: nothing to redraw
       lastWidth = w;
       for (const e of entries) e.chart.resize(w);
+      for (const e of linkedTimeCharts()) if (e.viewId !== activeView) e.stale = true;
       runsView.resize(w);
       requeryTimeCharts();
     }, 150);

@@ -23,6 +23,8 @@ import {
   type InitMessage,
   type ReadInfo,
   type RevealLineMessage,
+  type SeriesRequestMessage,
+  type SeriesResponseMessage,
   type ViewState,
 } from '../protocol';
 import { readConfiguration, type EditorConfiguration } from './configuration';
@@ -487,8 +489,13 @@ export class AnalysisPanel {
         else this.post({ type: 'status', state: 'loading', uri: this.uri.toString() });
         break;
       case 'series/request':
-        if (this.store) this.post(this.store.answer(msg));
+        if (this.store) this.post(this.timedAnswer(this.store, msg));
         break;
+      case 'series/requestBatch': {
+        const store = this.store;
+        if (store) this.post({ type: 'series/responseBatch', responses: msg.requests.map((r) => this.timedAnswer(store, r)) });
+        break;
+      }
       case 'reveal/line':
         void this.revealLine(msg);
         break;
@@ -539,6 +546,14 @@ export class AnalysisPanel {
       default:
         assertNever(msg);
     }
+  }
+
+  /** The store's answer to `request`, with the milliseconds it took (the editor bench reports them). */
+  private timedAnswer(store: SeriesStore, request: SeriesRequestMessage): SeriesResponseMessage {
+    const t0 = performance.now();
+    const answer = store.answer(request);
+    answer.host_ms = performance.now() - t0;
+    return answer;
   }
 
   /** Reveal a 1-based line of one of the run's files beside the panel, selected. */

@@ -71,14 +71,14 @@ export function armPointsWatch(section, timeout_ms) {
     };
     const timer = setTimeout(() => done({ ms: -1, points: section.getAttribute('data-points') }), timeout_ms);
     const obs = new MutationObserver(() => {
-      if (tKey >= 0) done({ ms: performance.now() - tKey, points: section.getAttribute('data-points'), envelopeMs: section.getAttribute('data-last-envelope-ms') });
+      if (tKey >= 0) done({ ms: performance.now() - tKey, points: section.getAttribute('data-points'), envelopeMs: section.getAttribute('data-last-envelope-ms'), timing: section.getAttribute('data-last-timing') });
     });
     obs.observe(section, { attributes: true, attributeFilter: ['data-points'] });
   });
   return true;
 }
 
-/** The result of the armed watch: `{ ms, points, envelopeMs }`, `ms` -1 on timeout. */
+/** The result of the armed watch: `{ ms, points, envelopeMs, timing }`, `ms` -1 on timeout. */
 export function readPointsWatch() {
   return window.__residuumWatch;
 }
