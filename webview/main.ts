@@ -49,12 +49,6 @@ import { resetAction, resetsSection } from './resets';
 import { button, divider, progressRing, registerUi, tabs, type Tabs } from './ui';
 import { panelApi } from './vscodeApi';
 
-/**
- * Delay before the charts on screen re-query their envelopes after a zoom or pan, milliseconds: 0 only gathers the
- * zooms of one task (the linked charts' own scale hooks). Bursts (a held key) are bounded by the in-flight gate
- * instead: one batch of requests at a time, the latest window asked for when its answer came.
- */
-const REQUERY_DEBOUNCE_MS = 0;
 /** After this long without an answer the in-flight gate opens anyway (a lost answer must not freeze zooming). */
 const IN_FLIGHT_GIVE_UP_MS = 1000;
 
@@ -111,7 +105,6 @@ let init: InitMessage | undefined;
 let entries: Entry[] = [];
 let nextRequestId = 1;
 const pendingByRequest = new Map<number, Entry>();
-let requeryTimer: ReturnType<typeof setTimeout> | undefined;
 let extent: [number, number] = [0, 1];
 /** The id of the view (tab) on screen: only its charts follow a zoom at once, the others when shown. */
 let activeView = 'overview';
@@ -121,6 +114,8 @@ let zoomSentAt = 0;
 let requeryOrigin: TimeChart | undefined;
 /** A zoom came while a batch was in flight: ask again when it is answered. */
 let zoomWanted = false;
+/** Zoom batches fully answered (a hook for the editor bench). */
+let zoomsAnswered = 0;
 let firstRenderReported = false;
 /** performance.now() of each request's post, and of the last user zoom/pan (for the timing hooks the bench reads). */
 const sentAt = new Map<number, number>();
@@ -128,6 +123,10 @@ let userWindowAt = -1;
 let initAt = -1;
 let builtAt = -1;
 let drawTotal_ms = 0;
+let hostTotal_ms = 0;
+let firstResponseAt = -1;
+let lastResponseAt = -1;
+let responses = 0;
 let currentTabs: Tabs | undefined;
 
 function log(level: 'info' | 'warning' | 'error', message: string): void {
@@ -220,6 +219,9 @@ function destroyCharts(): void {
 function render(message: InitMessage): void {
   initAt = performance.now();
   drawTotal_ms = 0;
+  hostTotal_ms = 0;
+  firstResponseAt = -1;
+  responses = 0;
   destroyCharts();
   init = message;
   uri = message.uri;
@@ -525,19 +527,18 @@ function linkedTimeCharts(): TimeEntry[] {
 }
 
 /**
- * Ask again for the envelopes of the time charts on screen (the one the user zoomed first), in one batch. The
- * charts on hidden views were marked stale by {@link onUserWindow} and are asked for when their view is shown.
- * While a batch is unanswered the next waits for it (then asks for the latest window), so a held key does not queue
- * dozens of answers.
+ * Ask again for the envelopes of the time charts on screen, at once: the one the user zoomed alone first (its answer
+ * is small and not queued behind the others), then the other linked charts of the view in one batch. The charts on
+ * hidden views were marked stale by {@link onUserWindow} and are asked for when their view is shown. While a zoom's
+ * requests are unanswered the next zoom waits for them (then asks for the latest window), so a held key does not
+ * queue dozens of answers.
  */
 function requeryTimeCharts(origin?: TimeChart): void {
   if (origin) requeryOrigin = origin;
-  if (requeryTimer) return;
-  requeryTimer = setTimeout(flushRequery, REQUERY_DEBOUNCE_MS);
+  flushRequery();
 }
 
 function flushRequery(): void {
-  requeryTimer = undefined;
   if (zoomInFlight.size > 0 && performance.now() - zoomSentAt < IN_FLIGHT_GIVE_UP_MS) {
     zoomWanted = true; // resumed in onResponse
     return;
@@ -546,9 +547,12 @@ function flushRequery(): void {
   const origin = requeryOrigin;
   requeryOrigin = undefined;
   const charts = linkedTimeCharts().filter((e) => e.viewId === activeView);
-  charts.sort((a, b) => (a.chart === origin ? 0 : 1) - (b.chart === origin ? 0 : 1)); // stable: page order after it
-  const ids = send(charts.flatMap(wantedOf));
-  for (const id of ids) zoomInFlight.add(id);
+  // The linked window (the other charts' own windows are set just after the requests leave, in onUserWindow).
+  const window = view.window ?? extent;
+  const wanted = (list: TimeEntry[]): Wanted[] => list.map((e) => ({ entry: e, key: e.info.key, window }));
+  const first = charts.filter((e) => e.chart === origin);
+  const rest = charts.filter((e) => e.chart !== origin);
+  for (const id of [...send(wanted(first)), ...send(wanted(rest))]) zoomInFlight.add(id);
   zoomSentAt = performance.now();
 }
 
@@ -572,14 +576,30 @@ function onResponseBatch(msg: SeriesResponseBatchMessage): void {
 }
 
 function onResponse(msg: SeriesResponseMessage): void {
-  const tRecv = performance.now();
-  if (zoomInFlight.delete(msg.id) && zoomInFlight.size === 0 && (requeryOrigin !== undefined || zoomWanted)) {
-    zoomWanted = false;
-    requeryTimeCharts();
+  const zoomAnswer = zoomInFlight.delete(msg.id);
+  drawResponse(msg);
+  if (zoomAnswer && zoomInFlight.size === 0) {
+    // Every chart on screen shows the zoom: the time since the user's zoom, for the editor bench.
+    document.body.dataset.lastZoomAllMs = (performance.now() - userWindowAt).toFixed(1);
+    document.body.dataset.zoomsAnswered = String(++zoomsAnswered);
+    if (zoomWanted || requeryOrigin !== undefined) {
+      zoomWanted = false;
+      requeryTimeCharts();
+    }
   }
+}
+
+function drawResponse(msg: SeriesResponseMessage): void {
+  const tRecv = performance.now();
   const entry = pendingByRequest.get(msg.id);
   pendingByRequest.delete(msg.id);
   const tSent = sentAt.get(msg.id) ?? tRecv;
+  if (!firstRenderReported) {
+    if (firstResponseAt < 0) firstResponseAt = tRecv;
+    lastResponseAt = tRecv;
+    responses++;
+    hostTotal_ms += msg.host_ms ?? 0;
+  }
   sentAt.delete(msg.id);
   if (!entry || entry.kind === 'histogram') return;
   if (msg.error) log('warning', `series ${msg.key}: ${msg.error}`);
@@ -665,7 +685,17 @@ function maybeReportRendered(): void {
   if (!entries.every((e) => e.rendered)) return;
   firstRenderReported = true;
   const now = performance.now();
-  document.body.dataset.renderTiming = JSON.stringify({ build_ms: +(builtAt - initAt).toFixed(1), toAllDrawn_ms: +(now - initAt).toFixed(1), draw_ms: +drawTotal_ms.toFixed(1), charts: entries.length });
+  const since = (t: number): number => +(t - initAt).toFixed(1);
+  document.body.dataset.renderTiming = JSON.stringify({
+    build_ms: since(builtAt),
+    firstAnswer_ms: since(firstResponseAt),
+    lastAnswer_ms: since(lastResponseAt),
+    toAllDrawn_ms: since(now),
+    host_ms: +hostTotal_ms.toFixed(1),
+    draw_ms: +drawTotal_ms.toFixed(1),
+    answers: responses,
+    charts: entries.length,
+  });
   document.body.dataset.chartsRendered = String(entries.length);
 }
 
@@ -675,13 +705,13 @@ function maybeReportRendered(): void {
 function onUserWindow(t0: number, t1: number, origin?: TimeChart): void {
   userWindowAt = performance.now();
   view.window = [t0, t1];
-  persist();
-  for (const e of linkedTimeCharts()) {
-    if (e.chart === origin) continue;
-    if (e.viewId === activeView) e.chart.setWindow(t0, t1);
-    else e.stale = true; // no redraw of hidden canvases: caught up in showView
-  }
+  const linked = linkedTimeCharts();
+  for (const e of linked) if (e.viewId !== activeView) e.stale = true; // no redraw of hidden canvases: see showView
+  // The requests first, then the redraws of the linked charts (their old points on the new scale) while the host
+  // forms the answers.
   requeryTimeCharts(origin);
+  persist();
+  for (const e of linked) if (e.chart !== origin && e.viewId === activeView) e.chart.setWindow(t0, t1);
 }
 
 function onChartKey(e: KeyboardEvent, chart: TimeChart, details: HTMLDetailsElement): void {

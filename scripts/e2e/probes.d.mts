@@ -23,3 +23,4 @@ export declare function pwnedFlag(): unknown;
 export declare function armPointsWatch(section: unknown, timeout_ms: number): boolean;
 /** The armed watch's result. */
 export declare function readPointsWatch(): Promise<{ ms: number; points: string | null; envelopeMs?: string | null; timing?: string | null }>;
+export declare function waitZoomAnswered(body: HTMLElement, args: [number, number]): Promise<number>;

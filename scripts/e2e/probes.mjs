@@ -82,3 +82,20 @@ export function armPointsWatch(section, timeout_ms) {
 export function readPointsWatch() {
   return window.__residuumWatch;
 }
+
+/**
+ * Waits until the panel's count of fully answered zooms (`body[data-zooms-answered]`) exceeds `args[0]`; returns
+ * `body[data-last-zoom-all-ms]` (user zoom until every chart on screen drew its answer), or -1 after `args[1]` ms.
+ */
+export function waitZoomAnswered(body, args) {
+  const [before, timeout_ms] = args;
+  return new Promise((resolve) => {
+    const t0 = performance.now();
+    const tick = () => {
+      if (Number(body.dataset.zoomsAnswered ?? 0) > before) resolve(Number(body.dataset.lastZoomAllMs));
+      else if (performance.now() - t0 > timeout_ms) resolve(-1);
+      else setTimeout(tick, 5);
+    };
+    tick();
+  });
+}
