@@ -308,6 +308,8 @@ export interface SeriesResponseMessage {
   error?: string;
   /** Milliseconds the host spent forming this answer (the envelope), for the editor bench's breakdown. */
   host_ms?: number;
+  /** Milliseconds from the host's post of the latest `init` to the start of this answer (the bench's breakdown). */
+  host_since_init_ms?: number;
 }
 
 /** The answers to one `series/requestBatch`, in its order (their column buffers are transferred together). */

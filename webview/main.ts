@@ -127,6 +127,8 @@ let hostTotal_ms = 0;
 let firstResponseAt = -1;
 let lastResponseAt = -1;
 let responses = 0;
+let firstHostSinceInit_ms = -1;
+let lastHostSinceInit_ms = -1;
 let currentTabs: Tabs | undefined;
 
 function log(level: 'info' | 'warning' | 'error', message: string): void {
@@ -595,7 +597,11 @@ function drawResponse(msg: SeriesResponseMessage): void {
   pendingByRequest.delete(msg.id);
   const tSent = sentAt.get(msg.id) ?? tRecv;
   if (!firstRenderReported) {
-    if (firstResponseAt < 0) firstResponseAt = tRecv;
+    if (firstResponseAt < 0) {
+      firstResponseAt = tRecv;
+      firstHostSinceInit_ms = msg.host_since_init_ms ?? -1;
+    }
+    lastHostSinceInit_ms = (msg.host_since_init_ms ?? -1) + (msg.host_ms ?? 0);
     lastResponseAt = tRecv;
     responses++;
     hostTotal_ms += msg.host_ms ?? 0;
@@ -692,6 +698,8 @@ function maybeReportRendered(): void {
     lastAnswer_ms: since(lastResponseAt),
     toAllDrawn_ms: since(now),
     host_ms: +hostTotal_ms.toFixed(1),
+    hostFirstStart_ms: +firstHostSinceInit_ms.toFixed(1),
+    hostLastEnd_ms: +lastHostSinceInit_ms.toFixed(1),
     draw_ms: +drawTotal_ms.toFixed(1),
     answers: responses,
     charts: entries.length,

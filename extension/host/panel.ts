@@ -71,6 +71,8 @@ export class AnalysisPanel {
   private result: AnalysisResult | undefined;
   private histograms: HistogramInfo[] = [];
   private revision = 0;
+  /** performance.now() when the latest `init` was posted (for the answers' timing fields). */
+  private initPostedAt = 0;
   private ready = false;
   private loading: AbortController | undefined;
   private reloadPending = false;
@@ -465,6 +467,7 @@ export class AnalysisPanel {
     };
     if (r.read) message.read = r.read;
     if (notice) message.notice = notice;
+    this.initPostedAt = performance.now();
     this.post(message);
     this.resendRuns();
   }
@@ -553,6 +556,7 @@ export class AnalysisPanel {
     const t0 = performance.now();
     const answer = store.answer(request);
     answer.host_ms = performance.now() - t0;
+    answer.host_since_init_ms = t0 - this.initPostedAt;
     return answer;
   }
 
