@@ -92,6 +92,8 @@ export interface SeriesRequestMessage {
   t1?: number;
   /** Width of the plot in CSS pixels: the number of buckets. */
   widthPx: number;
+  /** false: leave the source-line column out of the answer (it only serves the chart's table); absent: include it. */
+  line?: false;
 }
 
 /**
@@ -539,7 +541,9 @@ function parseSeriesRequest(value: Record<string, unknown>): SeriesRequestMessag
   if (!optFinite(t0) || !optFinite(t1)) return 'series/request: t0/t1 not finite';
   if (t0 !== undefined && t1 !== undefined && !(t0 <= t1)) return 'series/request: t0 > t1';
   if (!isIndex(widthPx, MAX_WIDTH_PX) || widthPx < 1) return 'series/request: widthPx out of range';
+  if (value.line !== undefined && value.line !== false) return 'series/request: line is not false';
   const out: SeriesRequestMessage = { type: 'series/request', id, key, widthPx };
+  if (value.line === false) out.line = false;
   if (t0 !== undefined) out.t0 = t0;
   if (t1 !== undefined) out.t1 = t1;
   return out;

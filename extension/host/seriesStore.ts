@@ -103,7 +103,7 @@ export class SeriesStore {
     };
     if (env.lo) response.lo = toArrayBuffer(env.lo);
     if (env.hi) response.hi = toArrayBuffer(env.hi);
-    if (env.line) response.line = toArrayBuffer(env.line);
+    if (env.line && request.line !== false) response.line = toArrayBuffer(env.line);
     return response;
   }
 }
