@@ -80,6 +80,11 @@ export interface ReadyMessage {
   type: 'ready';
   /** View state restored by the webview, if any. */
   view?: ViewState;
+  /**
+   * The pixel width a new chart asks its envelopes at: with it the host can send every series' first envelope right
+   * after `init` without being asked (see `InitMessage.envelopesFollow`).
+   */
+  widthPx?: number;
 }
 
 /** Ask for a min/max envelope of one series over a window, one bucket per pixel column. */
@@ -291,6 +296,11 @@ export interface InitMessage {
   notice?: string;
   /** How the log was read for this revision. */
   read?: ReadInfo;
+  /**
+   * True: the host posts the first envelope of every series (the whole series, at the `widthPx` of `ready`) right
+   * after this message, as `series/responseBatch`es whose answers carry `id` 0, so the webview asks for none of them.
+   */
+  envelopesFollow?: boolean;
 }
 
 /** The envelope answering one `series/request` (columns as float64 ArrayBuffers of equal length). */
@@ -559,7 +569,12 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
   switch (type) {
     case 'ready': {
       const view = value.view === undefined ? undefined : parseViewState(value.view);
-      return view ? { type, view } : { type };
+      const out: ReadyMessage = view ? { type, view } : { type };
+      if (value.widthPx !== undefined) {
+        if (!isIndex(value.widthPx, MAX_WIDTH_PX) || value.widthPx < 1) return 'ready: widthPx out of range';
+        out.widthPx = value.widthPx;
+      }
+      return out;
     }
     case 'series/request':
       return parseSeriesRequest(value);

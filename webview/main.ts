@@ -16,6 +16,7 @@ import {
   type HistogramInfo,
   type HostToWebviewMessage,
   type InitMessage,
+  type ReadyMessage,
   type SeriesInfo,
   type SeriesRequestMessage,
   type SeriesResponseBatchMessage,
@@ -105,6 +106,8 @@ let init: InitMessage | undefined;
 let entries: Entry[] = [];
 let nextRequestId = 1;
 const pendingByRequest = new Map<number, Entry>();
+/** The chart of each series key, for the envelopes the host sends after `init` unasked (`id` 0). */
+const entryByKey = new Map<string, TimeEntry | XyEntry>();
 let extent: [number, number] = [0, 1];
 /** The id of the view (tab) on screen: only its charts follow a zoom at once, the others when shown. */
 let activeView = 'overview';
@@ -155,6 +158,18 @@ function toFloat64(b: ArrayBuffer | ArrayBufferView | undefined): Float64Array |
   return new Float64Array(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength));
 }
 
+/** `ready`, with the restored view state if any and the pixel width new charts ask their envelopes at. */
+function readyMessage(): ReadyMessage {
+  const msg: ReadyMessage = { type: 'ready', widthPx: newChartWidthPx() };
+  if (view.view || view.window || view.cursor_s !== undefined) msg.view = view;
+  return msg;
+}
+
+/** The envelope width of a chart not drawn yet (TimeChart.plotWidthPx before its plot exists). */
+function newChartWidthPx(): number {
+  return Math.min(16384, Math.max(1, Math.round(chartWidth() - 70)));
+}
+
 function chartWidth(): number {
   return Math.max(280, Math.floor((app.clientWidth || document.body.clientWidth || 800) - 40));
 }
@@ -173,7 +188,7 @@ function showStatus(msg: StatusMessage): void {
     app.replaceChildren(
       el('h1', {}, 'The log could not be analysed'),
       el('p', { class: 'error', role: 'alert' }, msg.message ?? 'Unknown error.'),
-      button('Try again', () => panelApi.post({ type: 'ready', view }), 'primary'),
+      button('Try again', () => panelApi.post(readyMessage()), 'primary'),
     );
     return;
   }
@@ -212,6 +227,7 @@ function markRevision(message: InitMessage): void {
 function destroyCharts(): void {
   for (const e of entries) e.chart.destroy();
   entries = [];
+  entryByKey.clear();
   pendingByRequest.clear();
   zoomInFlight.clear();
   zoomWanted = false;
@@ -257,11 +273,18 @@ function render(message: InitMessage): void {
   currentTabs = t;
 
   const width = chartWidth();
-  for (const g of groups) {
+  // The view on screen is built first, and each view's envelopes are asked for as soon as its charts exist: the host
+  // forms the answers while the other views are built.
+  const buildOrder = [...groups].sort((a, b) => (a.id === active ? 0 : 1) - (b.id === active ? 0 : 1));
+  for (const g of buildOrder) {
     const host = t.views.get(g.id);
     if (!host) continue;
     if (g.id === 'overview') buildOverview(host, message);
-    else if (g.id !== 'compare' && g.id !== 'montecarlo') buildGroup(host, g.id, g.series, message, width);
+    else if (g.id !== 'compare' && g.id !== 'montecarlo') {
+      buildGroup(host, g.id, g.series, message, width);
+      if (!message.envelopesFollow) requestView(g.id);
+      else if (view.window) send(linkedTimeCharts().filter((e) => e.viewId === g.id).flatMap(wantedOf)); // zoomed: not what the host sends
+    }
   }
   const compareHost = t.views.get('compare');
   const monteCarloHost = t.views.get('montecarlo');
@@ -286,7 +309,6 @@ function render(message: InitMessage): void {
   markRevision(message);
   persist();
   builtAt = performance.now();
-  requestAll();
   applySelection();
   maybeReportRendered();
 }
@@ -437,6 +459,7 @@ function addTimeChart(host: HTMLElement, viewId: string, info: SeriesInfo, kind:
   if (kind === 'time' && view.window) chart.setWindow(view.window[0], view.window[1]);
   const entry: TimeEntry = { kind: 'time', viewId, stale: false, info, section, chart, tableHost, requestId: 0, rendered: false };
   entries.push(entry);
+  entryByKey.set(info.key, entry);
   details.addEventListener('toggle', () => {
     if (!details.open) return;
     fillTable(entry);
@@ -450,8 +473,10 @@ function addXyChart(host: HTMLElement, viewId: string, infos: SeriesInfo[], labe
   const { section, plot, tableHost, details } = chartSection(infos[0].key, label, infos[0].unit || 'm');
   section.dataset.layers = infos.map((i) => i.key).join(' ');
   host.append(section);
-  const entry: XyEntry = { kind: 'xy', viewId, infos, section, chart: new XyChart(plot, infos[0].unit || 'm', width, () => theme), tableHost, requestIds: new Map(), columns: new Map(), rendered: false };
+  // Request id 0 per layer: the envelopes the host sends after `init` unasked are this chart's until it asks itself.
+  const entry: XyEntry = { kind: 'xy', viewId, infos, section, chart: new XyChart(plot, infos[0].unit || 'm', width, () => theme), tableHost, requestIds: new Map(infos.map((i) => [i.key, 0])), columns: new Map(), rendered: false };
   entries.push(entry);
+  for (const i of infos) if (!entryByKey.has(i.key)) entryByKey.set(i.key, entry);
   details.addEventListener('toggle', () => details.open && fillTable(entry));
 }
 
@@ -518,20 +543,12 @@ function wantedOf(e: TimeEntry | XyEntry): Wanted[] {
 }
 
 /**
- * Every chart's first envelope: the view on screen first (one batch), then each other view (one batch each). The
- * host answers in order, so the charts the user sees are not queued behind the hidden ones; those are drawn as
- * their answers come, one view per message, so the page can paint between them.
+ * The first envelopes of view `id`'s charts, in one batch. Called as each view is built, the view on screen first:
+ * the host answers in order, so the charts the user sees are not queued behind the hidden ones, and those are drawn
+ * as their answers come, one view per message, so the page can paint between them.
  */
-function requestAll(): void {
-  const byView = new Map<string, Wanted[]>();
-  for (const e of entries) {
-    if (e.kind === 'histogram') continue;
-    const list = byView.get(e.viewId) ?? [];
-    list.push(...wantedOf(e));
-    byView.set(e.viewId, list);
-  }
-  send(byView.get(activeView) ?? []);
-  for (const [id, list] of byView) if (id !== activeView) send(list);
+function requestView(id: string): void {
+  send(entries.filter((e): e is TimeEntry | XyEntry => e.viewId === id && e.kind !== 'histogram').flatMap(wantedOf));
 }
 
 function chartKindOf(e: TimeEntry): 'time' | 'loglog' | 'plain' {
@@ -608,7 +625,8 @@ function onResponse(msg: SeriesResponseMessage): void {
 
 function drawResponse(msg: SeriesResponseMessage): void {
   const tRecv = performance.now();
-  const entry = pendingByRequest.get(msg.id);
+  // id 0: an envelope the host sent after `init` unasked; it is drawn only if the chart has not asked since.
+  const entry = msg.id === 0 ? entryByKey.get(msg.key) : pendingByRequest.get(msg.id);
   pendingByRequest.delete(msg.id);
   const tSent = sentAt.get(msg.id) ?? tRecv;
   if (!firstRenderReported) {
@@ -847,7 +865,7 @@ function start(): void {
     runsView.redraw();
   }).observe(document.body, { attributes: true, attributeFilter: ['class'] });
   window.addEventListener('error', (e) => log('error', `${e.message} (${e.filename}:${e.lineno})`));
-  panelApi.post(view.view || view.window || view.cursor_s !== undefined ? { type: 'ready', view } : { type: 'ready' });
+  panelApi.post(readyMessage());
 }
 
 start();

@@ -42,6 +42,9 @@ import { SeriesStore } from './seriesStore';
 /** The panel's webview type (also the serializer's). */
 export const PANEL_VIEW_TYPE = 'residuum.analysis';
 
+/** Series per `series/responseBatch` when the first envelopes are pushed after `init`. */
+const PUSH_BATCH = 6;
+
 /** Debounce of file-change events before a re-read, milliseconds. */
 const RELOAD_DEBOUNCE_MS = 250;
 
@@ -73,6 +76,8 @@ export class AnalysisPanel {
   private revision = 0;
   /** performance.now() when the latest `init` was posted (for the answers' timing fields). */
   private initPostedAt = 0;
+  /** The chart width the webview said in its latest `ready` (envelopes are pushed after `init` at this width). */
+  private readyWidthPx: number | undefined;
   private ready = false;
   private loading: AbortController | undefined;
   private reloadPending = false;
@@ -467,8 +472,13 @@ export class AnalysisPanel {
     };
     if (r.read) message.read = r.read;
     if (notice) message.notice = notice;
+    // Without a zoomed window every chart starts with its whole series: the host sends those envelopes right after
+    // `init` instead of waiting for the webview to build its views and ask (one round trip less, and the answers are
+    // formed while the webview builds). A zoomed window is the webview's to ask for.
+    const pushWidth = this.view.window === undefined ? this.readyWidthPx : undefined;
+    if (pushWidth !== undefined) message.envelopesFollow = true;
     this.initPostedAt = performance.now();
-    this.post(message);
+    if (this.post(message) && pushWidth !== undefined) this.pushEnvelopes(this.store, this.revision, pushWidth);
     this.resendRuns();
   }
 
@@ -486,6 +496,7 @@ export class AnalysisPanel {
     switch (msg.type) {
       case 'ready':
         this.ready = true;
+        this.readyWidthPx = msg.widthPx;
         if (msg.view) this.view = { ...this.view, ...msg.view };
         if (this.result) this.sendInit(undefined);
         else if (this.error !== undefined && !this.loading) void this.load('open');
@@ -549,6 +560,27 @@ export class AnalysisPanel {
       default:
         assertNever(msg);
     }
+  }
+
+  /**
+   * The first envelope of every series of `store` (the whole series at `widthPx`), posted as `series/responseBatch`es
+   * with `id` 0 of about {@link PUSH_BATCH} series each, the series of the view on screen first; one batch per turn
+   * of the event loop, so each leaves while the next is formed and the host stays responsive. Stops when the panel
+   * closed or a newer revision was sent.
+   */
+  private pushEnvelopes(store: SeriesStore, revision: number, widthPx: number): void {
+    const infos = store.infos();
+    const shown = this.view.view;
+    const order = [...infos.filter((i) => i.group === shown), ...infos.filter((i) => i.group !== shown)];
+    let next = 0;
+    const step = (): void => {
+      if (this.disposed || this.revision !== revision || this.store !== store || next >= order.length) return;
+      const chunk = order.slice(next, next + PUSH_BATCH);
+      next += chunk.length;
+      this.post({ type: 'series/responseBatch', responses: chunk.map((i) => this.timedAnswer(store, { type: 'series/request', id: 0, key: i.key, widthPx, line: i.xy ? undefined : false })) });
+      setImmediate(step);
+    };
+    step();
   }
 
   /** The store's answer to `request`, with the milliseconds it took (the editor bench reports them). */

@@ -6,6 +6,7 @@ import { parseHostMessage, parsePersistedState, parseViewState, parseWebviewMess
 describe('parseWebviewMessage', () => {
   it('accepts well-formed messages and copies only known fields', () => {
     expect(parseWebviewMessage({ type: 'ready' })).toEqual({ type: 'ready' });
+    expect(parseWebviewMessage({ type: 'ready', widthPx: 1310, view: { view: 'bias' } })).toEqual({ type: 'ready', widthPx: 1310, view: { view: 'bias' } });
     expect(parseWebviewMessage({ type: 'series/request', id: 3, key: 'nis/tdoa', t0: 1, t1: 2, widthPx: 800, extra: 'x' })).toEqual({
       type: 'series/request', id: 3, key: 'nis/tdoa', t0: 1, t1: 2, widthPx: 800,
     });
@@ -46,6 +47,9 @@ describe('parseWebviewMessage', () => {
       { type: 'series/request', id: 1, key: 'k', widthPx: 10, t0: NaN },
       { type: 'series/request', id: 1, key: 'k', widthPx: 10, line: true },
       { type: 'series/requestBatch', requests: [] },
+      { type: 'ready', widthPx: 0 },
+      { type: 'ready', widthPx: 12.5 },
+      { type: 'ready', widthPx: '800' },
       { type: 'series/requestBatch', requests: 'x' },
       { type: 'series/requestBatch', requests: [{ type: 'series/request', id: 1, key: 'k', widthPx: 10 }, { type: 'series/request', id: 2, key: 'k', widthPx: 0 }] },
       { type: 'series/requestBatch', requests: [{ type: 'reveal/line', line: 3 }] },
