@@ -7,7 +7,14 @@
  * DOM hooks kept for the e2e tests: `<main id="app" data-state="loading|ready|error">`; each chart is
  * `<section class="chart" data-series="KEY" data-points="N">`; `<ol data-testid="worst-list">` of
  * `<button data-line data-t>`; `data-testid="findings-list"`; `data-testid="overview"`;
- * `document.body.dataset.chartsRendered` once every chart got its first data.
+ * `document.body.dataset.chartsRendered` once every chart (on every view) got its first data. Timing hooks for the
+ * editor bench: `body[data-render-timing]`, each time chart's `data-last-timing` and `data-last-envelope-ms`,
+ * `body[data-zooms-answered]` and `body[data-last-zoom-all-ms]` (docs/editor.md).
+ *
+ * Envelopes: without a zoomed window the host sends every series' first envelope right after `init` (answers with
+ * id 0); otherwise each view asks as it is built, the view on screen first. A zoom asks again only for the charts of
+ * the view on screen (the zoomed one first and alone); charts on hidden views are marked stale and catch up when
+ * their view is shown.
  */
 import { exportButtons } from './export';
 import type { Finding } from '../extension/core/report';
