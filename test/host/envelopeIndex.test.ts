@@ -20,7 +20,7 @@ function plain(e: Envelope): Record<string, unknown> {
 }
 
 /** A random series: ascending x with repeated times, NaN gaps (single and long runs), ties, rare spikes. */
-function randomSeries(seed: number, n: number, band: boolean): EnvelopeSource {
+function randomSeries(seed: number, n: number, band: boolean, levels = 0): EnvelopeSource {
   const rnd = mulberry32(seed);
   const x = new Float64Array(n);
   const y = new Float64Array(n);
@@ -33,7 +33,8 @@ function randomSeries(seed: number, n: number, band: boolean): EnvelopeSource {
     if (rnd() > 0.1) t += rnd() * 0.01; // about one in ten epochs repeats the previous time
     x[i] = t;
     if (gap === 0 && rnd() < 0.001) gap = Math.floor(rnd() * 500);
-    const value = rnd() < 0.3 ? Math.round(rnd() * 4) : (rnd() - 0.5) * (rnd() < 0.001 ? 1000 : 1); // many ties
+    // levels > 0: only that many distinct values, so both the smallest and the largest tie across blocks
+    const value = levels > 0 ? Math.floor(rnd() * levels) : rnd() < 0.3 ? Math.round(rnd() * 4) : (rnd() - 0.5) * (rnd() < 0.001 ? 1000 : 1);
     y[i] = gap > 0 || rnd() < 0.01 ? NaN : value;
     if (gap > 0) gap--;
     lo[i] = rnd() < 0.02 ? NaN : -1 - rnd();
@@ -45,8 +46,8 @@ function randomSeries(seed: number, n: number, band: boolean): EnvelopeSource {
 
 describe('envelope from the min/max pyramid', () => {
   it('gives the same points as the plain scan over random windows and widths', () => {
-    for (const [seed, n, band] of [[1, 50_000, true], [2, 20_011, false], [3, 4_097, true], [4, 300, true]] as const) {
-      const s = randomSeries(seed, n, band);
+    for (const [seed, n, band, levels] of [[1, 50_000, true, 0], [2, 20_011, false, 0], [3, 4_097, true, 0], [4, 300, true, 0], [5, 30_000, true, 3], [6, 9_999, false, 2]] as const) {
+      const s = randomSeries(seed, n, band, levels);
       const index = buildEnvelopeIndex(s);
       const rnd = mulberry32(seed + 100);
       const xMax = s.x[n - 1];
