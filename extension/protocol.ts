@@ -80,6 +80,11 @@ export interface ReadyMessage {
   type: 'ready';
   /** View state restored by the webview, if any. */
   view?: ViewState;
+  /**
+   * The pixel width a new chart asks its envelopes at: with it the host can send every series' first envelope right
+   * after `init` without being asked (see `InitMessage.envelopesFollow`).
+   */
+  widthPx?: number;
 }
 
 /** Ask for a min/max envelope of one series over a window, one bucket per pixel column. */
@@ -92,6 +97,17 @@ export interface SeriesRequestMessage {
   t1?: number;
   /** Width of the plot in CSS pixels: the number of buckets. */
   widthPx: number;
+  /** false: leave the source-line column out of the answer (it only serves the chart's table); absent: include it. */
+  line?: false;
+}
+
+/**
+ * Several `series/request`s in one message (the charts of one view after a linked zoom, or on first draw), answered
+ * by one `series/responseBatch` holding the answers in the same order.
+ */
+export interface SeriesRequestBatchMessage {
+  type: 'series/requestBatch';
+  requests: SeriesRequestMessage[];
 }
 
 /** Reveal a line of one of the run's files in a text editor beside the panel, selected. */
@@ -233,6 +249,7 @@ export type WebviewToHostMessage =
   | MonteCarloPickMessage
   | ReadyMessage
   | SeriesRequestMessage
+  | SeriesRequestBatchMessage
   | RevealLineMessage
   | CursorDidChangeMessage
   | LogWriteMessage
@@ -279,6 +296,11 @@ export interface InitMessage {
   notice?: string;
   /** How the log was read for this revision. */
   read?: ReadInfo;
+  /**
+   * True: the host posts the first envelope of every series (the whole series, at the `widthPx` of `ready`) right
+   * after this message, as `series/responseBatch`es whose answers carry `id` 0, so the webview asks for none of them.
+   */
+  envelopesFollow?: boolean;
 }
 
 /** The envelope answering one `series/request` (columns as float64 ArrayBuffers of equal length). */
@@ -296,6 +318,16 @@ export interface SeriesResponseMessage {
   inWindow: number;
   /** Why no data came back (unknown key ...). */
   error?: string;
+  /** Milliseconds the host spent forming this answer (the envelope), for the editor bench's breakdown. */
+  host_ms?: number;
+  /** Milliseconds from the host's post of the latest `init` to the start of this answer (the bench's breakdown). */
+  host_since_init_ms?: number;
+}
+
+/** The answers to one `series/requestBatch`, in its order (their column buffers are transferred together). */
+export interface SeriesResponseBatchMessage {
+  type: 'series/responseBatch';
+  responses: SeriesResponseMessage[];
 }
 
 /** Move the linked cursor (from the next/previous worst epoch commands). */
@@ -412,6 +444,7 @@ export interface MonteCarloUpdateMessage {
 export type HostToWebviewMessage =
   | InitMessage
   | SeriesResponseMessage
+  | SeriesResponseBatchMessage
   | CursorSetMessage
   | StatusMessage
   | NotesUpdateMessage
@@ -475,6 +508,10 @@ function optIndex(value: unknown): value is number | undefined {
   return value === undefined || isIndex(value);
 }
 
+function isSeriesResponse(value: Record<string, unknown>): boolean {
+  return isIndex(value.id) && typeof value.key === 'string' && isBufferLike(value.x) && isBufferLike(value.y);
+}
+
 /** Most runs a comparison holds. */
 const MAX_RUNS = 64;
 
@@ -504,6 +541,24 @@ export function parsePersistedState(value: unknown): PersistedState | undefined 
   return { uri: value.uri, view: parseViewState(value.view) ?? {} };
 }
 
+/** Most requests one `series/requestBatch` may carry. */
+const MAX_BATCH = 512;
+
+function parseSeriesRequest(value: Record<string, unknown>): SeriesRequestMessage | string {
+  const { id, key, t0, t1, widthPx } = value;
+  if (!isIndex(id)) return 'series/request: id is not a non-negative integer';
+  if (typeof key !== 'string' || key.length === 0 || key.length > 512) return 'series/request: key is not a string';
+  if (!optFinite(t0) || !optFinite(t1)) return 'series/request: t0/t1 not finite';
+  if (t0 !== undefined && t1 !== undefined && !(t0 <= t1)) return 'series/request: t0 > t1';
+  if (!isIndex(widthPx, MAX_WIDTH_PX) || widthPx < 1) return 'series/request: widthPx out of range';
+  if (value.line !== undefined && value.line !== false) return 'series/request: line is not false';
+  const out: SeriesRequestMessage = { type: 'series/request', id, key, widthPx };
+  if (value.line === false) out.line = false;
+  if (t0 !== undefined) out.t0 = t0;
+  if (t1 !== undefined) out.t1 = t1;
+  return out;
+}
+
 /**
  * Check a message from the webview field by field. Returns the typed message (a clean copy holding only known
  * fields), or a reason string when it is unknown or malformed (the caller logs it and ignores the message).
@@ -514,19 +569,25 @@ export function parseWebviewMessage(value: unknown): WebviewToHostMessage | stri
   switch (type) {
     case 'ready': {
       const view = value.view === undefined ? undefined : parseViewState(value.view);
-      return view ? { type, view } : { type };
-    }
-    case 'series/request': {
-      const { id, key, t0, t1, widthPx } = value;
-      if (!isIndex(id)) return 'series/request: id is not a non-negative integer';
-      if (typeof key !== 'string' || key.length === 0 || key.length > 512) return 'series/request: key is not a string';
-      if (!optFinite(t0) || !optFinite(t1)) return 'series/request: t0/t1 not finite';
-      if (t0 !== undefined && t1 !== undefined && !(t0 <= t1)) return 'series/request: t0 > t1';
-      if (!isIndex(widthPx, MAX_WIDTH_PX) || widthPx < 1) return 'series/request: widthPx out of range';
-      const out: SeriesRequestMessage = { type, id, key, widthPx };
-      if (t0 !== undefined) out.t0 = t0;
-      if (t1 !== undefined) out.t1 = t1;
+      const out: ReadyMessage = view ? { type, view } : { type };
+      if (value.widthPx !== undefined) {
+        if (!isIndex(value.widthPx, MAX_WIDTH_PX) || value.widthPx < 1) return 'ready: widthPx out of range';
+        out.widthPx = value.widthPx;
+      }
       return out;
+    }
+    case 'series/request':
+      return parseSeriesRequest(value);
+    case 'series/requestBatch': {
+      const { requests } = value;
+      if (!Array.isArray(requests) || requests.length === 0 || requests.length > MAX_BATCH) return `series/requestBatch: requests is not an array of 1..${MAX_BATCH}`;
+      const out: SeriesRequestMessage[] = [];
+      for (const r of requests) {
+        const parsed = isRecord(r) && r.type === 'series/request' ? parseSeriesRequest(r) : 'not a series/request';
+        if (typeof parsed === 'string') return `series/requestBatch: request ${out.length}: ${parsed}`;
+        out.push(parsed);
+      }
+      return { type: 'series/requestBatch', requests: out };
     }
     case 'reveal/line': {
       const { line, file, t, worstIndex } = value;
@@ -628,8 +689,10 @@ export function parseHostMessage(value: unknown): HostToWebviewMessage | undefin
         ? (value as unknown as InitMessage)
         : undefined;
     case 'series/response':
-      return isIndex(value.id) && typeof value.key === 'string' && isBufferLike(value.x) && isBufferLike(value.y)
-        ? (value as unknown as SeriesResponseMessage)
+      return isSeriesResponse(value) ? (value as unknown as SeriesResponseMessage) : undefined;
+    case 'series/responseBatch':
+      return Array.isArray(value.responses) && value.responses.every((r) => isRecord(r) && r.type === 'series/response' && isSeriesResponse(r))
+        ? (value as unknown as SeriesResponseBatchMessage)
         : undefined;
     case 'cursor/set':
       return isFiniteNumber(value.t) ? (value as unknown as CursorSetMessage) : undefined;

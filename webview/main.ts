@@ -7,7 +7,14 @@
  * DOM hooks kept for the e2e tests: `<main id="app" data-state="loading|ready|error">`; each chart is
  * `<section class="chart" data-series="KEY" data-points="N">`; `<ol data-testid="worst-list">` of
  * `<button data-line data-t>`; `data-testid="findings-list"`; `data-testid="overview"`;
- * `document.body.dataset.chartsRendered` once every chart got its first data.
+ * `document.body.dataset.chartsRendered` once every chart (on every view) got its first data. Timing hooks for the
+ * editor bench: `body[data-render-timing]`, each time chart's `data-last-timing` and `data-last-envelope-ms`,
+ * `body[data-zooms-answered]` and `body[data-last-zoom-all-ms]` (docs/editor.md).
+ *
+ * Envelopes: without a zoomed window the host sends every series' first envelope right after `init` (answers with
+ * id 0); otherwise each view asks as it is built, the view on screen first. A zoom asks again only for the charts of
+ * the view on screen (the zoomed one first and alone); charts on hidden views are marked stale and catch up when
+ * their view is shown.
  */
 import { exportButtons } from './export';
 import type { Finding } from '../extension/core/report';
@@ -16,7 +23,10 @@ import {
   type HistogramInfo,
   type HostToWebviewMessage,
   type InitMessage,
+  type ReadyMessage,
   type SeriesInfo,
+  type SeriesRequestMessage,
+  type SeriesResponseBatchMessage,
   type SeriesResponseMessage,
   type StatusMessage,
   type ViewState,
@@ -47,11 +57,15 @@ import { resetAction, resetsSection } from './resets';
 import { button, divider, progressRing, registerUi, tabs, type Tabs } from './ui';
 import { panelApi } from './vscodeApi';
 
-/** Delay before linked charts re-query their envelopes after a zoom or pan, milliseconds. */
-const REQUERY_DEBOUNCE_MS = 60;
+/** After this long without an answer the in-flight gate opens anyway (a lost answer must not freeze zooming). */
+const IN_FLIGHT_GIVE_UP_MS = 1000;
 
 interface TimeEntry {
   kind: 'time';
+  /** The view (tab) the chart is on. */
+  viewId: string;
+  /** The window or selection changed while the chart's view was hidden: redraw and re-query when shown. */
+  stale: boolean;
   info: SeriesInfo;
   section: HTMLElement;
   chart: TimeChart;
@@ -63,6 +77,7 @@ interface TimeEntry {
 
 interface XyEntry {
   kind: 'xy';
+  viewId: string;
   infos: SeriesInfo[];
   section: HTMLElement;
   chart: XyChart;
@@ -74,6 +89,7 @@ interface XyEntry {
 
 interface HistogramEntry {
   kind: 'histogram';
+  viewId: string;
   section: HTMLElement;
   chart: HistogramChart;
   rendered: boolean;
@@ -97,9 +113,36 @@ let init: InitMessage | undefined;
 let entries: Entry[] = [];
 let nextRequestId = 1;
 const pendingByRequest = new Map<number, Entry>();
-let requeryTimer: ReturnType<typeof setTimeout> | undefined;
+/** The chart of each series key, for the envelopes the host sends after `init` unasked (`id` 0). */
+const entryByKey = new Map<string, TimeEntry | XyEntry>();
 let extent: [number, number] = [0, 1];
+/** The id of the view (tab) on screen: only its charts follow a zoom at once, the others when shown. */
+let activeView = 'overview';
+/** Ids of the zoom requests not answered yet, and when they were sent (the in-flight gate). */
+const zoomInFlight = new Set<number>();
+let zoomSentAt = 0;
+let requeryOrigin: TimeChart | undefined;
+/** A zoom came while a batch was in flight: ask again when it is answered. */
+let zoomWanted = false;
+/** Zoom batches fully answered (a hook for the editor bench). */
+let zoomsAnswered = 0;
 let firstRenderReported = false;
+/** performance.now() of each request's post, and of the last user zoom/pan (for the timing hooks the bench reads). */
+const sentAt = new Map<number, number>();
+let userWindowAt = -1;
+let initAt = -1;
+let builtAt = -1;
+let readyAt = -1;
+let firstDrawnAt = -1;
+/** Milliseconds of long tasks (over 50 ms) on this page since the latest init, where the browser reports them. */
+let longTasks_ms = 0;
+let drawTotal_ms = 0;
+let hostTotal_ms = 0;
+let firstResponseAt = -1;
+let lastResponseAt = -1;
+let responses = 0;
+let firstHostSinceInit_ms = -1;
+let lastHostSinceInit_ms = -1;
 let currentTabs: Tabs | undefined;
 
 function log(level: 'info' | 'warning' | 'error', message: string): void {
@@ -126,6 +169,18 @@ function toFloat64(b: ArrayBuffer | ArrayBufferView | undefined): Float64Array |
   return new Float64Array(b.buffer.slice(b.byteOffset, b.byteOffset + b.byteLength));
 }
 
+/** `ready`, with the restored view state if any and the pixel width new charts ask their envelopes at. */
+function readyMessage(): ReadyMessage {
+  const msg: ReadyMessage = { type: 'ready', widthPx: newChartWidthPx() };
+  if (view.view || view.window || view.cursor_s !== undefined) msg.view = view;
+  return msg;
+}
+
+/** The envelope width of a chart not drawn yet (TimeChart.plotWidthPx before its plot exists). */
+function newChartWidthPx(): number {
+  return Math.min(16384, Math.max(1, Math.round(chartWidth() - 70)));
+}
+
 function chartWidth(): number {
   return Math.max(280, Math.floor((app.clientWidth || document.body.clientWidth || 800) - 40));
 }
@@ -144,7 +199,7 @@ function showStatus(msg: StatusMessage): void {
     app.replaceChildren(
       el('h1', {}, 'The log could not be analysed'),
       el('p', { class: 'error', role: 'alert' }, msg.message ?? 'Unknown error.'),
-      button('Try again', () => panelApi.post({ type: 'ready', view }), 'primary'),
+      button('Try again', () => panelApi.post(readyMessage()), 'primary'),
     );
     return;
   }
@@ -183,10 +238,21 @@ function markRevision(message: InitMessage): void {
 function destroyCharts(): void {
   for (const e of entries) e.chart.destroy();
   entries = [];
+  entryByKey.clear();
   pendingByRequest.clear();
+  zoomInFlight.clear();
+  zoomWanted = false;
+  requeryOrigin = undefined;
 }
 
 function render(message: InitMessage): void {
+  initAt = performance.now();
+  firstDrawnAt = -1;
+  longTasks_ms = 0;
+  drawTotal_ms = 0;
+  hostTotal_ms = 0;
+  firstResponseAt = -1;
+  responses = 0;
   destroyCharts();
   init = message;
   uri = message.uri;
@@ -209,8 +275,10 @@ function render(message: InitMessage): void {
     (id) => {
       view.view = id;
       persist();
+      showView(id);
     },
   );
+  activeView = active;
   const header = el('header', {}, el('h1', {}, message.logName), el('p', { class: 'reloading', role: 'status' }));
   header.append(exportButtons((format) => panelApi.post({ type: 'report/export', format })));
   if (message.notice) header.append(el('p', { class: 'notice', role: 'status' }, message.notice));
@@ -218,11 +286,18 @@ function render(message: InitMessage): void {
   currentTabs = t;
 
   const width = chartWidth();
-  for (const g of groups) {
+  // The view on screen is built first, and each view's envelopes are asked for as soon as its charts exist: the host
+  // forms the answers while the other views are built.
+  const buildOrder = [...groups].sort((a, b) => (a.id === active ? 0 : 1) - (b.id === active ? 0 : 1));
+  for (const g of buildOrder) {
     const host = t.views.get(g.id);
     if (!host) continue;
     if (g.id === 'overview') buildOverview(host, message);
-    else if (g.id !== 'compare' && g.id !== 'montecarlo') buildGroup(host, g.id, g.series, message, width);
+    else if (g.id !== 'compare' && g.id !== 'montecarlo') {
+      buildGroup(host, g.id, g.series, message, width);
+      if (!message.envelopesFollow) requestView(g.id);
+      else if (view.window) send(linkedTimeCharts().filter((e) => e.viewId === g.id).flatMap(wantedOf)); // zoomed: not what the host sends
+    }
   }
   const compareHost = t.views.get('compare');
   const monteCarloHost = t.views.get('montecarlo');
@@ -235,6 +310,7 @@ function render(message: InitMessage): void {
           view.view = id;
           persist();
           currentTabs?.select(id);
+          showView(id);
         },
       },
       compareHost,
@@ -242,10 +318,11 @@ function render(message: InitMessage): void {
     );
   }
   app.dataset.state = 'ready';
+  readyAt = performance.now();
   app.setAttribute('aria-busy', 'false');
   markRevision(message);
   persist();
-  requestAll();
+  builtAt = performance.now();
   applySelection();
   maybeReportRendered();
 }
@@ -327,17 +404,17 @@ function buildGroup(host: HTMLElement, id: string, all: readonly SeriesInfo[], m
   const anchors = message.series.find((s) => s.key === 'uwb/anchors');
   if (id === 'trajectory' && xy.length) {
     const layers = anchors && !xy.includes(anchors) ? [...xy, anchors] : xy;
-    addXyChart(host, layers, 'Trajectory from above', width);
+    addXyChart(host, id, layers, 'Trajectory from above', width);
   } else {
-    for (const s of xy) addXyChart(host, [s], s.label, width);
+    for (const s of xy) addXyChart(host, id, [s], s.label, width);
   }
   for (const s of series) {
     const kind = chartKind(s);
     if (kind === 'xy') continue;
-    addTimeChart(host, s, kind, report, width);
+    addTimeChart(host, id, s, kind, report, width);
     if (s.key.startsWith('nis/')) {
       const h = message.histograms.find((x) => x.key === s.key);
-      if (h) addHistogram(host, h, width);
+      if (h) addHistogram(host, id, h, width);
     }
   }
   const block = id === 'errors' ? report.errors : id === 'bias' ? report.bias : id === 'uwb' ? report.uwb : id === 'allan' ? report.imu ?? allanFigures(report.bias) : undefined;
@@ -369,7 +446,7 @@ function allanFigures(bias: unknown): unknown {
   return Object.keys(out).length ? out : undefined;
 }
 
-function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglog' | 'plain', report: InitMessage['report'], width: number): void {
+function addTimeChart(host: HTMLElement, viewId: string, info: SeriesInfo, kind: 'time' | 'loglog' | 'plain', report: InitMessage['report'], width: number): void {
   const { section, plot, tableHost, details } = chartSection(info.key, info.label, info.unit);
   host.append(section);
   const ownExtent: [number, number] = kind === 'time' ? extent : [info.x0, info.x1];
@@ -394,22 +471,30 @@ function addTimeChart(host: HTMLElement, info: SeriesInfo, kind: 'time' | 'loglo
     () => theme,
   );
   if (kind === 'time' && view.window) chart.setWindow(view.window[0], view.window[1]);
-  const entry: TimeEntry = { kind: 'time', info, section, chart, tableHost, requestId: 0, rendered: false };
+  const entry: TimeEntry = { kind: 'time', viewId, stale: false, info, section, chart, tableHost, requestId: 0, rendered: false };
   entries.push(entry);
-  details.addEventListener('toggle', () => details.open && fillTable(entry));
+  entryByKey.set(info.key, entry);
+  details.addEventListener('toggle', () => {
+    if (!details.open) return;
+    fillTable(entry);
+    // Answers without the line column came while the table was closed: ask once more, with it.
+    if (entry.columns && !entry.columns.line) send([{ entry, key: info.key, window: kind === 'time' ? chart.visibleWindow() : undefined }]);
+  });
   if (kind === 'time') section.addEventListener('keydown', (e) => onChartKey(e, chart, details));
 }
 
-function addXyChart(host: HTMLElement, infos: SeriesInfo[], label: string, width: number): void {
+function addXyChart(host: HTMLElement, viewId: string, infos: SeriesInfo[], label: string, width: number): void {
   const { section, plot, tableHost, details } = chartSection(infos[0].key, label, infos[0].unit || 'm');
   section.dataset.layers = infos.map((i) => i.key).join(' ');
   host.append(section);
-  const entry: XyEntry = { kind: 'xy', infos, section, chart: new XyChart(plot, infos[0].unit || 'm', width, () => theme), tableHost, requestIds: new Map(), columns: new Map(), rendered: false };
+  // Request id 0 per layer: the envelopes the host sends after `init` unasked are this chart's until it asks itself.
+  const entry: XyEntry = { kind: 'xy', viewId, infos, section, chart: new XyChart(plot, infos[0].unit || 'm', width, () => theme), tableHost, requestIds: new Map(infos.map((i) => [i.key, 0])), columns: new Map(), rendered: false };
   entries.push(entry);
+  for (const i of infos) if (!entryByKey.has(i.key)) entryByKey.set(i.key, entry);
   details.addEventListener('toggle', () => details.open && fillTable(entry));
 }
 
-function addHistogram(host: HTMLElement, h: HistogramInfo, width: number): void {
+function addHistogram(host: HTMLElement, viewId: string, h: HistogramInfo, width: number): void {
   const key = `histogram/${h.key}`;
   const { section, plot, tableHost } = chartSection(key, `Histogram of ${h.key} against chi-square (${h.dof} dof)`, '');
   host.append(section);
@@ -419,27 +504,65 @@ function addHistogram(host: HTMLElement, h: HistogramInfo, width: number): void 
   const rows = h.counts.map((c, i) => [`${h.edges[i].toPrecision(3)} – ${h.edges[i + 1].toPrecision(3)}`, String(c), h.expected[i].toFixed(1)]);
   rows.push([`≥ ${h.edges[h.edges.length - 1].toPrecision(3)}`, String(h.overflow), (h.total * 0.005).toFixed(1)]);
   tableHost.append(table(`NIS histogram, ${h.total} values`, ['NIS bin', 'Count', 'Expected'], rows));
-  entries.push({ kind: 'histogram', section, chart, rendered: true });
+  entries.push({ kind: 'histogram', viewId, section, chart, rendered: true });
 }
 
 // ---------------------------------------------------------------------------------------------------------------
 // Envelope requests and responses
 
-function request(entry: TimeEntry | XyEntry, key: string, window?: [number, number]): void {
+/** One envelope to ask for: a chart, the key of one of its series, the window (absent: the whole series). */
+interface Wanted {
+  entry: TimeEntry | XyEntry;
+  key: string;
+  window?: [number, number];
+}
+
+/**
+ * Whether a chart's answers should carry the source-line column: planar paths always (the worst epochs are placed
+ * by line), time charts only while their table is open (the line is a table column; leaving it out makes every
+ * answer a fifth to a third smaller).
+ */
+function wantsLine(entry: TimeEntry | XyEntry): boolean {
+  return entry.kind === 'xy' || (entry.tableHost.parentElement as HTMLDetailsElement | null)?.open === true;
+}
+
+function requestMessage(w: Wanted): SeriesRequestMessage {
+  const { entry, key, window } = w;
   const id = nextRequestId++;
   pendingByRequest.set(id, entry);
+  sentAt.set(id, performance.now());
   if (entry.kind === 'time') entry.requestId = id;
   else entry.requestIds.set(key, id);
   const widthPx = entry.kind === 'time' ? entry.chart.plotWidthPx() : 1;
-  const msg = { type: 'series/request' as const, id, key, widthPx: Math.min(16384, Math.max(1, widthPx)) };
-  panelApi.post(window ? { ...msg, t0: window[0], t1: window[1] } : msg);
+  const msg: SeriesRequestMessage = { type: 'series/request', id, key, widthPx: Math.min(16384, Math.max(1, widthPx)) };
+  if (!wantsLine(entry)) msg.line = false;
+  if (window) {
+    msg.t0 = window[0];
+    msg.t1 = window[1];
+  }
+  return msg;
 }
 
-function requestAll(): void {
-  for (const e of entries) {
-    if (e.kind === 'time') request(e, e.info.key, chartKindOf(e) === 'time' ? e.chart.visibleWindow() : undefined);
-    else if (e.kind === 'xy') for (const i of e.infos) request(e, i.key);
-  }
+/** Ask for `wanted` in one message (one request, or a batch answered by one batch); returns the request ids. */
+function send(wanted: readonly Wanted[]): number[] {
+  if (!wanted.length) return [];
+  const requests = wanted.map(requestMessage);
+  panelApi.post(requests.length === 1 ? requests[0] : { type: 'series/requestBatch', requests });
+  return requests.map((r) => r.id);
+}
+
+function wantedOf(e: TimeEntry | XyEntry): Wanted[] {
+  if (e.kind === 'xy') return e.infos.map((i) => ({ entry: e, key: i.key }));
+  return [{ entry: e, key: e.info.key, window: chartKindOf(e) === 'time' ? e.chart.visibleWindow() : undefined }];
+}
+
+/**
+ * The first envelopes of view `id`'s charts, in one batch. Called as each view is built, the view on screen first:
+ * the host answers in order, so the charts the user sees are not queued behind the hidden ones, and those are drawn
+ * as their answers come, one view per message, so the page can paint between them.
+ */
+function requestView(id: string): void {
+  send(entries.filter((e): e is TimeEntry | XyEntry => e.viewId === id && e.kind !== 'histogram').flatMap(wantedOf));
 }
 
 function chartKindOf(e: TimeEntry): 'time' | 'loglog' | 'plain' {
@@ -447,25 +570,90 @@ function chartKindOf(e: TimeEntry): 'time' | 'loglog' | 'plain' {
   return k === 'xy' ? 'plain' : k;
 }
 
+function linkedTimeCharts(): TimeEntry[] {
+  return entries.filter((e): e is TimeEntry => e.kind === 'time' && chartKindOf(e) === 'time');
+}
+
 /**
- * Ask again for every time chart's envelope of its window (debounced). The host answers in order, so the chart the
- * user zoomed goes first, then the charts on screen, then those on hidden views: the answer the user waits for is
- * not queued behind some forty others.
+ * Ask again for the envelopes of the time charts on screen, at once: the one the user zoomed alone first (its answer
+ * is small and not queued behind the others), then the other linked charts of the view in one batch. The charts on
+ * hidden views were marked stale by {@link onUserWindow} and are asked for when their view is shown. While a zoom's
+ * requests are unanswered the next zoom waits for them (then asks for the latest window), so a held key does not
+ * queue dozens of answers.
  */
 function requeryTimeCharts(origin?: TimeChart): void {
-  if (requeryTimer) clearTimeout(requeryTimer);
-  requeryTimer = setTimeout(() => {
-    requeryTimer = undefined;
-    const rank = (e: TimeEntry): number => (e.chart === origin ? 0 : e.section.offsetParent !== null ? 1 : 2);
-    const charts = entries.filter((e): e is TimeEntry => e.kind === 'time' && chartKindOf(e) === 'time');
-    charts.sort((a, b) => rank(a) - rank(b)); // stable: the page order within each rank
-    for (const e of charts) request(e, e.info.key, e.chart.visibleWindow());
-  }, REQUERY_DEBOUNCE_MS);
+  if (origin) requeryOrigin = origin;
+  flushRequery();
+}
+
+function flushRequery(): void {
+  if (zoomInFlight.size > 0 && performance.now() - zoomSentAt < IN_FLIGHT_GIVE_UP_MS) {
+    zoomWanted = true; // resumed in onResponse
+    return;
+  }
+  zoomInFlight.clear();
+  const origin = requeryOrigin;
+  requeryOrigin = undefined;
+  const charts = linkedTimeCharts().filter((e) => e.viewId === activeView);
+  // The linked window (the other charts' own windows are set just after the requests leave, in onUserWindow).
+  const window = view.window ?? extent;
+  const wanted = (list: TimeEntry[]): Wanted[] => list.map((e) => ({ entry: e, key: e.info.key, window }));
+  const first = charts.filter((e) => e.chart === origin);
+  const rest = charts.filter((e) => e.chart !== origin);
+  for (const id of [...send(wanted(first)), ...send(wanted(rest))]) zoomInFlight.add(id);
+  zoomSentAt = performance.now();
+}
+
+/** The view `id` came on screen: its charts that missed a zoom, a pan or a selection catch up. */
+function showView(id: string): void {
+  if (id === activeView) return;
+  activeView = id;
+  const stale = linkedTimeCharts().filter((e) => e.viewId === id && e.stale);
+  if (!stale.length) return;
+  const window = view.window ?? extent;
+  for (const e of stale) {
+    e.stale = false;
+    e.chart.select(view.cursor_s);
+    e.chart.setWindow(window[0], window[1]);
+  }
+  send(stale.flatMap(wantedOf));
+}
+
+function onResponseBatch(msg: SeriesResponseBatchMessage): void {
+  for (const r of msg.responses) onResponse(r);
 }
 
 function onResponse(msg: SeriesResponseMessage): void {
-  const entry = pendingByRequest.get(msg.id);
+  const zoomAnswer = zoomInFlight.delete(msg.id);
+  drawResponse(msg);
+  if (zoomAnswer && zoomInFlight.size === 0) {
+    // Every chart on screen shows the zoom: the time since the user's zoom, for the editor bench.
+    document.body.dataset.lastZoomAllMs = (performance.now() - userWindowAt).toFixed(1);
+    document.body.dataset.zoomsAnswered = String(++zoomsAnswered);
+    if (zoomWanted || requeryOrigin !== undefined) {
+      zoomWanted = false;
+      requeryTimeCharts();
+    }
+  }
+}
+
+function drawResponse(msg: SeriesResponseMessage): void {
+  const tRecv = performance.now();
+  // id 0: an envelope the host sent after `init` unasked; it is drawn only if the chart has not asked since.
+  const entry = msg.id === 0 ? entryByKey.get(msg.key) : pendingByRequest.get(msg.id);
   pendingByRequest.delete(msg.id);
+  const tSent = sentAt.get(msg.id) ?? tRecv;
+  if (!firstRenderReported) {
+    if (firstResponseAt < 0) {
+      firstResponseAt = tRecv;
+      firstHostSinceInit_ms = msg.host_since_init_ms ?? -1;
+    }
+    lastHostSinceInit_ms = (msg.host_since_init_ms ?? -1) + (msg.host_ms ?? 0);
+    lastResponseAt = tRecv;
+    responses++;
+    hostTotal_ms += msg.host_ms ?? 0;
+  }
+  sentAt.delete(msg.id);
   if (!entry || entry.kind === 'histogram') return;
   if (msg.error) log('warning', `series ${msg.key}: ${msg.error}`);
   const columns: Columns = {
@@ -479,6 +667,19 @@ function onResponse(msg: SeriesResponseMessage): void {
     if (msg.id !== entry.requestId) return; // a newer window was asked for
     entry.columns = columns;
     const points = entry.chart.setData(columns.x, columns.y, columns.lo, columns.hi);
+    const tDrawn = performance.now();
+    drawTotal_ms += tDrawn - tRecv;
+    if (firstDrawnAt < 0) firstDrawnAt = tDrawn;
+    if (msg.host_ms !== undefined) entry.section.dataset.lastEnvelopeMs = msg.host_ms.toFixed(2);
+    entry.section.dataset.lastTiming = JSON.stringify({
+      sinceUser_ms: userWindowAt >= 0 ? +(tSent - userWindowAt).toFixed(1) : undefined,
+      roundTrip_ms: +(tRecv - tSent).toFixed(1),
+      host_ms: msg.host_ms !== undefined ? +msg.host_ms.toFixed(2) : undefined,
+      draw_ms: +(tDrawn - tRecv).toFixed(1),
+      points,
+      bytes: msg.x.byteLength * (2 + (msg.lo ? 1 : 0) + (msg.hi ? 1 : 0) + (msg.line ? 1 : 0)),
+      pending: pendingByRequest.size,
+    });
     entry.section.dataset.points = String(points);
     entry.rendered = true;
   } else {
@@ -537,6 +738,25 @@ function maybeReportRendered(): void {
   if (firstRenderReported) return;
   if (!entries.every((e) => e.rendered)) return;
   firstRenderReported = true;
+  const now = performance.now();
+  const since = (t: number): number => +(t - initAt).toFixed(1);
+  document.body.dataset.renderTiming = JSON.stringify({
+    build_ms: since(builtAt),
+    // The bench's ready -> charts on the page's own clock: from data-state=ready to the first time chart drawn and to
+    // every chart drawn (a poll from outside sees `ready` late when the page is busy right after it).
+    readyToFirstDrawn_ms: +(firstDrawnAt - readyAt).toFixed(1),
+    readyToAllDrawn_ms: +(now - readyAt).toFixed(1),
+    longTasks_ms: +longTasks_ms.toFixed(1),
+    firstAnswer_ms: since(firstResponseAt),
+    lastAnswer_ms: since(lastResponseAt),
+    toAllDrawn_ms: since(now),
+    host_ms: +hostTotal_ms.toFixed(1),
+    hostFirstStart_ms: +firstHostSinceInit_ms.toFixed(1),
+    hostLastEnd_ms: +lastHostSinceInit_ms.toFixed(1),
+    draw_ms: +drawTotal_ms.toFixed(1),
+    answers: responses,
+    charts: entries.length,
+  });
   document.body.dataset.chartsRendered = String(entries.length);
 }
 
@@ -544,10 +764,15 @@ function maybeReportRendered(): void {
 // Cursor, selection, zoom and pan
 
 function onUserWindow(t0: number, t1: number, origin?: TimeChart): void {
+  userWindowAt = performance.now();
   view.window = [t0, t1];
-  persist();
-  for (const e of entries) if (e.kind === 'time' && chartKindOf(e) === 'time' && e.chart !== origin) e.chart.setWindow(t0, t1);
+  const linked = linkedTimeCharts();
+  for (const e of linked) if (e.viewId !== activeView) e.stale = true; // no redraw of hidden canvases: see showView
+  // The requests first, then the redraws of the linked charts (their old points on the new scale) while the host
+  // forms the answers.
   requeryTimeCharts(origin);
+  persist();
+  for (const e of linked) if (e.chart !== origin && e.viewId === activeView) e.chart.setWindow(t0, t1);
 }
 
 function onChartKey(e: KeyboardEvent, chart: TimeChart, details: HTMLDetailsElement): void {
@@ -577,7 +802,11 @@ function applySelection(): void {
     const w = centreOn(current, extent, t);
     if (w !== current) onUserWindow(w[0], w[1]);
   }
-  for (const e of entries) if (e.kind === 'time') e.chart.select(t);
+  for (const e of entries) {
+    if (e.kind !== 'time') continue;
+    if (e.viewId === activeView || chartKindOf(e) !== 'time') e.chart.select(t);
+    else e.stale = true;
+  }
   for (const b of app.querySelectorAll<HTMLButtonElement>('[data-testid="worst-list"] button')) {
     const on = view.worstIndex !== undefined && b.dataset.index === String(view.worstIndex);
     if (on) {
@@ -597,6 +826,9 @@ function onMessage(msg: HostToWebviewMessage): void {
       break;
     case 'series/response':
       onResponse(msg);
+      break;
+    case 'series/responseBatch':
+      onResponseBatch(msg);
       break;
     case 'cursor/set':
       select(msg.t, msg.worstIndex);
@@ -619,6 +851,13 @@ function onMessage(msg: HostToWebviewMessage): void {
 
 function start(): void {
   registerUi();
+  try {
+    new PerformanceObserver((list) => {
+      for (const e of list.getEntries()) longTasks_ms += e.duration;
+    }).observe({ type: 'longtask', buffered: false });
+  } catch {
+    // no long-task timing in this browser: the hook stays 0
+  }
   const saved = panelApi.getState();
   if (saved) {
     uri = saved.uri;
@@ -642,6 +881,7 @@ function start(): void {
       if (w === lastWidth) return; // e.g. a scrollbar came or went: nothing to redraw
       lastWidth = w;
       for (const e of entries) e.chart.resize(w);
+      for (const e of linkedTimeCharts()) if (e.viewId !== activeView) e.stale = true;
       runsView.resize(w);
       requeryTimeCharts();
     }, 150);
@@ -652,7 +892,7 @@ function start(): void {
     runsView.redraw();
   }).observe(document.body, { attributes: true, attributeFilter: ['class'] });
   window.addEventListener('error', (e) => log('error', `${e.message} (${e.filename}:${e.lineno})`));
-  panelApi.post(view.view || view.window || view.cursor_s !== undefined ? { type: 'ready', view } : { type: 'ready' });
+  panelApi.post(readyMessage());
 }
 
 start();

@@ -23,6 +23,8 @@ import {
   type InitMessage,
   type ReadInfo,
   type RevealLineMessage,
+  type SeriesRequestMessage,
+  type SeriesResponseMessage,
   type ViewState,
 } from '../protocol';
 import { readConfiguration, type EditorConfiguration } from './configuration';
@@ -39,6 +41,9 @@ import { SeriesStore } from './seriesStore';
 
 /** The panel's webview type (also the serializer's). */
 export const PANEL_VIEW_TYPE = 'residuum.analysis';
+
+/** Series per `series/responseBatch` when the first envelopes are pushed after `init`. */
+const PUSH_BATCH = 6;
 
 /** Debounce of file-change events before a re-read, milliseconds. */
 const RELOAD_DEBOUNCE_MS = 250;
@@ -69,6 +74,10 @@ export class AnalysisPanel {
   private result: AnalysisResult | undefined;
   private histograms: HistogramInfo[] = [];
   private revision = 0;
+  /** performance.now() when the latest `init` was posted (for the answers' timing fields). */
+  private initPostedAt = 0;
+  /** The chart width the webview said in its latest `ready` (envelopes are pushed after `init` at this width). */
+  private readyWidthPx: number | undefined;
   private ready = false;
   private loading: AbortController | undefined;
   private reloadPending = false;
@@ -463,7 +472,13 @@ export class AnalysisPanel {
     };
     if (r.read) message.read = r.read;
     if (notice) message.notice = notice;
-    this.post(message);
+    // Without a zoomed window every chart starts with its whole series: the host sends those envelopes right after
+    // `init` instead of waiting for the webview to build its views and ask (one round trip less, and the answers are
+    // formed while the webview builds). A zoomed window is the webview's to ask for.
+    const pushWidth = this.view.window === undefined ? this.readyWidthPx : undefined;
+    if (pushWidth !== undefined) message.envelopesFollow = true;
+    this.initPostedAt = performance.now();
+    if (this.post(message) && pushWidth !== undefined) this.pushEnvelopes(this.store, this.revision, pushWidth);
     this.resendRuns();
   }
 
@@ -481,14 +496,20 @@ export class AnalysisPanel {
     switch (msg.type) {
       case 'ready':
         this.ready = true;
+        this.readyWidthPx = msg.widthPx;
         if (msg.view) this.view = { ...this.view, ...msg.view };
         if (this.result) this.sendInit(undefined);
         else if (this.error !== undefined && !this.loading) void this.load('open');
         else this.post({ type: 'status', state: 'loading', uri: this.uri.toString() });
         break;
       case 'series/request':
-        if (this.store) this.post(this.store.answer(msg));
+        if (this.store) this.post(this.timedAnswer(this.store, msg));
         break;
+      case 'series/requestBatch': {
+        const store = this.store;
+        if (store) this.post({ type: 'series/responseBatch', responses: msg.requests.map((r) => this.timedAnswer(store, r)) });
+        break;
+      }
       case 'reveal/line':
         void this.revealLine(msg);
         break;
@@ -539,6 +560,36 @@ export class AnalysisPanel {
       default:
         assertNever(msg);
     }
+  }
+
+  /**
+   * The first envelope of every series of `store` (the whole series at `widthPx`), posted as `series/responseBatch`es
+   * with `id` 0 of about {@link PUSH_BATCH} series each, the series of the view on screen first; one batch per turn
+   * of the event loop, so each leaves while the next is formed and the host stays responsive. Stops when the panel
+   * closed or a newer revision was sent.
+   */
+  private pushEnvelopes(store: SeriesStore, revision: number, widthPx: number): void {
+    const infos = store.infos();
+    const shown = this.view.view;
+    const order = [...infos.filter((i) => i.group === shown), ...infos.filter((i) => i.group !== shown)];
+    let next = 0;
+    const step = (): void => {
+      if (this.disposed || this.revision !== revision || this.store !== store || next >= order.length) return;
+      const chunk = order.slice(next, next + PUSH_BATCH);
+      next += chunk.length;
+      this.post({ type: 'series/responseBatch', responses: chunk.map((i) => this.timedAnswer(store, { type: 'series/request', id: 0, key: i.key, widthPx, line: i.xy ? undefined : false })) });
+      setImmediate(step);
+    };
+    step();
+  }
+
+  /** The store's answer to `request`, with the milliseconds it took (the editor bench reports them). */
+  private timedAnswer(store: SeriesStore, request: SeriesRequestMessage): SeriesResponseMessage {
+    const t0 = performance.now();
+    const answer = store.answer(request);
+    answer.host_ms = performance.now() - t0;
+    answer.host_since_init_ms = t0 - this.initPostedAt;
+    return answer;
   }
 
   /** Reveal a 1-based line of one of the run's files beside the panel, selected. */

@@ -2,10 +2,12 @@
  * The host's copy of a run's series and the answers to the webview's window queries. Pure (no `vscode`), so the
  * panel's data path is unit-tested without an editor.
  *
- * Time series (ascending x) are answered with a min/max envelope of the requested window (core/envelope.ts); series
+ * Time series (ascending x) are answered with a min/max envelope of the requested window, read from a min/max
+ * pyramid built on the series' first query (core/envelopeIndex.ts: O(pixels) per query, not O(points)); series
  * whose x is not time (a trajectory seen from above, anchor positions) are thinned by a stride to `maxXyPoints`.
  */
-import { envelope, isAscending, stride, type Envelope } from '../core/envelope';
+import { isAscending, stride, type Envelope } from '../core/envelope';
+import { buildEnvelopeIndex, envelopeIndexed, type EnvelopeIndex } from '../core/envelopeIndex';
 import type { Series } from '../core/series';
 import type { SeriesInfo, SeriesRequestMessage, SeriesResponseMessage } from '../protocol';
 
@@ -37,7 +39,7 @@ export function toArrayBuffer(a: Float64Array): ArrayBuffer {
 
 /** Holds the series of one analysis and answers window queries. */
 export class SeriesStore {
-  private readonly byKey = new Map<string, { series: Series; info: SeriesInfo }>();
+  private readonly byKey = new Map<string, { series: Series; info: SeriesInfo; index?: EnvelopeIndex }>();
 
   /** Keep `series` (later duplicates of a key are dropped). `maxXyPoints` caps planar paths. */
   constructor(series: readonly Series[], private readonly maxXyPoints = 20000) {
@@ -86,7 +88,10 @@ export class SeriesStore {
     else {
       const t0 = request.t0 ?? info.x0;
       const t1 = request.t1 ?? info.x1;
-      env = Number.isFinite(t0) && Number.isFinite(t1) ? envelope(series, t0, t1, request.widthPx, info.points) : stride(series, 0, 0);
+      if (Number.isFinite(t0) && Number.isFinite(t1)) {
+        entry.index ??= buildEnvelopeIndex(series, info.points);
+        env = envelopeIndexed(series, entry.index, t0, t1, request.widthPx);
+      } else env = stride(series, 0, 0);
     }
     const response: SeriesResponseMessage = {
       type: 'series/response',
@@ -98,7 +103,7 @@ export class SeriesStore {
     };
     if (env.lo) response.lo = toArrayBuffer(env.lo);
     if (env.hi) response.hi = toArrayBuffer(env.hi);
-    if (env.line) response.line = toArrayBuffer(env.line);
+    if (env.line && request.line !== false) response.line = toArrayBuffer(env.line);
     return response;
   }
 }

@@ -22,4 +22,5 @@ export declare function pwnedFlag(): unknown;
 /** Arms a keydown -> data-points watch on a chart section (Locator.evaluate passes the element first). */
 export declare function armPointsWatch(section: unknown, timeout_ms: number): boolean;
 /** The armed watch's result. */
-export declare function readPointsWatch(): Promise<{ ms: number; points: string | null; envelopeMs?: string | null }>;
+export declare function readPointsWatch(): Promise<{ ms: number; points: string | null; envelopeMs?: string | null; timing?: string | null }>;
+export declare function waitZoomAnswered(body: HTMLElement, args: [number, number]): Promise<number>;

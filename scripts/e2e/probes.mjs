@@ -71,14 +71,31 @@ export function armPointsWatch(section, timeout_ms) {
     };
     const timer = setTimeout(() => done({ ms: -1, points: section.getAttribute('data-points') }), timeout_ms);
     const obs = new MutationObserver(() => {
-      if (tKey >= 0) done({ ms: performance.now() - tKey, points: section.getAttribute('data-points'), envelopeMs: section.getAttribute('data-last-envelope-ms') });
+      if (tKey >= 0) done({ ms: performance.now() - tKey, points: section.getAttribute('data-points'), envelopeMs: section.getAttribute('data-last-envelope-ms'), timing: section.getAttribute('data-last-timing') });
     });
     obs.observe(section, { attributes: true, attributeFilter: ['data-points'] });
   });
   return true;
 }
 
-/** The result of the armed watch: `{ ms, points, envelopeMs }`, `ms` -1 on timeout. */
+/** The result of the armed watch: `{ ms, points, envelopeMs, timing }`, `ms` -1 on timeout. */
 export function readPointsWatch() {
   return window.__residuumWatch;
+}
+
+/**
+ * Waits until the panel's count of fully answered zooms (`body[data-zooms-answered]`) exceeds `args[0]`; returns
+ * `body[data-last-zoom-all-ms]` (user zoom until every chart on screen drew its answer), or -1 after `args[1]` ms.
+ */
+export function waitZoomAnswered(body, args) {
+  const [before, timeout_ms] = args;
+  return new Promise((resolve) => {
+    const t0 = performance.now();
+    const tick = () => {
+      if (Number(body.dataset.zoomsAnswered ?? 0) > before) resolve(Number(body.dataset.lastZoomAllMs));
+      else if (performance.now() - t0 > timeout_ms) resolve(-1);
+      else setTimeout(tick, 5);
+    };
+    tick();
+  });
 }

@@ -121,6 +121,15 @@ describe('SeriesStore', () => {
     expect(Math.max(...ry)).toBe(99);
     expect(new Float64Array(r.hi ?? new ArrayBuffer(0)).every((v) => v === 5)).toBe(true);
   });
+  it('leaves the line column out when asked, and answers again from the same pyramid', () => {
+    const withLine = store.answer({ type: 'series/request', id: 10, key: 'trajectory/estimate', widthPx: 10 });
+    const without = store.answer({ type: 'series/request', id: 11, key: 'trajectory/estimate', widthPx: 10, line: false });
+    expect([withLine.line !== undefined, without.line]).toEqual([true, undefined]);
+    expect(new Float64Array(without.y)).toEqual(new Float64Array(withLine.y));
+    const a = store.answer({ type: 'series/request', id: 12, key: 'nis/a', t0: 10, t1: 20, widthPx: 50 });
+    const b = store.answer({ type: 'series/request', id: 13, key: 'nis/a', t0: 10, t1: 20, widthPx: 50 });
+    expect(new Float64Array(b.y)).toEqual(new Float64Array(a.y));
+  });
   it('thins planar paths and reports unknown keys', () => {
     const r = store.answer({ type: 'series/request', id: 1, key: 'trajectory/estimate', widthPx: 10 });
     expect(new Float64Array(r.x).length).toBeLessThanOrEqual(1001);

@@ -6,8 +6,26 @@ import { parseHostMessage, parsePersistedState, parseViewState, parseWebviewMess
 describe('parseWebviewMessage', () => {
   it('accepts well-formed messages and copies only known fields', () => {
     expect(parseWebviewMessage({ type: 'ready' })).toEqual({ type: 'ready' });
+    expect(parseWebviewMessage({ type: 'ready', widthPx: 1310, view: { view: 'bias' } })).toEqual({ type: 'ready', widthPx: 1310, view: { view: 'bias' } });
     expect(parseWebviewMessage({ type: 'series/request', id: 3, key: 'nis/tdoa', t0: 1, t1: 2, widthPx: 800, extra: 'x' })).toEqual({
       type: 'series/request', id: 3, key: 'nis/tdoa', t0: 1, t1: 2, widthPx: 800,
+    });
+    expect(parseWebviewMessage({ type: 'series/request', id: 4, key: 'nis/tdoa', widthPx: 800, line: false })).toEqual({ type: 'series/request', id: 4, key: 'nis/tdoa', widthPx: 800, line: false });
+    expect(
+      parseWebviewMessage({
+        type: 'series/requestBatch',
+        requests: [
+          { type: 'series/request', id: 5, key: 'a', widthPx: 10, t0: 0, t1: 1, line: false, junk: 1 },
+          { type: 'series/request', id: 6, key: 'b', widthPx: 20 },
+        ],
+        extra: true,
+      }),
+    ).toEqual({
+      type: 'series/requestBatch',
+      requests: [
+        { type: 'series/request', id: 5, key: 'a', widthPx: 10, t0: 0, t1: 1, line: false },
+        { type: 'series/request', id: 6, key: 'b', widthPx: 20 },
+      ],
     });
     expect(parseWebviewMessage({ type: 'reveal/line', line: 2343, file: 0, t: 23.41, worstIndex: 0 })).toEqual({ type: 'reveal/line', line: 2343, file: 0, t: 23.41, worstIndex: 0 });
     expect(parseWebviewMessage({ type: 'cursor/didChange', t: 5 })).toEqual({ type: 'cursor/didChange', t: 5 });
@@ -27,6 +45,15 @@ describe('parseWebviewMessage', () => {
       { type: 'series/request', id: 1, key: 'k', widthPx: 1e9 },
       { type: 'series/request', id: 1, key: 'k', widthPx: 10, t0: 5, t1: 1 },
       { type: 'series/request', id: 1, key: 'k', widthPx: 10, t0: NaN },
+      { type: 'series/request', id: 1, key: 'k', widthPx: 10, line: true },
+      { type: 'series/requestBatch', requests: [] },
+      { type: 'ready', widthPx: 0 },
+      { type: 'ready', widthPx: 12.5 },
+      { type: 'ready', widthPx: '800' },
+      { type: 'series/requestBatch', requests: 'x' },
+      { type: 'series/requestBatch', requests: [{ type: 'series/request', id: 1, key: 'k', widthPx: 10 }, { type: 'series/request', id: 2, key: 'k', widthPx: 0 }] },
+      { type: 'series/requestBatch', requests: [{ type: 'reveal/line', line: 3 }] },
+      { type: 'series/requestBatch', requests: Array.from({ length: 513 }, (_, i) => ({ type: 'series/request', id: i, key: 'k', widthPx: 10 })) },
       { type: 'reveal/line', line: 0 },
       { type: 'reveal/line', line: 3.5 },
       { type: 'reveal/line', line: '12' },
@@ -58,6 +85,10 @@ describe('parseHostMessage', () => {
     expect(parseHostMessage({ type: 'cursor/set', t: 1 })).toEqual({ type: 'cursor/set', t: 1 });
     expect(parseHostMessage({ type: 'series/response', id: 1, key: 'k', x: new ArrayBuffer(8), y: new Float64Array(1) })).toBeDefined();
     expect(parseHostMessage({ type: 'series/response', id: 1, key: 'k', x: [1], y: [2] })).toBeUndefined();
+    const one = { type: 'series/response', id: 1, key: 'k', x: new ArrayBuffer(8), y: new ArrayBuffer(8), inWindow: 1 };
+    expect(parseHostMessage({ type: 'series/responseBatch', responses: [one, { ...one, id: 2 }] })).toBeDefined();
+    expect(parseHostMessage({ type: 'series/responseBatch', responses: [one, { ...one, x: [1] }] })).toBeUndefined();
+    expect(parseHostMessage({ type: 'series/responseBatch', responses: [{ ...one, type: 'status' }] })).toBeUndefined();
     expect(parseHostMessage({ type: 'status', state: 'busy', uri: 'u' })).toBeUndefined();
     expect(parseHostMessage({ type: 'init', report: {}, series: [], files: [] })).toBeUndefined();
     expect(parseHostMessage({ source: 'react-devtools' })).toBeUndefined();

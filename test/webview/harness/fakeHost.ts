@@ -84,8 +84,9 @@ listeners.push((m) => {
   if (!real) return;
   sent.push(m);
   if (m.type === 'ready') void fetch('/real/init').then((r) => r.json() as Promise<InitMessage>).then((init) => deliver(init));
-  else if (m.type === 'series/request') {
-    void fetch('/real/series', { method: 'POST', body: JSON.stringify(m) })
+  // A batch is answered one response at a time here (the panel takes both forms).
+  for (const q of m.type === 'series/requestBatch' ? m.requests : m.type === 'series/request' ? [m] : []) {
+    void fetch('/real/series', { method: 'POST', body: JSON.stringify(q) })
       .then((r) => r.json() as Promise<Omit<SeriesResponseMessage, 'x' | 'y' | 'lo' | 'hi' | 'line'> & JsonColumns>)
       .then((a) => {
         const out: SeriesResponseMessage = { ...a, x: toBuffer(a.x) ?? new ArrayBuffer(0), y: toBuffer(a.y) ?? new ArrayBuffer(0), lo: toBuffer(a.lo), hi: toBuffer(a.hi), line: toBuffer(a.line) };
@@ -112,6 +113,7 @@ listeners.push((m) => {
     };
     deliver(init);
   } else if (m.type === 'series/request') deliver(store.answer(m));
+  else if (m.type === 'series/requestBatch') deliver({ type: 'series/responseBatch', responses: m.requests.map((q) => store.answer(q)) });
 });
 
 let state: unknown;

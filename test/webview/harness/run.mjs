@@ -79,7 +79,7 @@ try {
     injected: document.querySelectorAll('img').length,
   }));
   console.log(JSON.stringify(facts, null, 1));
-  const reqs = () => p.evaluate(() => globalThis.harness.sent.filter((m) => m.type === 'series/request').length);
+  const reqs = () => p.evaluate(() => globalThis.harness.sent.flatMap((m) => (m.type === 'series/requestBatch' ? m.requests : [m])).filter((m) => m.type === 'series/request').length);
   console.log('requests after first render', await reqs(), 'charts', facts.charts.length);
   await p.waitForTimeout(500);
   console.log('requests 0.5 s later (must not grow)', await reqs());
@@ -99,11 +99,11 @@ try {
   }
   // zoom with the keyboard on the first time chart and check the envelope was re-queried
   await p.click('#tab-1');
-  const before = await p.evaluate(() => globalThis.harness.sent.filter((m) => m.type === 'series/request').length);
+  const before = await reqs();
   await p.focus('section.chart[data-series="nis/tdoa"]');
   await p.keyboard.press('+');
   await p.waitForTimeout(400);
-  const after = await p.evaluate(() => ({ n: globalThis.harness.sent.filter((m) => m.type === 'series/request').length, last: globalThis.harness.sent.filter((m) => m.type === 'series/request').at(-1) }));
+  const after = await p.evaluate(() => { const all = globalThis.harness.sent.flatMap((m) => (m.type === 'series/requestBatch' ? m.requests : [m])).filter((m) => m.type === 'series/request'); return { n: all.length, last: all.at(-1) }; });
   console.log('requests before/after zoom', before, after.n, JSON.stringify(after.last));
 } finally {
   await browser.close();
