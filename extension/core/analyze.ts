@@ -79,6 +79,7 @@ export function prepareAnalysis(own: NavLog, settings: AnalysisSettings): NavLog
  * Run one stage and store its output in `parts` (its elapsed milliseconds added to `times[name]`).
  * `own` is the log as read, `log` what {@link prepareAnalysis} returned; `uwb` needs `parts.channels` first.
  * Stages may run in any order otherwise, and `errors` on another thread (it reads only `log` and `settings`).
+ * Stages never write to the log's columns: the command line shares them with the thread running `errors`.
  */
 export function runStage(name: StageName, own: NavLog, log: NavLog, settings: AnalysisSettings, parts: StageParts, times?: StageTimes): void {
   const t0 = performance.now();
