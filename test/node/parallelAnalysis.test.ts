@@ -16,6 +16,9 @@ import { BENCH_OPTIONS, generateWarehouseLog } from '../../extension/core/demo/w
 import { analyzeFile, type AnalyzeFileOptions, type FileAnalysis } from '../../extension/node/analyzeFile';
 import { checkIdentity, hashPrefixNow, hashWhileRead, HashProgress, PrefixHasher } from '../../extension/node/prefixHash';
 import { reportProblems } from '../helpers/reportSchema';
+import { analyzeLog, assembleReport, prepareAnalysis, runStage, type StageParts } from '../../extension/core/analyze';
+import { readLogText } from '../../extension/core/read/index';
+import { resolveSettings } from '../../extension/core/settings';
 
 const root = path.resolve(__dirname, '../..');
 const workerFile = path.join(root, 'dist', 'stageWorker.js');
@@ -36,6 +39,34 @@ beforeAll(() => {
   writeFileSync(big, [...generateWarehouseLog({ ...BENCH_OPTIONS, rows: EPOCHS })].join(''));
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+describe('the core steps behind the parallel path', () => {
+  it('shared columns: every column of the log on a SharedArrayBuffer, the same report', async () => {
+    const text = readFileSync(demoLog, 'utf8');
+    const plain = await readLogText(text, demoLog);
+    const shared = await readLogText(text, demoLog, { sharedColumns: true });
+    const cols = [shared.state.t_s, ...shared.state.columns.values(), ...shared.channels.flatMap((c) => [c.nu, c.id, c.rejected])];
+    expect(cols.length).toBeGreaterThan(10);
+    for (const c of cols) expect(c.buffer).toBeInstanceOf(SharedArrayBuffer);
+    expect(plain.state.t_s.buffer).toBeInstanceOf(ArrayBuffer);
+    const a = analyzeLog(plain, resolveSettings(), { sha256: 'x' });
+    const b = analyzeLog(shared, resolveSettings(), { sha256: 'x' });
+    expect(JSON.stringify(b.report)).toBe(JSON.stringify(a.report));
+  });
+
+  it('stages run in another order (errors last, resets after bias) assemble the same report', async () => {
+    const own = await readLogText(readFileSync(demoLog, 'utf8'), demoLog);
+    const settings = resolveSettings({ confirmedResets_s: [30] });
+    const ref = analyzeLog(own, settings, { sha256: 'x' });
+    const log = prepareAnalysis(own, settings);
+    const parts: StageParts = {};
+    for (const name of ['channels', 'bias', 'resets', 'uwb', 'errors'] as const) runStage(name, own, log, settings, parts);
+    const again = assembleReport(log, settings, { sha256: 'x' }, parts);
+    expect(JSON.stringify(again.report)).toBe(JSON.stringify(ref.report));
+    expect(again.series.map((s) => s.key)).toEqual(ref.series.map((s) => s.key));
+    expect(() => assembleReport(log, settings, {}, { ...parts, errors: undefined })).toThrow(/missing: errors/);
+  });
+});
 
 describe('errors stage in the worker', () => {
   it('gives the sequential report byte for byte, with the hash of the file', async () => {
