@@ -47,18 +47,18 @@ export type HashAnswer =
 export class HashProgress {
   readonly buffer = new SharedArrayBuffer(16);
   private readonly words = new Int32Array(this.buffer, 0, 2);
-  private readonly limit = new Float64Array(this.buffer, 8, 1);
+  private readonly limit = new BigInt64Array(this.buffer, 8, 1);
 
   /** The main thread has read `bytes` bytes of the file (from its start). */
   publish(bytes: number): void {
-    this.limit[0] = bytes; // a plain store made visible by the atomic add below (the hasher loads SEQ first)
+    Atomics.store(this.limit, 0, BigInt(bytes));
     Atomics.add(this.words, SEQ, 1);
     Atomics.notify(this.words, SEQ);
   }
 
   /** The main thread read `bytes` bytes in all: hash exactly those and answer. */
   finish(bytes: number): void {
-    this.limit[0] = bytes;
+    Atomics.store(this.limit, 0, BigInt(bytes));
     Atomics.store(this.words, STATE, FINAL);
     Atomics.add(this.words, SEQ, 1);
     Atomics.notify(this.words, SEQ);
@@ -127,7 +127,7 @@ function changedAnswer(filePath: string, how: 'truncated' | 'replaced' | 'delete
 export function hashWhileRead(filePath: string, control: SharedArrayBuffer): HashAnswer {
   const t0 = performance.now();
   const words = new Int32Array(control, 0, 2);
-  const limit = new Float64Array(control, 8, 1);
+  const limit = new BigInt64Array(control, 8, 1);
   let hasher: PrefixHasher;
   try {
     hasher = new PrefixHasher(filePath);
@@ -141,7 +141,7 @@ export function hashWhileRead(filePath: string, control: SharedArrayBuffer): Has
       const seq = Atomics.load(words, SEQ);
       const state = Atomics.load(words, STATE);
       if (state === ABANDONED) return { kind: 'abandoned' };
-      const upTo = limit[0];
+      const upTo = Number(Atomics.load(limit, 0));
       if (hasher.hashed < upTo) {
         if (!hasher.advance(state === FINAL ? upTo : Math.min(upTo, hasher.hashed + HASH_CHUNK_BYTES))) return changedAnswer(filePath, 'truncated', upTo);
         continue;
