@@ -5,6 +5,7 @@
 import { createHash } from 'node:crypto';
 import { existsSync, readFileSync, statSync } from 'node:fs';
 import * as path from 'node:path';
+import { availableParallelism } from 'node:os';
 import type { NavLog } from '../core/model';
 import type { Series } from '../core/series';
 import type { Report } from '../core/report';
@@ -100,7 +101,8 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
   const t0 = performance.now();
   // The stage worker starts before the read: its bundle loads while this thread parses (parallelAnalysis.ts).
   const par = options.parallel && !options.files ? options.parallel : undefined;
-  const worker = par && statSync(logPath).size >= (par.minBytes ?? DEFAULT_MIN_PARALLEL_BYTES)
+  // One core: a second thread only adds its start-up (about 0.15 s of CPU) to the same critical path.
+  const worker = par && availableParallelism() >= 2 && statSync(logPath).size >= (par.minBytes ?? DEFAULT_MIN_PARALLEL_BYTES)
     ? StageWorker.start(par.workerFile, logPath) : undefined;
   try {
     // The main log is read once more from the start when it changed under the reader (truncated, replaced or deleted);
