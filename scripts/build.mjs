@@ -18,6 +18,8 @@ const artifacts = [
   // dist/cli.js is the small launcher (extension/cli/launch.ts) that starts dist/cliMain.js, the tool itself.
   { entryPoints: ['extension/cli/launch.ts'], outfile: 'dist/cli.js', platform: 'node', format: 'cjs', target: 'node20', banner: { js: '#!/usr/bin/env node' } },
   { entryPoints: ['extension/cli/main.ts'], outfile: 'dist/cliMain.js', platform: 'node', format: 'cjs', target: 'node20' },
+  // The CLI's stage worker (hash of the log, errors stage beside the main thread): only the code it needs, so it loads fast.
+  { entryPoints: ['extension/node/stageWorker.ts'], outfile: 'dist/stageWorker.js', platform: 'node', format: 'cjs', target: 'node20' },
   { entryPoints: ['webview/main.ts'], outfile: 'dist/webview.js', platform: 'browser', format: 'iife', target: 'es2022' },
   { entryPoints: ['scripts/gen-demo.ts'], outfile: 'dist/gen-demo.js', platform: 'node', format: 'cjs', target: 'node20' },
 ].filter((a) => existsSync(a.entryPoints[0]));

@@ -17,6 +17,16 @@ import { writeReportExports, assertAnalysable } from './export';
 import { WriteError } from '../node/writeAtomic';
 import type { StageTimes } from '../core/analyze';
 import { IMU_PRESETS } from '../core/imu/presets';
+import * as path from 'node:path';
+import type { ParallelOptions } from '../node/parallelAnalysis';
+
+/**
+ * The stage worker's bundle, beside this one in dist/ (for the verbs that need only the report: the log is hashed and
+ * its errors stage run on the second core; without the file, e.g. when run from the sources, all runs on one thread).
+ */
+export function stageWorkerOptions(): ParallelOptions {
+  return { workerFile: path.join(__dirname, 'stageWorker.js') };
+}
 
 const USAGE = `usage:
   residuum analyze LOG [options] [--json] [--out REPORT.json] [--html F] [--md F] [--profile]
@@ -79,7 +89,9 @@ async function analyzeVerb(argv: string[]): Promise<number> {
   if (positionals.length !== 1) throw new UsageError(`analyze takes exactly one LOG, got ${positionals.length}`);
   const times: StageTimes = {};
   const t0 = performance.now();
-  const result: FileAnalysis = await analyzeFile(positionals[0], analysisOptions(values, times));
+  // --html draws the series, which the two-thread analysis does not bring back from its worker
+  const options: AnalyzeFileOptions = { ...analysisOptions(values, times), ...(values.html === undefined ? { parallel: stageWorkerOptions() } : {}) };
+  const result: FileAnalysis = await analyzeFile(positionals[0], options);
   const t1 = performance.now();
   const json = values.json ? JSON.stringify(result.report, null, 2) + '\n' : '';
   assertAnalysable(result.report);
@@ -91,6 +103,12 @@ async function analyzeVerb(argv: string[]): Promise<number> {
     times.total = performance.now() - t0;
     const parts = Object.entries(times).map(([k, v]) => `${k}=${v.toFixed(1)}ms`);
     process.stderr.write(`profile: ${parts.join(' ')}\n`);
+    const p = result.parallel;
+    if (p) {
+      process.stderr.write(p.errorsIn === 'worker'
+        ? `parallel: errors ran in the stage worker beside resets, channels, bias and uwb (errors=${p.errors_ms.toFixed(1)}ms there; this thread waited ${p.wait_ms.toFixed(1)}ms for it); sha256 computed in the ${p.hashIn === 'worker' ? 'worker while the log was parsed' : 'main thread'}\n`
+        : `parallel: every stage ran on the main thread (${p.why ?? 'no reason given'}); sha256 computed in the ${p.hashIn === 'worker' ? 'worker while the log was parsed' : 'main thread'}\n`);
+    }
   }
   return 0;
 }
@@ -108,7 +126,8 @@ export async function main(argv: string[]): Promise<number> {
           process.stdout.write(USAGE + '\n');
           return 0;
         }
-        return await runCheck(values, positionals, analysisOptions(values));
+        // --html draws the series, which the two-thread analysis does not bring back from its worker
+        return await runCheck(values, positionals, { ...analysisOptions(values), ...(values.html === undefined ? { parallel: stageWorkerOptions() } : {}) });
       }
       case 'compare': {
         const { values, positionals } = parseVerbArgs(rest, COMPARE_OPTIONS);

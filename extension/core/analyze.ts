@@ -42,31 +42,89 @@ export type StageTimes = Record<string, number>;
 /** Most reader diagnostics of one kind copied into `findings` (the rest are counted in the last one's message). */
 const MAX_DIAGNOSTIC_FINDINGS_PER_KIND = 200;
 
+/** Names of the stages, in the order the sequential pipeline runs them (`uwb` reads `channels`' NIS). */
+export const STAGE_ORDER = ['resets', 'channels', 'errors', 'bias', 'uwb'] as const;
+
+/** One analysis stage. */
+export type StageName = (typeof STAGE_ORDER)[number];
+
+/** What the errors stage returns; the part of it that crosses threads is {@link ErrorsPart}. */
+export type ErrorsOutput = ReturnType<typeof analyzeErrors>;
+
 /**
- * Run every analysis on one log and assemble the report.
- * @param log what the reader produced
+ * The errors stage's output without its series (a worker thread's answer: the series are lazy closures that cannot
+ * cross threads, so a report assembled from this part has no errors series).
+ */
+export type ErrorsPart = Pick<ErrorsOutput, 'block' | 'findings'> & { series?: Series[] };
+
+/** The outputs of the stages of one run, filled in by {@link runStage} (or, for `errors`, by a worker thread). */
+export interface StageParts {
+  resets?: ReturnType<typeof analyzeResets>;
+  channels?: ReturnType<typeof analyzeChannels>;
+  errors?: ErrorsPart;
+  bias?: ReturnType<typeof analyzeBias>;
+  uwb?: ReturnType<typeof analyzeUwb>;
+}
+
+/**
+ * First step of an analysis: empties the shared work columns (scratch.ts) and returns the log every stage except
+ * `resets` reads: `own` with the resets the user confirmed added (core/resets). `resets` reads `own` itself.
+ */
+export function prepareAnalysis(own: NavLog, settings: AnalysisSettings): NavLog {
+  emptyScratch(); // work columns shared by the stages (scratch.ts), none left from an earlier run
+  // Filter restarts: the log's own plus those the user confirmed split every stage into segments (core/resets).
+  return withConfirmedResets(own, settings);
+}
+
+/**
+ * Run one stage and store its output in `parts` (its elapsed milliseconds added to `times[name]`).
+ * `own` is the log as read, `log` what {@link prepareAnalysis} returned; `uwb` needs `parts.channels` first.
+ * Stages may run in any order otherwise, and `errors` on another thread (it reads only `log` and `settings`).
+ * Stages never write to the log's columns: the command line shares them with the thread running `errors`.
+ */
+export function runStage(name: StageName, own: NavLog, log: NavLog, settings: AnalysisSettings, parts: StageParts, times?: StageTimes): void {
+  const t0 = performance.now();
+  switch (name) {
+    case 'resets': parts.resets = analyzeResets(own, settings); break;
+    case 'channels': parts.channels = analyzeChannels(log, settings); break;
+    case 'errors': parts.errors = analyzeErrors(log, settings); break;
+    case 'bias': parts.bias = analyzeBias(log, settings); break;
+    case 'uwb': {
+      if (!parts.channels) throw new Error('the uwb stage needs the channels stage first');
+      parts.uwb = analyzeUwb(log, settings, parts.channels.nisByChannel);
+      break;
+    }
+  }
+  if (times) times[name] = (times[name] ?? 0) + performance.now() - t0;
+}
+
+/**
+ * Run every analysis on one log and assemble the report: {@link prepareAnalysis}, every stage of
+ * {@link STAGE_ORDER} on this thread ({@link runStage}), then {@link assembleReport}. The command line may run the
+ * errors stage on a second thread instead (extension/node/parallelAnalysis.ts); the report is the same.
+ * @param own what the reader produced
  * @param settings resolved settings (see settings.ts)
  * @param info facts about the input the core cannot compute
  * @param times optional: filled with per-stage elapsed milliseconds
  */
 export function analyzeLog(own: NavLog, settings: AnalysisSettings, info: SourceInfo = {}, times?: StageTimes): AnalysisResult {
-  const clock = (): number => performance.now();
-  const timed = <T>(name: string, fn: () => T): T => {
-    const t0 = clock();
-    const out = fn();
-    if (times) times[name] = (times[name] ?? 0) + clock() - t0;
-    return out;
-  };
+  const log = prepareAnalysis(own, settings);
+  const parts: StageParts = {};
+  for (const name of STAGE_ORDER) runStage(name, own, log, settings, parts, times);
+  return assembleReport(log, settings, info, parts, times);
+}
 
-  emptyScratch(); // work columns shared by the stages (scratch.ts), none left from an earlier run
-  // Filter restarts: the log's own plus those the user confirmed split every stage into segments (core/resets).
-  const resets = timed('resets', () => analyzeResets(own, settings));
-  const log = withConfirmedResets(own, settings);
-  const channels = timed('channels', () => analyzeChannels(log, settings));
-  const errors = timed('errors', () => analyzeErrors(log, settings));
-  const bias = timed('bias', () => analyzeBias(log, settings));
-  const uwb = timed('uwb', () => analyzeUwb(log, settings, channels.nisByChannel));
-
+/**
+ * Last step of an analysis: merge the stages' findings with the reader's (in one fixed order, then sorted by time, so
+ * the order does not depend on which thread ran a stage), build the report, make it finite (finite.ts) and empty the
+ * work columns. Every stage of {@link STAGE_ORDER} must be in `parts`. The series are those of the parts (an
+ * errors part from a worker thread has none).
+ */
+export function assembleReport(log: NavLog, settings: AnalysisSettings, info: SourceInfo, parts: StageParts, times?: StageTimes): AnalysisResult {
+  const { resets, channels, errors, bias, uwb } = parts;
+  if (!resets || !channels || !errors || !bias || !uwb) {
+    throw new Error(`assembleReport needs every stage; missing: ${STAGE_ORDER.filter((n) => !parts[n]).join(', ')}`);
+  }
   const findings: Finding[] = [
     ...diagnosticFindings(log.diagnostics),
     ...channels.findings,
@@ -116,8 +174,10 @@ export function analyzeLog(own: NavLog, settings: AnalysisSettings, info: Source
   };
   emptyScratch();
   releaseSlab(); // the next run starts a slab of its own; this one is freed with the last column cut from it
-  const clean = timed('finite', () => finiteJson(report) as Report);
-  return { report: clean, series: [...channels.series, ...errors.series, ...bias.series, ...uwb.series] };
+  const t0 = performance.now();
+  const clean = finiteJson(report) as Report;
+  if (times) times.finite = (times.finite ?? 0) + performance.now() - t0;
+  return { report: clean, series: [...channels.series, ...(errors.series ?? []), ...bias.series, ...uwb.series] };
 }
 
 /** Start, end, epoch count and median step of the state records. */

@@ -5,15 +5,18 @@
 import { createHash } from 'node:crypto';
 import { existsSync, readFileSync, statSync } from 'node:fs';
 import * as path from 'node:path';
+import { availableParallelism } from 'node:os';
 import type { NavLog } from '../core/model';
 import type { Series } from '../core/series';
 import type { Report } from '../core/report';
 import { resolveSettings, type AnalysisSettings } from '../core/settings';
-import { analyzeLog, type StageTimes } from '../core/analyze';
+import { analyzeLog, type SourceInfo, type StageTimes } from '../core/analyze';
 import { readRun, type ByteSource } from '../core/read/index';
 import { fileByteSource, openRelative, FileChangedError, type FileLayer } from './fileSource';
 import { notesForReport } from './notesReport';
 import { mergeResetTimes } from '../core/resets/segments';
+import { analyzeLogParallel, DEFAULT_MIN_PARALLEL_BYTES, StageWorker, type ParallelOptions, type ParallelStats } from './parallelAnalysis';
+import { checkIdentity, hashPrefixNow, type FileIdentity, type HashAnswer, type HashProgress } from './prefixHash';
 
 /** Options of one analysis of a file on disk. */
 export interface AnalyzeFileOptions {
@@ -36,6 +39,12 @@ export interface AnalyzeFileOptions {
    * whose confirmed resets (`"reset": true`) are then added to `settings.confirmedResets_s`.
    */
   notes?: unknown[];
+  /**
+   * The caller needs the report and the log, not the panel's series (the CLI's analyze and check without --html):
+   * the log is hashed and its errors stage run in a second thread (parallelAnalysis.ts), with the same report.
+   * `series` then comes back EMPTY. Ignored with `files` (the worker reads through node:fs).
+   */
+  parallel?: ParallelOptions;
 }
 
 /** The report, the panel's series and the log they came from. */
@@ -43,6 +52,8 @@ export interface FileAnalysis {
   report: Report;
   series: Series[];
   log: NavLog;
+  /** With `parallel`: where the errors stage and the hash were computed (for `--profile`). */
+  parallel?: ParallelStats;
 }
 
 /** An input problem that stops the analysis (missing or unreadable file, malformed mapping): one plain line. */
@@ -88,25 +99,77 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
   }
 
   const t0 = performance.now();
-  // The main log is read once more from the start when it changed under the reader (truncated, replaced or deleted);
-  // a second change, or any read error, stops the analysis with one plain line.
-  let attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map);
-  if (attempt.failure instanceof FileChangedError) {
-    const first = attempt.failure;
-    assertReadableFile(logPath, 'log');
-    attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map);
-    if (!attempt.failure) {
-      attempt.log.diagnostics.push({ severity: 'warning', kind: 'note', file: logPath, line: 0,
-        message: `${first.message}; it was read again from the start and this analysis is of the file as it was then.` });
+  // The stage worker starts before the read: its bundle loads while this thread parses (parallelAnalysis.ts).
+  const par = options.parallel && !options.files ? options.parallel : undefined;
+  // One core: a second thread only adds its start-up (about 0.15 s of CPU) to the same critical path.
+  const worker = par && availableParallelism() >= 2 && statSync(logPath).size >= (par.minBytes ?? DEFAULT_MIN_PARALLEL_BYTES)
+    ? StageWorker.start(par.workerFile, logPath) : undefined;
+  try {
+    // The main log is read once more from the start when it changed under the reader (truncated, replaced or deleted);
+    // a second change, or any read error, stops the analysis with one plain line.
+    let attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map, worker?.progress);
+    if (par && !attempt.failure) {
+      try {
+        return await analyzeReadInParallel(logPath, attempt, settings, par, worker, options, t0);
+      } catch (e) {
+        if (!(e instanceof FileChangedError)) throw e;
+        attempt = { ...attempt, failure: e }; // the hash showed the file changed during the read: read it again
+      }
     }
+    worker?.close(); // the read again is hashed here, as the sequential path does
+    if (attempt.failure instanceof FileChangedError) {
+      const first = attempt.failure;
+      assertReadableFile(logPath, 'log');
+      attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map);
+      if (!attempt.failure) {
+        attempt.log.diagnostics.push({ severity: 'warning', kind: 'note', file: logPath, line: 0,
+          message: `${first.message}; it was read again from the start and this analysis is of the file as it was then.` });
+      }
+    }
+    if (attempt.failure) {
+      if (attempt.failure instanceof FileChangedError) throw new InputError(`log changed again while it was being read a second time: ${attempt.failure.message}`);
+      throw new InputError(`log cannot be read: ${attempt.failure.message}`);
+    }
+    const { log, hash } = attempt;
+    if (options.times) options.times.read = performance.now() - t0;
+    const out = analyzeWithSidecar(logPath, log, settings, hash ?? '', options.notes, options.times);
+    return par ? { ...out, series: [], parallel: { errorsIn: 'main', why: 'the log was read again', errors_ms: options.times?.errors ?? 0, wait_ms: 0, hashIn: 'main' } } : out;
+  } finally {
+    worker?.close();
   }
-  if (attempt.failure) {
-    if (attempt.failure instanceof FileChangedError) throw new InputError(`log changed again while it was being read a second time: ${attempt.failure.message}`);
-    throw new InputError(`log cannot be read: ${attempt.failure.message}`);
+}
+
+/**
+ * The parallel half of analyzeFile, after a read without failure: the stages with the errors stage in the worker
+ * (analyzeLogParallel) and the hash from the worker (or, when it failed, computed here from the same bytes).
+ * Rejects with a FileChangedError when the hash shows the file changed during the read.
+ */
+async function analyzeReadInParallel(logPath: string, attempt: MainRead, settings: AnalysisSettings, par: ParallelOptions,
+  worker: StageWorker | undefined, options: AnalyzeFileOptions, t0: number): Promise<FileAnalysis> {
+  const times = options.times;
+  if (times) times.read = performance.now() - t0;
+  const stats: Partial<ParallelStats> = { hashIn: attempt.hash !== undefined ? 'main' : 'worker' };
+  const hash = attempt.hash !== undefined ? Promise.resolve(attempt.hash) : confirmedHash(logPath, attempt, worker, stats);
+  // On a copy of the settings: when the hash shows a change, the read again starts from the caller's settings.
+  const own = { ...settings };
+  const sidecar = sidecarOf(logPath, attempt.log, own, options.notes);
+  const info: Promise<SourceInfo> = hash.then((sha256) => ({ sha256, notes: sidecar.notes }));
+  const { report } = await analyzeLogParallel(attempt.log, own, info, worker, { minEpochs: par.minEpochs, times, stats });
+  if (sidecar.finding) report.findings.push(sidecar.finding);
+  return { report, series: [], log: attempt.log, parallel: stats as ParallelStats };
+}
+
+/** The worker's hash of the bytes the main thread read, checked; computed here when the worker could not. */
+async function confirmedHash(logPath: string, attempt: MainRead, worker: StageWorker | undefined, stats: Partial<ParallelStats>): Promise<string> {
+  let answer: HashAnswer = worker ? checkIdentity(await worker.hash(), logPath, attempt.identity) : { kind: 'failed', message: 'no stage worker' };
+  if (answer.kind === 'hash' && answer.bytes !== attempt.bytes) answer = { kind: 'failed', message: `the worker hashed ${answer.bytes} bytes, not ${attempt.bytes}` };
+  if (answer.kind === 'failed' || answer.kind === 'abandoned') {
+    stats.hashIn = 'main';
+    answer = hashPrefixNow(logPath, attempt.bytes, attempt.identity);
   }
-  const { log, hash } = attempt;
-  if (options.times) options.times.read = performance.now() - t0;
-  return analyzeWithSidecar(logPath, log, settings, hash, options.notes, options.times);
+  if (answer.kind === 'hash') return answer.sha256;
+  if (answer.kind === 'changed') throw new FileChangedError(answer.message, answer.how);
+  throw new InputError(`log cannot be read: ${answer.kind === 'failed' ? answer.message : 'its hash was abandoned'}`);
 }
 
 /**
@@ -117,20 +180,45 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
  */
 export function analyzeWithSidecar(logPath: string, log: NavLog, settings: AnalysisSettings, sha256: string,
   notes?: unknown[], times?: StageTimes): FileAnalysis {
-  const sidecar = notes === undefined ? notesForReport(logPath, log) : undefined;
-  if (sidecar && sidecar.resets.length > 0) settings.confirmedResets_s = mergeResetTimes(settings.confirmedResets_s, sidecar.resets);
-  const { report, series } = analyzeLog(log, settings, { sha256, notes: notes ?? sidecar?.notes }, times);
-  if (sidecar?.finding) report.findings.push(sidecar.finding);
+  const sidecar = sidecarOf(logPath, log, settings, notes);
+  const { report, series } = analyzeLog(log, settings, { sha256, notes: sidecar.notes }, times);
+  if (sidecar.finding) report.findings.push(sidecar.finding);
   return { report, series, log };
 }
 
-/** One read of the main log and its run: the log, the SHA-256 of the main log's bytes, and why the main log failed. */
+/**
+ * The notes for the report (`notes` given, else the sidecar's), the finding of a sidecar that cannot be read, and
+ * the sidecar's confirmed resets merged into `settings.confirmedResets_s`.
+ */
+function sidecarOf(logPath: string, log: NavLog, settings: AnalysisSettings, notes?: unknown[]): { notes?: unknown[]; finding?: Report['findings'][number] } {
+  const sidecar = notes === undefined ? notesForReport(logPath, log) : undefined;
+  if (sidecar && sidecar.resets.length > 0) settings.confirmedResets_s = mergeResetTimes(settings.confirmedResets_s, sidecar.resets);
+  return { notes: notes ?? sidecar?.notes, ...(sidecar?.finding ? { finding: sidecar.finding } : {}) };
+}
+
+/** One read of the main log: the log, the hash (when hashed here), the bytes read, the file read, and why it failed. */
+interface MainRead {
+  log: NavLog;
+  /** SHA-256 of the main log's bytes, when hashed on this thread (undefined when a stage worker hashes them). */
+  hash?: string;
+  /** Bytes of the main log read. */
+  bytes: number;
+  /** Device and inode of the main log as opened. */
+  identity?: FileIdentity;
+  failure?: Error;
+}
+
+/**
+ * One read of the main log and its run. The main log's bytes are hashed here, or, with `progress`, by the stage
+ * worker: each chunk's count is published to it, then the total (or abandon, when the read fails).
+ */
 async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memoryBudgetBytes: number,
-  map: { text: string; name: string } | undefined): Promise<{ log: NavLog; hash: string; failure?: Error }> {
+  map: { text: string; name: string } | undefined, progress?: HashProgress): Promise<MainRead> {
   const files = options.files;
   const size = statSync(logPath).size;
-  const hash = createHash('sha256');
-  const raw = fileByteSource(logPath, { files, reuse: true }); // every consumer below copies what it keeps
+  const hash = progress ? undefined : createHash('sha256');
+  let identity: FileIdentity | undefined;
+  const raw = fileByteSource(logPath, { files, reuse: true, onOpen: (st) => { identity = { dev: st.dev, ino: st.ino }; } }); // every consumer below copies what it keeps
   let bytesRead = 0;
   let failure: Error | undefined;
   const main: ByteSource = {
@@ -139,12 +227,15 @@ async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memory
     async *chunks(signal?: AbortSignal) {
       try {
         for await (const chunk of raw.chunks(signal)) {
-          hash.update(chunk);
+          hash?.update(chunk);
           bytesRead += chunk.byteLength;
+          progress?.publish(bytesRead);
           options.onProgress?.(size > 0 ? Math.min(1, bytesRead / size) : 1);
           yield chunk;
         }
+        progress?.finish(bytesRead);
       } catch (e) {
+        progress?.abandon();
         failure = e instanceof Error ? e : new Error(String(e));
         throw e;
       }
@@ -157,8 +248,9 @@ async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memory
     open: (p: string, relativeTo: string) => openRelative(p, relativeTo),
     signal: options.signal,
     memoryBudgetBytes,
+    sharedColumns: progress !== undefined, // posting the log to the stage worker then shares its columns
   });
-  return { log, hash: hash.digest('hex'), ...(failure ? { failure } : {}) };
+  return { log, ...(hash ? { hash: hash.digest('hex') } : {}), bytes: bytesRead, ...(identity ? { identity } : {}), ...(failure ? { failure } : {}) };
 }
 
 /** Absolute, normalised form of a user-given path (for messages and the report). */

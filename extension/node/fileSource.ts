@@ -94,9 +94,10 @@ export class FileChangedError extends Error {
  * After every chunk and at the end, the path is looked up again: when the file was truncated below the bytes read,
  * replaced by another file (a different inode) or deleted, `chunks()` rejects with a {@link FileChangedError}
  * (`analyzeFile` then reads it again once). A file that grows while it is read is simply read further.
+ * `onOpen` gets the opened file's stat (its device and inode identify the file that was read).
  */
 export function fileByteSource(filePath: string,
-  opts: { start?: number; highWaterMark?: number; files?: FileLayer; reuse?: boolean } = {}): ByteSource {
+  opts: { start?: number; highWaterMark?: number; files?: FileLayer; reuse?: boolean; onOpen?: (opened: FileStatLike) => void } = {}): ByteSource {
   const files = opts.files ?? NODE_FILES;
   const hwm = opts.highWaterMark ?? (opts.reuse ? REUSED_CHUNK_BYTES : CHUNK_BYTES);
   let size: number | undefined;
@@ -131,6 +132,7 @@ export function fileByteSource(filePath: string,
         } catch (e) {
           throw describeError(filePath, e);
         }
+        opts.onOpen?.(opened);
         let pos = opts.start ?? 0;
         const changed = async (): Promise<FileChangedError | undefined> => {
           let now: FileStatLike;

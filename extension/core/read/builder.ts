@@ -12,11 +12,19 @@ import { clip } from './diagnostics';
 const INITIAL_CAPACITY = 256;
 const TIME_BOX = new Float64Array(1);
 
+/**
+ * A Float64Array of `n` zeros, on a SharedArrayBuffer when `shared`: posting a log whose columns are shared to a
+ * worker thread shares them instead of copying them (the command line's parallel analysis, node/parallelAnalysis.ts).
+ */
+export function float64Column(n: number, shared: boolean): Float64Array {
+  return shared ? new Float64Array(new SharedArrayBuffer(n * 8)) : new Float64Array(n);
+}
+
 /** One column of a stream, `width` values per record. `arr` is replaced when the stream grows. */
 export class Slot {
   arr: Float64Array;
-  constructor(readonly width: number, capacity: number) {
-    this.arr = new Float64Array(capacity * width).fill(NaN);
+  constructor(readonly width: number, capacity: number, shared = false) {
+    this.arr = float64Column(capacity * width, shared).fill(NaN);
   }
 }
 
@@ -52,11 +60,13 @@ export class StreamBuilder {
   dropped = 0;
   /** The free row at `length` holds a dropped record's values (cleared before reuse). */
   scratchDirty = false;
+  /** Columns allocated from now on live on SharedArrayBuffers (ReadOptions.sharedColumns). */
+  shared = false;
 
   /** The slot named `name`, created (NaN-filled) on first use. */
   slot(name: string, width = 1): Slot {
     let s = this.slots.get(name);
-    if (!s) { s = new Slot(width, this.capacity); this.slots.set(name, s); }
+    if (!s) { s = new Slot(width, this.capacity, this.shared); this.slots.set(name, s); }
     return s;
   }
 
@@ -119,12 +129,12 @@ export class StreamBuilder {
   private resize(cap: number): void {
     let width = 2; // t and line
     for (const s of this.slots.values()) width += s.width;
-    const block = new Float64Array(cap * width);
+    const block = float64Column(cap * width, this.shared);
     let offset = 0;
     const carve = (w: number): Float64Array => block.subarray(offset, (offset += cap * w));
     const t = carve(1); t.set(this.t); this.t = t;
     const l = carve(1); l.set(this.line); this.line = l;
-    const f = new Uint16Array(cap); f.set(this.fileIndex); this.fileIndex = f;
+    const f = this.uint16Column(cap); f.set(this.fileIndex); this.fileIndex = f;
     for (const s of this.slots.values()) {
       const a = carve(s.width);
       a.set(s.arr);
@@ -132,6 +142,10 @@ export class StreamBuilder {
       s.arr = a;
     }
     this.capacity = cap;
+  }
+
+  private uint16Column(n: number): Uint16Array {
+    return this.shared ? new Uint16Array(new SharedArrayBuffer(n * 2)) : new Uint16Array(n);
   }
 
   /** Number of distinct files that contributed records. */
@@ -156,13 +170,13 @@ export class StreamBuilder {
       return a - b;
     });
     const permute = (src: Float64Array, width: number): Float64Array => {
-      const out = new Float64Array(src.length).fill(NaN);
+      const out = float64Column(src.length, this.shared).fill(NaN);
       for (let k = 0; k < n; k++) out.set(src.subarray(sorted[k] * width, sorted[k] * width + width), k * width);
       return out;
     };
     this.t = permute(this.t, 1);
     this.line = permute(this.line, 1);
-    const f = new Uint16Array(this.capacity);
+    const f = this.uint16Column(this.capacity);
     for (let k = 0; k < n; k++) f[k] = this.fileIndex[sorted[k]];
     this.fileIndex = f;
     for (const s of this.slots.values()) s.arr = permute(s.arr, s.width);
@@ -225,6 +239,14 @@ export class RunBuilder {
   pStates: string[] | undefined;
   pMatrix: Float64Array | undefined;
   rows = 0;
+  /** Columns on SharedArrayBuffers (set before the first record through {@link useSharedColumns}). */
+  shared = false;
+
+  /** Allocate every column from now on (of the streams and of channels created later) on SharedArrayBuffers. */
+  useSharedColumns(): void {
+    this.shared = true;
+    for (const b of this.builders()) b.shared = true;
+  }
 
   /** Every stream builder of the run. */
   builders(): StreamBuilder[] {
@@ -241,7 +263,7 @@ export class RunBuilder {
   /** The builder of channel `name`. */
   channel(name: string): ChannelBuilder {
     let c = this.channels.get(name);
-    if (!c) { c = new ChannelBuilder(name); c.guard = this.guard; this.channels.set(name, c); }
+    if (!c) { c = new ChannelBuilder(name); c.guard = this.guard; c.shared = this.shared; this.channels.set(name, c); }
     return c;
   }
 
@@ -276,7 +298,7 @@ export function toStateStream(b: StreamBuilder, files: string[], P?: { states: s
 export function toChannel(c: ChannelBuilder, files: string[]): Channel {
   const n = c.length;
   const rejectedF = c.view('rejected');
-  const rejected = new Uint8Array(n);
+  const rejected = c.shared ? new Uint8Array(new SharedArrayBuffer(n)) : new Uint8Array(n);
   if (rejectedF) for (let i = 0; i < n; i++) rejected[i] = rejectedF[i] === rejectedF[i] && rejectedF[i] !== 0 ? 1 : 0;
   const nu = c.view('nu') ?? new Float64Array(n * c.dof).fill(NaN);
   const angle = c.angleComponents.slice(0, c.dof);

@@ -54,6 +54,11 @@ export interface ReadOptions {
   maxGapSteps?: number;
   /** Memory budget of the columns, bytes (budget.ts); beyond it streams are decimated and the log marked partial. */
   memoryBudgetBytes?: number;
+  /**
+   * Allocate the log's columns on SharedArrayBuffers, so that posting the NavLog to a worker thread shares them
+   * instead of copying them (the command line's parallel analysis). Such a log cannot have its buffers transferred.
+   */
+  sharedColumns?: boolean;
 }
 
 /** Options of a {@link LogReader}. */
@@ -68,6 +73,8 @@ export interface LogReaderOptions {
   sizeHint?: number;
   /** Memory budget of the columns, bytes (budget.ts); beyond it streams are decimated and the log marked partial. */
   memoryBudgetBytes?: number;
+  /** Columns on SharedArrayBuffers (see ReadOptions.sharedColumns). */
+  sharedColumns?: boolean;
 }
 
 function extFormat(name: string): 'csv' | 'jsonl' | 'json' | undefined {
@@ -170,6 +177,7 @@ export class LogReader {
   private readonly budget: ColumnBudget | undefined;
 
   constructor(readonly name: string, private readonly options: LogReaderOptions = {}) {
+    if (options.sharedColumns) this.run.useSharedColumns();
     if (options.memoryBudgetBytes !== undefined && options.memoryBudgetBytes > 0) this.budget = attachBudget(this.run, options.memoryBudgetBytes);
     this.main = new FileIngest(this.run, name, {
       spec: options.mapping, mapping: options.mapping, role: 'estimate', mapName: options.mapName, format: options.format,
@@ -351,7 +359,7 @@ export async function readRun(main: ByteSource, options: ReadOptions = {}): Prom
   }
   early.push(...pre.run.diagnostics.snapshot());
   const reader = new LogReader(main.name, { mapping, mapName, maxGapSteps: options.maxGapSteps, sizeHint: main.size,
-    memoryBudgetBytes: options.memoryBudgetBytes });
+    memoryBudgetBytes: options.memoryBudgetBytes, sharedColumns: options.sharedColumns });
   reader.addDiagnostics(early);
   if (mapName !== undefined) reader.noteFile(mapName);
   await pump(main, reader, reader, options, progress);
