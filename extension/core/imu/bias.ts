@@ -106,6 +106,67 @@ function medianWith(values: Float64Array, work: Float64Array): number {
   return medianInPlace(work, n);
 }
 
+// The per-sample passes of an axis are small functions of their own, shared by the six axes: the engine optimises a
+// small function once and reuses it for every axis, while the loops of one long function ran mostly unoptimised on a
+// cold start (each loop compiled on its own, then dropped at the first line after it not yet run): about 3x the time.
+
+/** Repeated values between consecutive usable samples, counted by the last {@link usableSamples} call. */
+let scanZeros = 0;
+
+/**
+ * Indices of the usable samples (finite value and time, time increasing) into `idx`; returns their count and leaves
+ * the number of usable samples equal to the one before in `scanZeros`.
+ */
+function usableSamples(t: Float64Array, col: Float64Array, n: number, idx: Int32Array): number {
+  let count = 0;
+  let zeros = 0;
+  let lastT = -Infinity;
+  let lastC = NaN;
+  for (let i = 0; i < n; i++) {
+    const ti = t[i];
+    const ci = col[i];
+    if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { // finite, time increasing
+      if (ci === lastC) zeros++;
+      idx[count++] = i;
+      lastT = ti;
+      lastC = ci;
+    }
+  }
+  scanZeros = zeros;
+  return count;
+}
+
+/** Median of the time steps xs[j] - xs[j-1] taken at a stride giving at most about 20000 of them (selected in `work`). */
+function sampledStepMedian(xs: Float64Array, count: number, work: Float64Array): number {
+  const stride = Math.max(1, Math.floor(count / 20000));
+  let m = 0;
+  for (let j = 1; j < count; j += stride) work[m++] = xs[j] - xs[j - 1];
+  return medianInPlace(work, m);
+}
+
+/**
+ * The corrections (module comment): increments of ys, exact zeros left out when `dropZeros`, divided by
+ * sqrt(step / median step) over long steps; `pos` gets the index of each increment's end sample. Returns their count.
+ */
+function corrections(
+  xs: Float64Array, ys: Float64Array, count: number, dropZeros: boolean, dtMedian: number, d: Float64Array, pos: Int32Array,
+): number {
+  let nd = 0;
+  for (let j = 1; j < count; j++) {
+    const v = ys[j] - ys[j - 1];
+    if (dropZeros && v === 0) continue;
+    const r = dtMedian > 0 ? Math.max(1, (xs[j] - xs[j - 1]) / dtMedian) : 1;
+    d[nd] = r > 1 ? v / Math.sqrt(r) : v;
+    pos[nd++] = j;
+  }
+  return nd;
+}
+
+/** z[j] = (z[j] - center) / scale for j < n. */
+function normalizeInPlace(z: Float64Array, n: number, center: number, scale: number): void {
+  for (let j = 0; j < n; j++) z[j] = (z[j] - center) / scale;
+}
+
 /** Work columns of one axis's analysis, shared by the axes and sensors of a log (each at least the stream's length). */
 export interface BiasScratch {
   idx: Int32Array;
@@ -245,15 +306,10 @@ function analyzeAxis(
   const n = state.length;
   const name = `${sensor} bias ${AXES[axis]}`;
   const work = scratch.work;
-  // finite samples with increasing time
+  // finite samples with increasing time (and, in the same pass, repeated values between them)
   const idxAll = scratch.idx;
-  let count = 0;
-  let lastT = -Infinity;
-  for (let i = 0; i < n; i++) {
-    const ti = t[i];
-    const ci = col[i];
-    if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { idxAll[count++] = i; lastT = ti; } // finite, time increasing
-  }
+  const count = usableSamples(t, col, n, idxAll);
+  const zeros = scanZeros;
   if (count < 2) return undefined;
   const idx = idxAll.subarray(0, count);
   const t0 = t[0] <= t[idx[0]] && Number.isFinite(t[0]) ? t[0] : t[idx[0]];
@@ -296,22 +352,11 @@ function analyzeAxis(
   // repeats the estimate between updates, and zeros are left out; otherwise (a few zeros, e.g. from rounding in the
   // written log) they are kept. An increment over a longer step than usual (a gap) is divided by sqrt(dt / dt_median):
   // a random-walk-like estimate moves by sqrt(time) over a gap.
-  let zeros = 0;
-  for (let j = 1; j < idx.length; j++) if (ys[j] === ys[j - 1]) zeros++;
-  const dropZeros = zeros >= 0.3 * (idx.length - 1);
-  const steps: number[] = [];
-  for (let j = 1; j < idx.length; j += Math.max(1, Math.floor(idx.length / 20000))) steps.push(xs[j] - xs[j - 1]);
-  const dtMedian = median(steps);
+  const dropZeros = zeros >= 0.3 * (count - 1);
+  const dtMedian = sampledStepMedian(xs, count, work);
   const dAll = scratch.d;
   const posAll = scratch.pos;
-  let nd = 0;
-  for (let j = 1; j < idx.length; j++) {
-    const v = ys[j] - ys[j - 1];
-    if (dropZeros && v === 0) continue;
-    const r = dtMedian > 0 ? Math.max(1, (xs[j] - xs[j - 1]) / dtMedian) : 1;
-    dAll[nd] = r > 1 ? v / Math.sqrt(r) : v;
-    posAll[nd++] = j;
-  }
+  const nd = corrections(xs, ys, count, dropZeros, dtMedian, dAll, posAll);
   const d = dAll.subarray(0, nd);
   const pos = posAll.subarray(0, nd);
   const result: AxisResult = {
@@ -345,12 +390,14 @@ function analyzeAxis(
   if (settleInc < 0) settleInc = d.length >> 1;
   const settlePos = pos[settleInc] - 1; // the sample before the first settled increment
   result.settleTime = xs[settlePos] - t0;
-  result.driftPerHour = driftRate(xs, ys, settlePos, work);
+  // the block medians after settling serve both the drift rate and the drift check (computed once)
+  const blocks = xs.length - settlePos >= 3 ? blockMedians(xs, ys, settlePos, 200, work) : undefined;
+  result.driftPerHour = blocks ? theilSenSlope(blocks.bt, blocks.bv) * 3600 : NaN;
 
   // steps: two-sided CUSUM on the normalised settled increments
   const nAfter = d.length - settleInc;
   const z = d.subarray(settleInc); // normalised in place: the raw corrections are not needed any more
-  for (let j = 0; j < nAfter; j++) z[j] = (z[j] - med) / scale;
+  normalizeInPlace(z, nAfter, med, scale);
   const h = cusumThresholdForArl(Math.max(nAfter, 2) / options.alpha, 0.5);
   result.h = h;
   const changes = detectChanges(z, h, 0.5);
@@ -388,7 +435,9 @@ function analyzeAxis(
   }
 
   // drift against the specification
-  const drift = driftCheck(xs, ys, settlePos, sensor, sigmaFinal, options.spec, bounds.map((b) => [xs[b.p0], xs[b.p1]] as [number, number]), work);
+  const drift = blocks && xs.length - settlePos >= 10
+    ? driftCheck(blocks, sensor, sigmaFinal, options.spec, bounds.map((b) => [xs[b.p0], xs[b.p1]] as [number, number]), work)
+    : undefined;
   if (drift) {
     result.drift = drift;
     if (drift.ratio > 1) {
@@ -440,11 +489,10 @@ export function plausibleBiasChange(T_s: number, K: number, B: number, sigma = 0
 
 /** Worst window of the drift check (see the module comment). */
 function driftCheck(
-  xs: Float64Array, ys: Float64Array, start: number, sensor: BiasSensor, sigmaFinal: number, spec: ResolvedSpec,
+  blocks: { bt: Float64Array; bv: Float64Array }, sensor: BiasSensor, sigmaFinal: number, spec: ResolvedSpec,
   stepSpans: [number, number][], work: Float64Array,
 ): BiasDriftCheck | undefined {
-  if (xs.length - start < 10) return undefined;
-  const { bt, bv } = blockMedians(xs, ys, start, 200, work);
+  const { bt, bv } = blocks;
   const span = bt[bt.length - 1] - bt[0];
   if (!(span > 0)) return undefined;
   const K = sensor === 'gyro' ? spec.spec.gyroRateRandomWalk : spec.spec.accRateRandomWalk;
@@ -452,7 +500,7 @@ function driftCheck(
   // the estimate's own scatter: consecutive block medians differ by about sqrt(2) times their noise
   const diffs = new Float64Array(Math.max(0, bv.length - 1));
   for (let i = 1; i < bv.length; i++) diffs[i - 1] = bv[i] - bv[i - 1];
-  const scatter = diffs.length >= 5 ? madScale(diffs, median(diffs)) / Math.SQRT2 : 0;
+  const scatter = diffs.length >= 5 ? madScale(diffs, medianWith(diffs, work), work) / Math.SQRT2 : 0;
   const sigma = Math.hypot(Number.isFinite(sigmaFinal) ? sigmaFinal : 0, scatter);
   const blockLen = span / Math.max(1, bt.length - 1);
   const at = (tq: number): number => {
