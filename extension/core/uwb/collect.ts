@@ -53,13 +53,19 @@ export function isRangeChannel(channel: Channel): boolean {
   return used.length > 0 && used.every((id) => parsePairId(id) === undefined && id.trim() !== '');
 }
 
+/** The interned ids the channel's updates use (in interning order; callers only test every one). */
 function usedIds(channel: Channel): string[] {
-  const seen = new Set<number>();
+  // a mark per interned id rather than a Set per update (one typed-array store per update)
+  const nIds = channel.ids.length;
+  const seen = new Uint8Array(nIds);
+  const id = channel.id;
   for (let k = 0; k < channel.length; k++) {
-    const v = channel.id[k];
-    if (Number.isInteger(v) && v >= 0 && v < channel.ids.length) seen.add(v);
+    const v = id[k];
+    if (v >= 0 && v < nIds && v === Math.floor(v)) seen[v] = 1;
   }
-  return [...seen].map((k) => channel.ids[k]);
+  const out: string[] = [];
+  for (let v = 0; v < nIds; v++) if (seen[v]) out.push(channel.ids[v]);
+  return out;
 }
 
 /** Parse "x y z" (spaces, commas or semicolons) into a point; undefined unless exactly three finite numbers. */
@@ -284,14 +290,43 @@ export function collectRaw(log: NavLog, anchors: AnchorTable, links: LinkTable):
   return out;
 }
 
-/** Record indices per link, each list in ascending time (stable). */
-export function indicesByLink(link: Int32Array, t_s: Float64Array, length: number, nLinks: number): number[][] {
-  const out: number[][] = Array.from({ length: nLinks }, () => []);
-  for (let k = 0; k < length; k++) if (link[k] >= 0) out[link[k]].push(k);
-  for (const list of out) {
-    let sorted = true;
-    for (let k = 1; k < list.length; k++) if (t_s[list[k]] < t_s[list[k - 1]]) sorted = false;
-    if (!sorted) list.sort((x, y) => t_s[x] - t_s[y] || x - y);
+/** Record indices grouped by link: `order` lists them link after link, link L at [start[L], start[L + 1]). */
+export interface LinkGroups {
+  order: Int32Array;
+  start: Int32Array;
+  /** Views of `order`, one per link. */
+  lists: Int32Array[];
+}
+
+/**
+ * Record indices per link, each list in ascending time (stable), as views of one index column (a counting sort:
+ * no per-record array growth).
+ */
+export function groupByLink(link: Int32Array, t_s: Float64Array, length: number, nLinks: number): LinkGroups {
+  const start = new Int32Array(nLinks + 1);
+  for (let k = 0; k < length; k++) {
+    const L = link[k];
+    if (L >= 0) start[L + 1]++;
   }
-  return out;
+  for (let L = 0; L < nLinks; L++) start[L + 1] += start[L];
+  const order = new Int32Array(start[nLinks]);
+  const fill = start.slice(0, nLinks);
+  for (let k = 0; k < length; k++) {
+    const L = link[k];
+    if (L >= 0) order[fill[L]++] = k;
+  }
+  const lists: Int32Array[] = [];
+  for (let L = 0; L < nLinks; L++) {
+    const list = order.subarray(start[L], start[L + 1]);
+    let sorted = true;
+    for (let k = 1; k < list.length; k++) if (t_s[list[k]] < t_s[list[k - 1]]) { sorted = false; break; }
+    if (!sorted) list.sort((x, y) => t_s[x] - t_s[y] || x - y);
+    lists.push(list);
+  }
+  return { order, start, lists };
+}
+
+/** Record indices per link, each list in ascending time (stable). */
+export function indicesByLink(link: Int32Array, t_s: Float64Array, length: number, nLinks: number): Int32Array[] {
+  return groupByLink(link, t_s, length, nLinks).lists;
 }

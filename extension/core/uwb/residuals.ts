@@ -101,6 +101,15 @@ export function summarizeValues(values: ArrayLike<number>): ValueSummary {
     const v = values[k];
     if (Number.isFinite(v)) finite[o++] = v;
   }
+  return summarizeFiniteInPlace(finite, n);
+}
+
+/**
+ * {@link summarizeValues} of finite[0..n), all finite, in their order; reorders `finite` (its median and MAD are
+ * selected in place). For callers that own a scratch copy of finite values: no further copy is made.
+ */
+export function summarizeFiniteInPlace(finite: Float64Array, n: number): ValueSummary {
+  if (n === 0) return { count: 0 };
   let sum = 0;
   let sumSq = 0;
   for (let k = 0; k < n; k++) {
@@ -128,10 +137,11 @@ export function summarizeValues(values: ArrayLike<number>): ValueSummary {
     out.meanSigma = out.std / Math.sqrt(nEff);
   }
   // Order no longer matters: select in place.
-  const med = medianInPlace(finite);
+  const view = finite.length === n ? finite : finite.subarray(0, n);
+  const med = medianInPlace(view);
   out.median = med;
   for (let k = 0; k < n; k++) finite[k] = Math.abs(finite[k] - med);
-  out.mad = medianInPlace(finite);
+  out.mad = medianInPlace(view);
   return out;
 }
 
