@@ -409,7 +409,16 @@ export function analyzeUwb(
   } = tallyUpdates(upd, updGroups, links, nA, gateNis);
 
   // ---- 2. Residuals of raw records against truth and estimate ----
-  const truth = truthTrack(log, settings);
+  // the truth track only when something reads it (raw records, fixes, or no estimate): building it scans the log
+  let truthMade = false;
+  let truthKept: Track | undefined;
+  const truthOf = (): Track | undefined => {
+    if (!truthMade) {
+      truthKept = truthTrack(log, settings);
+      truthMade = true;
+    }
+    return truthKept;
+  };
   const estimate = estimateTrack(log);
   // The bridged gap of each track is computed once (it takes a median over the track).
   const gapOf = new Map<Track, number>();
@@ -440,7 +449,7 @@ export function analyzeUwb(
     }
     return res;
   };
-  const resTruth = residualAgainst(truth);
+  const resTruth = raw.length > 0 ? residualAgainst(truthOf()) : undefined;
   const resEst = residualAgainst(estimate);
   const linkValues = (res: Float64Array | undefined, L: number): number[] => {
     const out: number[] = [];
@@ -680,7 +689,7 @@ export function analyzeUwb(
       return n > 0 ? Math.sqrt(s / n) : undefined;
     };
     const tq = fixes.t_s;
-    const atTruth = truthAt(truth, tq);
+    const atTruth = truthAt(truthOf(), tq);
     const atEst = truthAt(estimate, tq);
     const r3 = rmse(atTruth, 3);
     const r2 = rmse(atTruth, 2);
@@ -703,6 +712,7 @@ export function analyzeUwb(
 
   // ---- 4. Geometry ----
   const fixTrackAsTrack: Track | undefined = fixes.length > 0 ? { t_s: fixes.t_s, x: fixes.x, y: fixes.y, z: fixes.z, length: fixes.length } : undefined;
+  const truth = estimate ? undefined : truthOf();
   const positionTrack = estimate ?? truth ?? fixTrackAsTrack;
   const positionName: UwbBlock['dop']['position'] = estimate ? 'estimate' : truth ? 'truth' : fixTrackAsTrack ? 'fix' : undefined;
   const model = hasTdoa ? 'tdoa' : 'range';

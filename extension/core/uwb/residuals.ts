@@ -174,7 +174,8 @@ export function makeTrack(t_s: Float64Array, x: Float64Array, y: Float64Array, z
   let lastT = -Infinity;
   for (let k = 0; k < length; k++) {
     const t = t_s[k];
-    if (Number.isFinite(t) && Number.isFinite(x[k]) && Number.isFinite(y[k]) && Number.isFinite(z[k])) {
+    // v - v === 0 is the finiteness test without a call (NaN and +-Infinity give NaN); the first pass over a long log
+    if (t - t === 0 && x[k] - x[k] === 0 && y[k] - y[k] === 0 && z[k] - z[k] === 0) {
       n++;
       if (t < lastT) sorted = false;
       lastT = t;
