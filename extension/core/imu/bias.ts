@@ -29,7 +29,7 @@ import type { NavLog, StateStream } from '../model';
 import type { Finding } from '../report';
 import type { Series } from '../series';
 import { quatLog, quatMultiply, quatConjugate } from '../geometry/quat';
-import { cusumThresholdForArl, detectChanges } from './cusum';
+import { cusumThresholdForArl, detectChangesScaled } from './cusum';
 import { BIAS_INSTABILITY_FACTOR } from './noiseFigures';
 import type { ResolvedSpec } from './presets';
 import { fromSI } from './units';
@@ -112,27 +112,41 @@ function medianWith(values: Float64Array, work: Float64Array): number {
 
 /** Repeated values between consecutive usable samples, counted by the last {@link usableSamples} call. */
 let scanZeros = 0;
+/** Corrections written by the last {@link usableSamples} call. */
+let scanCorrections = 0;
 
 /**
  * Indices of the usable samples (finite value and time, time increasing) into `idx`; returns their count and leaves
- * the number of usable samples equal to the one before in `scanZeros`.
+ * the number of usable samples equal to the one before in `scanZeros`. In the same pass, the corrections (see
+ * {@link corrections}, zeros kept) with the median step `dtMedian` go to `d` and `pos`, their count to
+ * `scanCorrections`: the same values as {@link corrections} gives afterwards with that median step.
  */
-function usableSamples(t: Float64Array, col: Float64Array, n: number, idx: Int32Array): number {
+function usableSamples(
+  t: Float64Array, col: Float64Array, n: number, idx: Int32Array, dtMedian: number, d: Float64Array, pos: Int32Array,
+): number {
   let count = 0;
   let zeros = 0;
+  let nd = 0;
   let lastT = -Infinity;
   let lastC = NaN;
   for (let i = 0; i < n; i++) {
     const ti = t[i];
     const ci = col[i];
     if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { // finite, time increasing
-      if (ci === lastC) zeros++;
+      if (count > 0) {
+        if (ci === lastC) zeros++;
+        const v = ci - lastC;
+        const r = dtMedian > 0 ? Math.max(1, (ti - lastT) / dtMedian) : 1;
+        d[nd] = r > 1 ? v / Math.sqrt(r) : v;
+        pos[nd++] = count;
+      }
       idx[count++] = i;
       lastT = ti;
       lastC = ci;
     }
   }
   scanZeros = zeros;
+  scanCorrections = nd;
   return count;
 }
 
@@ -162,10 +176,6 @@ function corrections(
   return nd;
 }
 
-/** z[j] = (z[j] - center) / scale for j < n. */
-function normalizeInPlace(z: Float64Array, n: number, center: number, scale: number): void {
-  for (let j = 0; j < n; j++) z[j] = (z[j] - center) / scale;
-}
 
 /** Work columns of one axis's analysis, shared by the axes and sensors of a log (each at least the stream's length). */
 export interface BiasScratch {
@@ -307,8 +317,14 @@ function analyzeAxis(
   const name = `${sensor} bias ${AXES[axis]}`;
   const work = scratch.work;
   // finite samples with increasing time (and, in the same pass, repeated values between them)
+  // The corrections need the median time step of the usable samples; when every record is usable (the usual case)
+  // that is the median step of the time column, so it is taken first and the corrections made in the same pass
+  // (checked below: otherwise they are made again).
   const idxAll = scratch.idx;
-  const count = usableSamples(t, col, n, idxAll);
+  const dAll = scratch.d;
+  const posAll = scratch.pos;
+  const dtAll = sampledStepMedian(t, n, work);
+  const count = usableSamples(t, col, n, idxAll, dtAll, dAll, posAll);
   const zeros = scanZeros;
   if (count < 2) return undefined;
   const idx = idxAll.subarray(0, count);
@@ -353,10 +369,8 @@ function analyzeAxis(
   // written log) they are kept. An increment over a longer step than usual (a gap) is divided by sqrt(dt / dt_median):
   // a random-walk-like estimate moves by sqrt(time) over a gap.
   const dropZeros = zeros >= 0.3 * (count - 1);
-  const dtMedian = sampledStepMedian(xs, count, work);
-  const dAll = scratch.d;
-  const posAll = scratch.pos;
-  const nd = corrections(xs, ys, count, dropZeros, dtMedian, dAll, posAll);
+  let nd = scanCorrections;
+  if (count !== n || dropZeros) nd = corrections(xs, ys, count, dropZeros, count === n ? dtAll : sampledStepMedian(xs, count, work), dAll, posAll);
   const d = dAll.subarray(0, nd);
   const pos = posAll.subarray(0, nd);
   const result: AxisResult = {
@@ -396,11 +410,9 @@ function analyzeAxis(
 
   // steps: two-sided CUSUM on the normalised settled increments
   const nAfter = d.length - settleInc;
-  const z = d.subarray(settleInc); // normalised in place: the raw corrections are not needed any more
-  normalizeInPlace(z, nAfter, med, scale);
   const h = cusumThresholdForArl(Math.max(nAfter, 2) / options.alpha, 0.5);
   result.h = h;
-  const changes = detectChanges(z, h, 0.5);
+  const changes = detectChangesScaled(d, settleInc, nAfter, med, scale, h, 0.5);
   const Wb = Math.min(200, Math.max(5, 2 * W));
   const bounds = changes.map((c) => ({ p0: pos[settleInc + c.onset] - 1, p1: pos[settleInc + c.end], c }));
   for (let k = 0; k < bounds.length; k++) {

@@ -117,43 +117,66 @@ export interface ChangePoint {
  * @param k reference value (scale units), usually 0.5
  */
 export function detectChanges(z: ArrayLike<number>, h: number, k: number): ChangePoint[] {
+  // (z - 0) / 1 is z exactly, so this is the same detector on the same values
+  return detectChangesScaled(z, 0, z.length, 0, 1, h, k);
+}
+
+/**
+ * {@link detectChanges} on z_i = (x[from + i] - center) / scale for i < n, standardised on the fly (no normalised
+ * copy, no pass of its own). Indices in the result are relative to `from`.
+ * @param x the raw series
+ * @param from first index of x used
+ * @param n number of values used
+ * @param center in-control centre, in the unit of x
+ * @param scale in-control scale, in the unit of x
+ * @param h decision interval (scale units)
+ * @param k reference value (scale units)
+ */
+export function detectChangesScaled(x: ArrayLike<number>, from: number, n: number, center: number, scale: number, h: number, k: number): ChangePoint[] {
   const out: ChangePoint[] = [];
-  const n = z.length;
   let sh = 0;
   let sl = 0;
   let nh = 0;
   let nl = 0;
   let i = 0;
   while (i < n) {
-    const v = z[i];
-    if (Number.isFinite(v)) {
+    const v = (x[from + i] - center) / scale;
+    if (v - v === 0) { // finite
       sh = Math.max(0, sh + v - k);
       sl = Math.max(0, sl - v - k);
       nh = sh > 0 ? nh + 1 : 0;
       nl = sl > 0 ? nl + 1 : 0;
     }
     if (sh > h || sl > h) {
-      const up = sh - h >= sl - h;
-      const direction: 1 | -1 = up ? 1 : -1;
-      const onset = i - (up ? nh : nl) + 1;
-      // follow the run to its peak
-      let s = up ? sh : sl;
-      let peak = s;
-      let end = i;
-      let j = i + 1;
-      for (; j < n; j++) {
-        const w = z[j];
-        if (!Number.isFinite(w)) continue;
-        s = Math.max(0, s + (up ? w : -w) - k);
-        if (s > peak) { peak = s; end = j; }
-        if (s === 0) break;
-      }
-      out.push({ onset, alarm: i, end, direction, peak });
+      const change = followChange(x, from, n, center, scale, h, k, i, sh, sl, nh, nl);
+      out.push(change);
       sh = 0; sl = 0; nh = 0; nl = 0;
-      i = end + 1;
+      i = change.end + 1;
       continue;
     }
     i++;
   }
   return out;
+}
+
+/** The change whose alarm was raised at i: its side, onset, and the peak of its sum (followed while positive). */
+function followChange(
+  x: ArrayLike<number>, from: number, n: number, center: number, scale: number, h: number, k: number,
+  i: number, sh: number, sl: number, nh: number, nl: number,
+): ChangePoint {
+  const up = sh - h >= sl - h;
+  const direction: 1 | -1 = up ? 1 : -1;
+  const onset = i - (up ? nh : nl) + 1;
+  // follow the run to its peak
+  let s = up ? sh : sl;
+  let peak = s;
+  let end = i;
+  for (let j = i + 1; j < n; j++) {
+    const w = (x[from + j] - center) / scale;
+    if (!(w - w === 0)) continue;
+    s = Math.max(0, s + (up ? w : -w) - k);
+    if (s > peak) { peak = s; end = j; }
+    if (s === 0) break;
+  }
+  return { onset, alarm: i, end, direction, peak };
 }
