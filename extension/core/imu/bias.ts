@@ -35,6 +35,7 @@ import type { ResolvedSpec } from './presets';
 import { fromSI } from './units';
 import { lazySeries } from '../lazySeries';
 import { medianInPlace } from '../stats/median';
+import { radixMedian } from '../stats/radixMedian';
 import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 
 /** Which bias. */
@@ -99,12 +100,6 @@ export function median(values: ArrayLike<number>): number {
   return medianInPlace(Float64Array.from(values));
 }
 
-/** Median of finite numbers, copied into `work` (at least as long) and selected there; NaN for empty. */
-function medianWith(values: Float64Array, work: Float64Array): number {
-  const n = values.length;
-  work.set(values);
-  return medianInPlace(work, n);
-}
 
 // The per-sample passes of an axis are small functions of their own, shared by the six axes: the engine optimises a
 // small function once and reuses it for every axis, while the loops of one long function ran mostly unoptimised on a
@@ -199,7 +194,7 @@ export function giveBackBiasScratch(s: BiasScratch): void {
 function madScale(values: ArrayLike<number>, center: number, work: Float64Array = new Float64Array(values.length)): number {
   const n = values.length;
   for (let i = 0; i < n; i++) work[i] = Math.abs(values[i] - center);
-  return 1.4826 * medianInPlace(work, n);
+  return 1.4826 * radixMedian(work, n);
 }
 
 /**
@@ -237,7 +232,7 @@ export function theilSenSlope(x: ArrayLike<number>, y: ArrayLike<number>): numbe
       if (dx !== 0) slopes[k++] = (y[j] - y[i]) / dx;
     }
   }
-  return medianInPlace(slopes, k);
+  return radixMedian(slopes, k);
 }
 
 /** One value in the unit people read (deg/h for gyro, ug for accel), as text. */
@@ -381,7 +376,7 @@ function analyzeAxis(
     return result;
   }
   const ref = d.subarray(d.length >> 1);
-  const med = medianWith(ref, work);
+  const med = radixMedian(ref);
   const scale = robustScale(ref, med, work);
   if (!(scale > 0)) {
     result.driftPerHour = driftRate(xs, ys, 0, work);
@@ -405,7 +400,7 @@ function analyzeAxis(
   const settlePos = pos[settleInc] - 1; // the sample before the first settled increment
   result.settleTime = xs[settlePos] - t0;
   // the block medians after settling serve both the drift rate and the drift check (computed once)
-  const blocks = xs.length - settlePos >= 3 ? blockMedians(xs, ys, settlePos, 200, work) : undefined;
+  const blocks = xs.length - settlePos >= 3 ? blockMedians(xs, ys, settlePos, 200) : undefined;
   result.driftPerHour = blocks ? theilSenSlope(blocks.bt, blocks.bv) * 3600 : NaN;
 
   // steps: two-sided CUSUM on the normalised settled increments
@@ -423,8 +418,8 @@ function analyzeAxis(
     const limit = k + 1 < bounds.length ? bounds[k + 1].p0 : idx.length - 1;
     const afterLo = Math.min(limit, p1 + 2 * (p1 - p0));
     const afterHi = Math.min(limit, afterLo + Wb);
-    const before = medianWith(ys.subarray(beforeLo, p0 + 1), work);
-    const after = medianWith(ys.subarray(afterLo, afterHi + 1), work);
+    const before = radixMedian(ys.subarray(beforeLo, p0 + 1));
+    const after = radixMedian(ys.subarray(afterLo, afterHi + 1));
     const size = after - before;
     // the step's time is the first sample that moved (p0 is the last one before the change)
     const first = Math.min(p0 + 1, p1);
@@ -469,7 +464,7 @@ function analyzeAxis(
 }
 
 /** Block medians of (x, y) over [start, end): at most `blocks` points (time = block mean, value = block median). */
-function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks: number, work: Float64Array): { bt: Float64Array; bv: Float64Array } {
+function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks: number): { bt: Float64Array; bv: Float64Array } {
   const count = xs.length - start;
   const nb = Math.max(1, Math.min(blocks, count));
   const size = count / nb;
@@ -481,7 +476,7 @@ function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks:
     let st = 0;
     for (let i = a; i < e; i++) st += xs[i];
     bt[b] = st / (e - a);
-    bv[b] = medianWith(ys.subarray(a, e), work);
+    bv[b] = radixMedian(ys.subarray(a, e));
   }
   return { bt, bv };
 }
@@ -489,7 +484,7 @@ function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks:
 /** Theil-Sen drift rate after `start`, SI units per hour (on at most 200 block medians). */
 function driftRate(xs: Float64Array, ys: Float64Array, start: number, work: Float64Array): number {
   if (xs.length - start < 3) return NaN;
-  const { bt, bv } = blockMedians(xs, ys, start, 200, work);
+  const { bt, bv } = blockMedians(xs, ys, start, 200);
   return theilSenSlope(bt, bv) * 3600;
 }
 
@@ -512,7 +507,7 @@ function driftCheck(
   // the estimate's own scatter: consecutive block medians differ by about sqrt(2) times their noise
   const diffs = new Float64Array(Math.max(0, bv.length - 1));
   for (let i = 1; i < bv.length; i++) diffs[i - 1] = bv[i] - bv[i - 1];
-  const scatter = diffs.length >= 5 ? madScale(diffs, medianWith(diffs, work), work) / Math.SQRT2 : 0;
+  const scatter = diffs.length >= 5 ? madScale(diffs, radixMedian(diffs), work) / Math.SQRT2 : 0;
   const sigma = Math.hypot(Number.isFinite(sigmaFinal) ? sigmaFinal : 0, scatter);
   const blockLen = span / Math.max(1, bt.length - 1);
   const at = (tq: number): number => {

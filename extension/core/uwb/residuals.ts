@@ -11,6 +11,7 @@
  *   wander slowly do not make a small offset look significant.
  */
 import { norm3, type Vec3_m } from './vec3';
+import { radixMedian } from '../stats/radixMedian';
 
 /** Scale from MAD to a Gaussian sigma, 1 / Phi^-1(3/4) (common practice). */
 export const MAD_TO_SIGMA = 1.482602218505602;
@@ -137,11 +138,10 @@ export function summarizeFiniteInPlace(finite: Float64Array, n: number): ValueSu
     out.meanSigma = out.std / Math.sqrt(nEff);
   }
   // Order no longer matters: select in place.
-  const view = finite.length === n ? finite : finite.subarray(0, n);
-  const med = medianInPlace(view);
+  const med = radixMedian(finite, n);
   out.median = med;
   for (let k = 0; k < n; k++) finite[k] = Math.abs(finite[k] - med);
-  out.mad = medianInPlace(view);
+  out.mad = radixMedian(finite, n);
   return out;
 }
 
