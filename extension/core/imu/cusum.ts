@@ -141,8 +141,11 @@ export function detectChangesScaled(x: ArrayLike<number>, from: number, n: numbe
   while (i < n) {
     const v = (x[from + i] - center) / scale;
     if (v - v === 0) { // finite
-      sh = positivePart(sh + v - k);
-      sl = positivePart(sl - v - k);
+      // positivePart written out: the first call runs unoptimised for a while, and a call per value costs there
+      const a = sh + v - k;
+      const b = sl - v - k;
+      sh = a < 8e307 ? (a + Math.abs(a)) * 0.5 : Math.max(0, a);
+      sl = b < 8e307 ? (b + Math.abs(b)) * 0.5 : Math.max(0, b);
     }
     if (sh > h || sl > h) {
       const change = followChange(x, from, n, center, scale, h, k, i, sh, sl, restart);

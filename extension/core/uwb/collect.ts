@@ -42,6 +42,8 @@ export function parsePairId(id: string): [string, string] | undefined {
 /** True when `channel` is a TDOA channel by the rule in the file comment. */
 export function isTdoaChannel(channel: Channel): boolean {
   if (channel.dof !== 1) return false;
+  // every interned id a pair: then so is every used one, and only whether any update names an id is left to find
+  if (channel.ids.length > 0 && channel.ids.every((id) => parsePairId(id) !== undefined)) return anyUsedId(channel);
   const used = usedIds(channel);
   return used.length > 0 && used.every((id) => parsePairId(id) !== undefined);
 }
@@ -51,6 +53,16 @@ export function isRangeChannel(channel: Channel): boolean {
   if (channel.dof !== 1 || !/range|twr/i.test(channel.name)) return false;
   const used = usedIds(channel);
   return used.length > 0 && used.every((id) => parsePairId(id) === undefined && id.trim() !== '');
+}
+
+/** True when some update names an interned id (stops at the first). */
+function anyUsedId(channel: Channel): boolean {
+  const nIds = channel.ids.length;
+  for (let k = 0; k < channel.length; k++) {
+    const v = channel.id[k];
+    if (v >= 0 && v < nIds && v === Math.floor(v)) return true;
+  }
+  return false;
 }
 
 /** The interned ids the channel's updates use (in interning order; callers only test every one). */
@@ -216,22 +228,13 @@ function singleChannelUpdates(
 ): UpdateColumns | undefined {
   const n = ch.length;
   if (ch.dof !== 1) return undefined;
-  for (let k = 0; k < n; k++) {
-    const idv = ch.id[k];
-    const r = ch.rejected[k];
-    if (!(Number.isInteger(idv) && idv >= 0 && idv < ch.ids.length) || (r !== 0 && r !== 1)) return undefined;
-  }
-  const linkOfId = linksOfIds(ch, kind, anchors, links);
+  // (links of every interned id first: the copying path, when this one gives up, finds the same anchors and links in
+  // the same order, as adding them is idempotent)
+  const linkOfId = Int32Array.from(linksOfIds(ch, kind, anchors, links));
   const nis = nisOf(ch);
+  if (nis.length < n) return undefined;
   const link = new Int32Array(n);
-  let ok = nis.length >= n;
-  for (let k = 0; k < n && ok; k++) {
-    const L = linkOfId[ch.id[k]];
-    if (L < 0) ok = false;
-    link[k] = L;
-  }
-  // (the copying path then finds the same anchors and links, in the same order: adding them is idempotent)
-  if (!ok) return undefined;
+  if (!linkEachUpdate(ch.id, ch.rejected, n, linkOfId, link)) return undefined;
   return {
     length: n,
     t_s: ch.t_s.subarray(0, n),
@@ -243,6 +246,23 @@ function singleChannelUpdates(
     rejected: ch.rejected.subarray(0, n),
     channels: [{ name: ch.name, file: ch.file, kind }],
   };
+}
+
+/**
+ * link[k] = linkOfId[id[k]] for every update, in one pass; false as soon as an update has no integer id in range, a
+ * rejection flag other than 0/1, or an id naming no link.
+ */
+function linkEachUpdate(id: Float64Array, rejected: Uint8Array, n: number, linkOfId: Int32Array, link: Int32Array): boolean {
+  const nIds = linkOfId.length;
+  for (let k = 0; k < n; k++) {
+    const idv = id[k];
+    const r = rejected[k];
+    if (!(idv >= 0 && idv < nIds && idv === Math.floor(idv)) || (r !== 0 && r !== 1)) return false;
+    const L = linkOfId[idv];
+    if (L < 0) return false;
+    link[k] = L;
+  }
+  return true;
 }
 
 /** Raw TDOA and range records (those with both anchor ids and a finite time). */
