@@ -20,8 +20,10 @@ const MIN_LENGTH = 4096;
 
 const BUCKETS = 65536;
 const counts = new Int32Array(BUCKETS);
-/** Index of the high word of a double in a Uint32Array view (1 on little-endian platforms). */
+/** Index of the high word of a double in a 32-bit view (1 on little-endian platforms). */
 const HIGH = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1 ? 1 : 0;
+/** The sign bit as a signed 32-bit value. */
+const SIGN = 1 << 31;
 
 /**
  * Median of a[0..n) (finite values, no NaN), `a` left as it is; NaN when n = 0.
@@ -37,7 +39,9 @@ export function radixMedian(a: Float64Array, n = a.length): number {
     giveBack(copy);
     return m;
   }
-  const words = new Uint32Array(a.buffer, a.byteOffset, 2 * n);
+  // a signed view: its elements are small integers to the engine even before the code is optimised (an unsigned
+  // word above 2^31 would be a boxed number per read)
+  const words = new Int32Array(a.buffer, a.byteOffset, 2 * n);
   histogram(words, n);
   const k = n >> 1; // the upper middle (rank k, 0-based)
   let bucket = 0;
@@ -60,19 +64,18 @@ export function radixMedian(a: Float64Array, n = a.length): number {
 }
 
 /** Bucket of a high word (sign-folded key, top 16 bits). */
-function bucketOf(high: number): number {
-  const h = high | 0;
-  return (h ^ ((h >> 31) | 0x80000000)) >>> 16;
+function bucketOf(h: number): number {
+  return (h ^ ((h >> 31) | SIGN)) >>> 16;
 }
 
 /** counts[b] = number of values in bucket b. */
-function histogram(words: Uint32Array, n: number): void {
+function histogram(words: Int32Array, n: number): void {
   counts.fill(0);
   for (let i = 0; i < n; i++) counts[bucketOf(words[2 * i + HIGH])]++;
 }
 
 /** The values of bucket `bucket`, in order, into buf. */
-function gather(a: Float64Array, words: Uint32Array, n: number, bucket: number, buf: Float64Array): void {
+function gather(a: Float64Array, words: Int32Array, n: number, bucket: number, buf: Float64Array): void {
   let m = 0;
   for (let i = 0; i < n; i++) if (bucketOf(words[2 * i + HIGH]) === bucket) buf[m++] = a[i];
 }
@@ -81,7 +84,7 @@ function gather(a: Float64Array, words: Uint32Array, n: number, bucket: number, 
  * Largest value in the buckets below `bucket` (the median's lower middle when it is the first of its bucket): the
  * largest of the nearest non-empty bucket below (a pass whose test is rarely true, so predictable).
  */
-function largestBelow(a: Float64Array, words: Uint32Array, n: number, bucket: number): number {
+function largestBelow(a: Float64Array, words: Int32Array, n: number, bucket: number): number {
   let below = bucket - 1;
   while (below >= 0 && counts[below] === 0) below--;
   let best = -Infinity;

@@ -331,16 +331,21 @@ export function groupByLink(link: Int32Array, t_s: Float64Array, length: number,
   for (let L = 0; L < nLinks; L++) start[L + 1] += start[L];
   const order = new Int32Array(start[nLinks]);
   const fill = start.slice(0, nLinks);
+  // time order of each link checked while placing (last time placed per link): no second pass
+  const lastT = new Float64Array(nLinks).fill(-Infinity);
+  const unsorted = new Uint8Array(nLinks);
   for (let k = 0; k < length; k++) {
     const L = link[k];
-    if (L >= 0) order[fill[L]++] = k;
+    if (L < 0) continue;
+    order[fill[L]++] = k;
+    const t = t_s[k];
+    if (t < lastT[L]) unsorted[L] = 1;
+    lastT[L] = t;
   }
   const lists: Int32Array[] = [];
   for (let L = 0; L < nLinks; L++) {
     const list = order.subarray(start[L], start[L + 1]);
-    let sorted = true;
-    for (let k = 1; k < list.length; k++) if (t_s[list[k]] < t_s[list[k - 1]]) { sorted = false; break; }
-    if (!sorted) list.sort((x, y) => t_s[x] - t_s[y] || x - y);
+    if (unsorted[L]) list.sort((x, y) => t_s[x] - t_s[y] || x - y);
     lists.push(list);
   }
   return { order, start, lists };
