@@ -224,7 +224,7 @@ export function robustScale(values: ArrayLike<number>, center: number, work?: Fl
 
 /** Theil-Sen slope of (x, y) points (median of pairwise slopes). */
 export function theilSenSlope(x: ArrayLike<number>, y: ArrayLike<number>): number {
-  const slopes = new Float64Array((x.length * (x.length - 1)) / 2);
+  const slopes = takeFloat64((x.length * (x.length - 1)) / 2); // work column (selection does not keep it)
   let k = 0;
   for (let i = 0; i < x.length; i++) {
     for (let j = i + 1; j < x.length; j++) {
@@ -232,7 +232,9 @@ export function theilSenSlope(x: ArrayLike<number>, y: ArrayLike<number>): numbe
       if (dx !== 0) slopes[k++] = (y[j] - y[i]) / dx;
     }
   }
-  return radixMedian(slopes, k);
+  const slope = radixMedian(slopes, k);
+  giveBack(slopes);
+  return slope;
 }
 
 /** One value in the unit people read (deg/h for gyro, ug for accel), as text. */
