@@ -130,9 +130,7 @@ function usableSamples(
     if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { // finite, time increasing
       if (count > 0) {
         if (ci === lastC) zeros++;
-        const v = ci - lastC;
-        const r = dtMedian > 0 ? Math.max(1, (ti - lastT) / dtMedian) : 1;
-        d[nd] = r > 1 ? v / Math.sqrt(r) : v;
+        d[nd] = gapScaled(ci - lastC, ti - lastT, dtMedian);
         pos[nd++] = count;
       }
       idx[count++] = i;
@@ -143,6 +141,21 @@ function usableSamples(
   scanZeros = zeros;
   scanCorrections = nd;
   return count;
+}
+
+/**
+ * An increment v over a time step dt, divided by sqrt(dt / dtMedian) when the step is longer than the median one:
+ * v / sqrt(max(1, dt / dtMedian)), v itself when dtMedian is not positive. Written without branches on the ratio
+ * (max(1, q) = 1 + (e + |e|) / 2 with e = q - 1, exact for q < 2^53; v / sqrt(1) is v): time steps of a regular log
+ * scatter in the last bits around the median, so a test of the ratio against 1 was a coin flip the processor
+ * mispredicted, and the scan took twice as long (measured).
+ */
+function gapScaled(v: number, dt: number, dtMedian: number): number {
+  if (!(dtMedian > 0)) return v;
+  const q = dt / dtMedian;
+  const e = q - 1;
+  const r = q < 9e15 ? 1 + (e + Math.abs(e)) * 0.5 : Math.max(1, q);
+  return v / Math.sqrt(r);
 }
 
 /** Median of the time steps xs[j] - xs[j-1] taken at a stride giving at most about 20000 of them (selected in `work`). */
@@ -164,8 +177,7 @@ function corrections(
   for (let j = 1; j < count; j++) {
     const v = ys[j] - ys[j - 1];
     if (dropZeros && v === 0) continue;
-    const r = dtMedian > 0 ? Math.max(1, (xs[j] - xs[j - 1]) / dtMedian) : 1;
-    d[nd] = r > 1 ? v / Math.sqrt(r) : v;
+    d[nd] = gapScaled(v, xs[j] - xs[j - 1], dtMedian);
     pos[nd++] = j;
   }
   return nd;
