@@ -27,6 +27,15 @@ describe('radixMedian (histogram of top bits, then selection in one bucket)', ()
     }
   });
 
+  it('equals the sorted median on short blocks of close values (one slowly moving estimate), either sign', () => {
+    const rnd = lcg(5);
+    for (const [n, base, spread] of [[64, 0.0075, 1e-6], [1250, 0.0075, 1e-6], [1251, -0.31, 1e-5], [2000, 0, 1e-3], [999, -2e-6, 1e-6]]) {
+      const v = new Float64Array(n);
+      for (let i = 0; i < n; i++) v[i] = base + Math.round((rnd() - 0.5) * 100) * spread;
+      expect(radixMedian(v)).toBe(sortedMedian(v));
+    }
+  });
+
   it('handles ties, one repeated value and a prefix length', () => {
     const rnd = lcg(11);
     const v = new Float64Array(50000);
