@@ -130,7 +130,14 @@ function usableSamples(
     if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { // finite, time increasing
       if (count > 0) {
         if (ci === lastC) zeros++;
-        d[nd] = gapScaled(ci - lastC, ti - lastT, dtMedian);
+        // gapScaled(ci - lastC, ti - lastT, dtMedian) written out: until the engine optimises this loop (on the first
+        // axis) every call costs far more than its arithmetic
+        const v = ci - lastC;
+        if (dtMedian > 0) {
+          const q = (ti - lastT) / dtMedian;
+          const e = q - 1;
+          d[nd] = v / Math.sqrt(q < 9e15 ? 1 + (e + Math.abs(e)) * 0.5 : Math.max(1, q));
+        } else d[nd] = v;
         pos[nd++] = count;
       }
       idx[count++] = i;

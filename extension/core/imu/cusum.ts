@@ -141,7 +141,7 @@ export function detectChangesScaled(x: ArrayLike<number>, from: number, n: numbe
   while (i < n) {
     const v = (x[from + i] - center) / scale;
     if (v - v === 0) { // finite
-      // positivePart written out: the first call runs unoptimised for a while, and a call per value costs there
+      // positivePart (below) written out: the first call runs unoptimised for a while, and a call per value costs there
       const a = sh + v - k;
       const b = sl - v - k;
       sh = a < 8e307 ? (a + Math.abs(a)) * 0.5 : Math.max(0, a);
@@ -182,8 +182,11 @@ function runLengths(x: ArrayLike<number>, from: number, center: number, scale: n
   for (let j = restart; j <= i; j++) {
     const v = (x[from + j] - center) / scale;
     if (v - v === 0) {
-      sh = positivePart(sh + v - k);
-      sl = positivePart(sl - v - k);
+      // positivePart written out (this runs once per alarm, mostly before the engine optimises it: calls cost there)
+      const a = sh + v - k;
+      const b = sl - v - k;
+      sh = a < 8e307 ? (a + Math.abs(a)) * 0.5 : Math.max(0, a);
+      sl = b < 8e307 ? (b + Math.abs(b)) * 0.5 : Math.max(0, b);
       nh = sh > 0 ? nh + 1 : 0;
       nl = sl > 0 ? nl + 1 : 0;
     }
@@ -207,7 +210,7 @@ function followChange(
   for (let j = i + 1; j < n; j++) {
     const w = (x[from + j] - center) / scale;
     if (!(w - w === 0)) continue;
-    s = Math.max(0, s + (up ? w : -w) - k);
+    s = positivePart(s + (up ? w : -w) - k);
     if (s > peak) { peak = s; end = j; }
     if (s === 0) break;
   }
