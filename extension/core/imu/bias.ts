@@ -111,14 +111,13 @@ let scanZeros = 0;
 let scanCorrections = 0;
 
 /**
- * Indices of the usable samples (finite value and time, time increasing) into `idx`; returns their count and leaves
- * the number of usable samples equal to the one before in `scanZeros`. In the same pass, the corrections (see
- * {@link corrections}, zeros kept) with the median step `dtMedian` go to `d` and `pos`, their count to
- * `scanCorrections`: the same values as {@link corrections} gives afterwards with that median step.
+ * Count of the usable samples (finite value and time, time increasing); leaves the number of usable samples equal to
+ * the one before in `scanZeros`. In the same pass, the corrections (see {@link corrections}, zeros kept) with the
+ * median step `dtMedian` go to `d` (correction j ends at usable sample j + 1), their count to `scanCorrections`: the
+ * same values as {@link corrections} gives afterwards with that median step. No index column is written: when every
+ * record is usable (the usual case) the indices are the identity, and otherwise {@link usableIndices} makes them.
  */
-function usableSamples(
-  t: Float64Array, col: Float64Array, n: number, idx: Int32Array, dtMedian: number, d: Float64Array, pos: Int32Array,
-): number {
+function usableSamples(t: Float64Array, col: Float64Array, n: number, dtMedian: number, d: Float64Array): number {
   let count = 0;
   let zeros = 0;
   let nd = 0;
@@ -136,17 +135,28 @@ function usableSamples(
         if (dtMedian > 0) {
           const q = (ti - lastT) / dtMedian;
           const e = q - 1;
-          d[nd] = v / Math.sqrt(q < 9e15 ? 1 + (e + Math.abs(e)) * 0.5 : Math.max(1, q));
-        } else d[nd] = v;
-        pos[nd++] = count;
+          d[nd++] = v / Math.sqrt(q < 9e15 ? 1 + (e + Math.abs(e)) * 0.5 : Math.max(1, q));
+        } else d[nd++] = v;
       }
-      idx[count++] = i;
+      count++;
       lastT = ti;
       lastC = ci;
     }
   }
   scanZeros = zeros;
   scanCorrections = nd;
+  return count;
+}
+
+/** Indices of the usable samples (as {@link usableSamples} counts them) into `idx`; returns their count. */
+function usableIndices(t: Float64Array, col: Float64Array, n: number, idx: Int32Array): number {
+  let count = 0;
+  let lastT = -Infinity;
+  for (let i = 0; i < n; i++) {
+    const ti = t[i];
+    const ci = col[i];
+    if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { idx[count++] = i; lastT = ti; }
+  }
   return count;
 }
 
@@ -191,17 +201,26 @@ function corrections(
 }
 
 
-/** Work columns of one axis's analysis, shared by the axes and sensors of a log (each at least the stream's length). */
+/**
+ * Work columns of one axis's analysis, shared by the axes and sensors of a log (each at least the stream's length).
+ * The index columns are taken only when needed (a log with unusable records, or repeated values left out).
+ */
 export interface BiasScratch {
-  idx: Int32Array;
+  n: number;
   d: Float64Array;
-  pos: Int32Array;
   work: Float64Array;
+  idx?: Int32Array;
+  pos?: Int32Array;
 }
 
 /** Work columns for a state stream of `n` records, from the shared pool (scratch.ts): give them back with {@link giveBackBiasScratch}. */
 export function biasScratch(n: number): BiasScratch {
-  return { idx: takeInt32(n), d: takeFloat64(n), pos: takeInt32(n), work: takeFloat64(n) };
+  return { n, d: takeFloat64(n), work: takeFloat64(n) };
+}
+
+/** The scratch's index column `which`, taken from the pool on first use. */
+function indexColumn(s: BiasScratch, which: 'idx' | 'pos'): Int32Array {
+  return (s[which] ??= takeInt32(s.n));
 }
 
 /** Return the work columns of {@link biasScratch} to the shared pool. */
@@ -336,17 +355,18 @@ function analyzeAxis(
   // The corrections need the median time step of the usable samples; when every record is usable (the usual case)
   // that is the median step of the time column, so it is taken first and the corrections made in the same pass
   // (checked below: otherwise they are made again).
-  const idxAll = scratch.idx;
   const dAll = scratch.d;
-  const posAll = scratch.pos;
   const dtAll = sampledStepMedian(t, n, work);
-  const count = usableSamples(t, col, n, idxAll, dtAll, dAll, posAll);
+  const count = usableSamples(t, col, n, dtAll, dAll);
   const zeros = scanZeros;
   if (count < 2) return undefined;
-  const idx = idxAll.subarray(0, count);
-  const t0 = t[0] <= t[idx[0]] && Number.isFinite(t[0]) ? t[0] : t[idx[0]];
-  const first = col[idx[0]];
-  const last = col[idx[idx.length - 1]];
+  // indices of the usable records: the identity when every record is usable (no column then)
+  const idx = count === n ? undefined : indexColumn(scratch, 'idx').subarray(0, usableIndices(t, col, n, indexColumn(scratch, 'idx')));
+  const iFirst = idx ? idx[0] : 0;
+  const iLast = idx ? idx[count - 1] : n - 1;
+  const t0 = t[0] <= t[iFirst] && Number.isFinite(t[0]) ? t[0] : t[iFirst];
+  const first = col[iFirst];
+  const last = col[iLast];
   let sigmaFinal = NaN;
   if (sigmaCol) for (let i = n - 1; i >= 0; i--) if (Number.isFinite(sigmaCol[i])) { sigmaFinal = sigmaCol[i]; break; }
 
@@ -356,7 +376,7 @@ function analyzeAxis(
   let xs: Float64Array;
   let ys: Float64Array;
   let ls: Float64Array;
-  if (count === n) {
+  if (!idx) {
     xs = t.subarray(0, n); ys = col.subarray(0, n); ls = state.line.subarray(0, n);
   } else {
     xs = new Float64Array(count); ys = new Float64Array(count); ls = new Float64Array(count);
@@ -365,7 +385,7 @@ function analyzeAxis(
   // the +-3 sigma band is made when the series is first read (lazySeries.ts), lo and hi together
   // (the index column is scratch, reused by the next axis: the band keeps its own copy unless it is the identity)
   let band: { lo: Float64Array; hi: Float64Array } | undefined;
-  const bandIdx = sigmaCol && count < n ? idx.slice() : undefined;
+  const bandIdx = sigmaCol && idx ? idx.slice() : undefined;
   const makeBand = (sig: Float64Array): { lo: Float64Array; hi: Float64Array } => {
     if (band) return band;
     const lo = new Float64Array(count);
@@ -386,9 +406,14 @@ function analyzeAxis(
   // a random-walk-like estimate moves by sqrt(time) over a gap.
   const dropZeros = zeros >= 0.3 * (count - 1);
   let nd = scanCorrections;
-  if (count !== n || dropZeros) nd = corrections(xs, ys, count, dropZeros, count === n ? dtAll : sampledStepMedian(xs, count, work), dAll, posAll);
+  // the usable sample each correction ends at: j + 1 for the scan's corrections, a column when they are made again
+  let posCol: Int32Array | undefined;
+  if (count !== n || dropZeros) {
+    posCol = indexColumn(scratch, 'pos');
+    nd = corrections(xs, ys, count, dropZeros, count === n ? dtAll : sampledStepMedian(xs, count, work), dAll, posCol);
+  }
   const d = dAll.subarray(0, nd);
-  const pos = posAll.subarray(0, nd);
+  const pos = (j: number): number => (posCol ? posCol[j] : j + 1);
   const result: AxisResult = {
     final: last, totalChange: last - first, driftPerHour: NaN, settleTime: xs[0] - t0, sigmaFinal, steps: [], h: NaN, series,
   };
@@ -418,7 +443,7 @@ function analyzeAxis(
     if (settledWindow(st) && settledWindow(st + W)) { settleInc = st; break; }
   }
   if (settleInc < 0) settleInc = d.length >> 1;
-  const settlePos = pos[settleInc] - 1; // the sample before the first settled increment
+  const settlePos = pos(settleInc) - 1; // the sample before the first settled increment
   result.settleTime = xs[settlePos] - t0;
   // the block medians after settling serve both the drift rate and the drift check (computed once)
   const blocks = xs.length - settlePos >= 3 ? blockMedians(xs, ys, settlePos, 200) : undefined;
@@ -430,13 +455,13 @@ function analyzeAxis(
   result.h = h;
   const changes = detectChangesScaled(d, settleInc, nAfter, med, scale, h, 0.5);
   const Wb = Math.min(200, Math.max(5, 2 * W));
-  const bounds = changes.map((c) => ({ p0: pos[settleInc + c.onset] - 1, p1: pos[settleInc + c.end], c }));
+  const bounds = changes.map((c) => ({ p0: pos(settleInc + c.onset) - 1, p1: pos(settleInc + c.end), c }));
   for (let k = 0; k < bounds.length; k++) {
     const { p0, p1, c } = bounds[k];
     // level before: the Wb samples up to the onset; level after: Wb samples starting two step-durations after the
     // detected end (the estimate is still converging to the new level when the sum peaks), both clipped by neighbours
     const beforeLo = Math.max(k > 0 ? bounds[k - 1].p1 : settlePos, p0 - Wb);
-    const limit = k + 1 < bounds.length ? bounds[k + 1].p0 : idx.length - 1;
+    const limit = k + 1 < bounds.length ? bounds[k + 1].p0 : count - 1;
     const afterLo = Math.min(limit, p1 + 2 * (p1 - p0));
     const afterHi = Math.min(limit, afterLo + Wb);
     const before = radixMedian(ys.subarray(beforeLo, p0 + 1));
