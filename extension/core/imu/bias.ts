@@ -249,15 +249,30 @@ export function robustScale(values: ArrayLike<number>, center: number, work?: Fl
   }
   if (!(s > 0)) return 0;
   for (let it = 0; it < 2; it++) {
-    let ss = 0;
-    let c = 0;
-    for (let i = 0; i < values.length; i++) {
-      const v = values[i] - center;
-      if (Math.abs(v) <= 5 * s) { ss += v * v; c++; }
-    }
+    const ss = sumSquaresWithin(values, center, 5 * s);
+    const c = withinCount;
     if (c > 0 && ss > 0) s = Math.sqrt(ss / c);
   }
   return s;
+}
+
+/** Values counted by the last {@link sumSquaresWithin} call. */
+let withinCount = 0;
+
+/**
+ * Sum of (v - center)^2 over the values with |v - center| <= limit (their count to `withinCount`). A function of its
+ * own so that both passes of {@link robustScale} run the one optimised loop (a loop inside the iteration was dropped
+ * back to unoptimised code after its first pass).
+ */
+function sumSquaresWithin(values: ArrayLike<number>, center: number, limit: number): number {
+  let ss = 0;
+  let c = 0;
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i] - center;
+    if (Math.abs(v) <= limit) { ss += v * v; c++; }
+  }
+  withinCount = c;
+  return ss;
 }
 
 /** Theil-Sen slope of (x, y) points (median of pairwise slopes). */
@@ -519,12 +534,17 @@ function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks:
   for (let b = 0; b < nb; b++) {
     const a = start + Math.floor(b * size);
     const e = Math.max(a + 1, start + Math.floor((b + 1) * size));
-    let st = 0;
-    for (let i = a; i < e; i++) st += xs[i];
-    bt[b] = st / (e - a);
+    bt[b] = rangeSum(xs, a, e) / (e - a);
     bv[b] = radixMedian(ys.subarray(a, e));
   }
   return { bt, bv };
+}
+
+/** xs[a] + ... + xs[e - 1], in that order (a function of its own: called per block, optimised once). */
+function rangeSum(xs: Float64Array, a: number, e: number): number {
+  let st = 0;
+  for (let i = a; i < e; i++) st += xs[i];
+  return st;
 }
 
 /** Theil-Sen drift rate after `start`, SI units per hour (on at most 200 block medians). */
