@@ -136,23 +136,32 @@ export function detectChangesScaled(x: ArrayLike<number>, from: number, n: numbe
   const out: ChangePoint[] = [];
   let sh = 0;
   let sl = 0;
-  let restart = 0; // where both sums last started from zero
+  // Where each sum was last seen at zero (checked every 4096 values, and at each restart): its run length at an
+  // alarm is then recounted from there, not from the restart (a zero sum means a zero run length, so the recount is
+  // exact).
+  let zeroH = 0;
+  let zeroL = 0;
   let i = 0;
   while (i < n) {
+    if ((i & 4095) === 0) {
+      if (sh === 0) zeroH = i;
+      if (sl === 0) zeroL = i;
+    }
     const v = (x[from + i] - center) / scale;
     if (v - v === 0) { // finite
-      // positivePart (below) written out: the first call runs unoptimised for a while, and a call per value costs there
+      // the positive part (see the note below detectChangesScaled)
       const a = sh + v - k;
       const b = sl - v - k;
       sh = a < 8e307 ? (a + Math.abs(a)) * 0.5 : Math.max(0, a);
       sl = b < 8e307 ? (b + Math.abs(b)) * 0.5 : Math.max(0, b);
     }
     if (sh > h || sl > h) {
-      const change = followChange(x, from, n, center, scale, h, k, i, sh, sl, restart);
+      const change = followChange(x, from, n, center, scale, h, k, i, sh, sl, zeroH, zeroL);
       out.push(change);
       sh = 0; sl = 0;
       i = change.end + 1;
-      restart = i;
+      zeroH = i;
+      zeroL = i;
       continue;
     }
     i++;
@@ -160,29 +169,27 @@ export function detectChangesScaled(x: ArrayLike<number>, from: number, n: numbe
   return out;
 }
 
-/**
- * max(0, a), without a branch: (a + |a|) / 2 is exactly a for 0 < a < 2^1023 and +0 for a <= 0 (NaN stays NaN);
- * Math.max only for the (never met) larger values. Branchless because the sign of a CUSUM step is a coin flip on
- * in-control data: the branch of Math.max mispredicted half the time and made the pass 3x slower (measured).
- */
-function positivePart(a: number): number {
-  return a < 8e307 ? (a + Math.abs(a)) * 0.5 : Math.max(0, a);
-}
+// The positive part max(0, a), written out where the sums are updated, without a branch: (a + |a|) / 2 is exactly a
+// for 0 < a < 2^1023 and +0 for a <= 0 (NaN stays NaN); Math.max only for the (never met) larger values. Branchless
+// because the sign of a CUSUM step is a coin flip on in-control data: the branch of Math.max was mispredicted half
+// the time and made the pass 3x slower (measured); written out because the first call runs unoptimised for a while
+// and a call per value costs more there than the arithmetic.
 
 /**
  * Lengths of the current runs of positive upper and lower sums at index i (steps with a finite value whose sum
- * stayed above zero), found by running the sums again from `restart`: needed only at an alarm, so the main pass
- * keeps no counters.
+ * stayed above zero), found by running the sums again from `start`, a place where the sum in question was zero (or
+ * the restart): needed only at an alarm, so the main pass keeps no counters. Only the side that starts at zero at
+ * `start` is exact.
  */
-function runLengths(x: ArrayLike<number>, from: number, center: number, scale: number, k: number, restart: number, i: number): [number, number] {
+function runLengths(x: ArrayLike<number>, from: number, center: number, scale: number, k: number, start: number, i: number): [number, number] {
   let sh = 0;
   let sl = 0;
   let nh = 0;
   let nl = 0;
-  for (let j = restart; j <= i; j++) {
+  for (let j = start; j <= i; j++) {
     const v = (x[from + j] - center) / scale;
     if (v - v === 0) {
-      // positivePart written out (this runs once per alarm, mostly before the engine optimises it: calls cost there)
+      // the positive part (see the note below detectChangesScaled)
       const a = sh + v - k;
       const b = sl - v - k;
       sh = a < 8e307 ? (a + Math.abs(a)) * 0.5 : Math.max(0, a);
@@ -197,12 +204,11 @@ function runLengths(x: ArrayLike<number>, from: number, center: number, scale: n
 /** The change whose alarm was raised at i: its side, onset, and the peak of its sum (followed while positive). */
 function followChange(
   x: ArrayLike<number>, from: number, n: number, center: number, scale: number, h: number, k: number,
-  i: number, sh: number, sl: number, restart: number,
+  i: number, sh: number, sl: number, zeroH: number, zeroL: number,
 ): ChangePoint {
   const up = sh - h >= sl - h;
   const direction: 1 | -1 = up ? 1 : -1;
-  const [nh, nl] = runLengths(x, from, center, scale, k, restart, i);
-  const onset = i - (up ? nh : nl) + 1;
+  const onset = i - (up ? runLengths(x, from, center, scale, k, zeroH, i)[0] : runLengths(x, from, center, scale, k, zeroL, i)[1]) + 1;
   // follow the run to its peak
   let s = up ? sh : sl;
   let peak = s;
@@ -210,7 +216,8 @@ function followChange(
   for (let j = i + 1; j < n; j++) {
     const w = (x[from + j] - center) / scale;
     if (!(w - w === 0)) continue;
-    s = positivePart(s + (up ? w : -w) - k);
+    const a = s + (up ? w : -w) - k;
+    s = a < 8e307 ? (a + Math.abs(a)) * 0.5 : Math.max(0, a); // the positive part (note below detectChangesScaled)
     if (s > peak) { peak = s; end = j; }
     if (s === 0) break;
   }
