@@ -461,7 +461,7 @@ function analyzeAxis(
   const settlePos = pos(settleInc) - 1; // the sample before the first settled increment
   result.settleTime = xs[settlePos] - t0;
   // the block medians after settling serve both the drift rate and the drift check (computed once)
-  const blocks = xs.length - settlePos >= 3 ? blockMedians(xs, ys, settlePos, 200) : undefined;
+  const blocks = xs.length - settlePos >= 3 ? blockMedians(xs, ys, settlePos, 200, work) : undefined;
   result.driftPerHour = blocks ? theilSenSlope(blocks.bt, blocks.bv) * 3600 : NaN;
 
   // steps: two-sided CUSUM on the normalised settled increments
@@ -525,7 +525,7 @@ function analyzeAxis(
 }
 
 /** Block medians of (x, y) over [start, end): at most `blocks` points (time = block mean, value = block median). */
-function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks: number): { bt: Float64Array; bv: Float64Array } {
+function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks: number, work: Float64Array): { bt: Float64Array; bv: Float64Array } {
   const count = xs.length - start;
   const nb = Math.max(1, Math.min(blocks, count));
   const size = count / nb;
@@ -535,7 +535,9 @@ function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks:
     const a = start + Math.floor(b * size);
     const e = Math.max(a + 1, start + Math.floor((b + 1) * size));
     bt[b] = rangeSum(xs, a, e) / (e - a);
-    bv[b] = radixMedian(ys.subarray(a, e));
+    // blocks are short: plain selection on a copy in the axis's work column (one column for all blocks)
+    work.set(ys.subarray(a, e));
+    bv[b] = medianInPlace(work, e - a);
   }
   return { bt, bv };
 }
@@ -550,7 +552,7 @@ function rangeSum(xs: Float64Array, a: number, e: number): number {
 /** Theil-Sen drift rate after `start`, SI units per hour (on at most 200 block medians). */
 function driftRate(xs: Float64Array, ys: Float64Array, start: number, work: Float64Array): number {
   if (xs.length - start < 3) return NaN;
-  const { bt, bv } = blockMedians(xs, ys, start, 200);
+  const { bt, bv } = blockMedians(xs, ys, start, 200, work);
   return theilSenSlope(bt, bv) * 3600;
 }
 
