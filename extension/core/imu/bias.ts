@@ -29,12 +29,13 @@ import type { NavLog, StateStream } from '../model';
 import type { Finding } from '../report';
 import type { Series } from '../series';
 import { quatLog, quatMultiply, quatConjugate } from '../geometry/quat';
-import { cusumThresholdForArl, detectChanges } from './cusum';
+import { cusumThresholdForArl, detectChangesScaled } from './cusum';
 import { BIAS_INSTABILITY_FACTOR } from './noiseFigures';
 import type { ResolvedSpec } from './presets';
 import { fromSI } from './units';
 import { lazySeries } from '../lazySeries';
 import { medianInPlace } from '../stats/median';
+import { radixMedian } from '../stats/radixMedian';
 import { giveBack, takeFloat64, takeInt32 } from '../scratch';
 
 /** Which bias. */
@@ -99,24 +100,127 @@ export function median(values: ArrayLike<number>): number {
   return medianInPlace(Float64Array.from(values));
 }
 
-/** Median of finite numbers, copied into `work` (at least as long) and selected there; NaN for empty. */
-function medianWith(values: Float64Array, work: Float64Array): number {
-  const n = values.length;
-  work.set(values);
-  return medianInPlace(work, n);
+
+// The per-sample passes of an axis are small functions of their own, shared by the six axes: the engine optimises a
+// small function once and reuses it for every axis, while the loops of one long function ran mostly unoptimised on a
+// cold start (each loop compiled on its own, then dropped at the first line after it not yet run): about 3x the time.
+
+/** Repeated values between consecutive usable samples, counted by the last {@link usableSamples} call. */
+let scanZeros = 0;
+/** Corrections written by the last {@link usableSamples} call. */
+let scanCorrections = 0;
+
+/**
+ * Count of the usable samples (finite value and time, time increasing); leaves the number of usable samples equal to
+ * the one before in `scanZeros`. In the same pass, the corrections (see {@link corrections}, zeros kept) with the
+ * median step `dtMedian` go to `d` (correction j ends at usable sample j + 1), their count to `scanCorrections`: the
+ * same values as {@link corrections} gives afterwards with that median step. No index column is written: when every
+ * record is usable (the usual case) the indices are the identity, and otherwise {@link usableIndices} makes them.
+ */
+function usableSamples(t: Float64Array, col: Float64Array, n: number, dtMedian: number, d: Float64Array): number {
+  let count = 0;
+  let zeros = 0;
+  let nd = 0;
+  let lastT = -Infinity;
+  let lastC = NaN;
+  for (let i = 0; i < n; i++) {
+    const ti = t[i];
+    const ci = col[i];
+    if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { // finite, time increasing
+      if (count > 0) {
+        if (ci === lastC) zeros++;
+        // gapScaled(ci - lastC, ti - lastT, dtMedian) written out: until the engine optimises this loop (on the first
+        // axis) every call costs far more than its arithmetic
+        const v = ci - lastC;
+        if (dtMedian > 0) {
+          const q = (ti - lastT) / dtMedian;
+          const e = q - 1;
+          d[nd++] = v / Math.sqrt(q < 9e15 ? 1 + (e + Math.abs(e)) * 0.5 : Math.max(1, q));
+        } else d[nd++] = v;
+      }
+      count++;
+      lastT = ti;
+      lastC = ci;
+    }
+  }
+  scanZeros = zeros;
+  scanCorrections = nd;
+  return count;
 }
 
-/** Work columns of one axis's analysis, shared by the axes and sensors of a log (each at least the stream's length). */
+/** Indices of the usable samples (as {@link usableSamples} counts them) into `idx`; returns their count. */
+function usableIndices(t: Float64Array, col: Float64Array, n: number, idx: Int32Array): number {
+  let count = 0;
+  let lastT = -Infinity;
+  for (let i = 0; i < n; i++) {
+    const ti = t[i];
+    const ci = col[i];
+    if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { idx[count++] = i; lastT = ti; }
+  }
+  return count;
+}
+
+/**
+ * An increment v over a time step dt, divided by sqrt(dt / dtMedian) when the step is longer than the median one:
+ * v / sqrt(max(1, dt / dtMedian)), v itself when dtMedian is not positive. Written without branches on the ratio
+ * (max(1, q) = 1 + (e + |e|) / 2 with e = q - 1, exact for q < 2^53; v / sqrt(1) is v): time steps of a regular log
+ * scatter in the last bits around the median, so a test of the ratio against 1 was a coin flip the processor
+ * mispredicted, and the scan took twice as long (measured).
+ */
+function gapScaled(v: number, dt: number, dtMedian: number): number {
+  if (!(dtMedian > 0)) return v;
+  const q = dt / dtMedian;
+  const e = q - 1;
+  const r = q < 9e15 ? 1 + (e + Math.abs(e)) * 0.5 : Math.max(1, q);
+  return v / Math.sqrt(r);
+}
+
+/** Median of the time steps xs[j] - xs[j-1] taken at a stride giving at most about 20000 of them (selected in `work`). */
+function sampledStepMedian(xs: Float64Array, count: number, work: Float64Array): number {
+  const stride = Math.max(1, Math.floor(count / 20000));
+  let m = 0;
+  for (let j = 1; j < count; j += stride) work[m++] = xs[j] - xs[j - 1];
+  return medianInPlace(work, m);
+}
+
+/**
+ * The corrections (module comment): increments of ys, exact zeros left out when `dropZeros`, divided by
+ * sqrt(step / median step) over long steps; `pos` gets the index of each increment's end sample. Returns their count.
+ */
+function corrections(
+  xs: Float64Array, ys: Float64Array, count: number, dropZeros: boolean, dtMedian: number, d: Float64Array, pos: Int32Array,
+): number {
+  let nd = 0;
+  for (let j = 1; j < count; j++) {
+    const v = ys[j] - ys[j - 1];
+    if (dropZeros && v === 0) continue;
+    d[nd] = gapScaled(v, xs[j] - xs[j - 1], dtMedian);
+    pos[nd++] = j;
+  }
+  return nd;
+}
+
+
+/**
+ * Work columns of one axis's analysis, shared by the axes and sensors of a log (each at least the stream's length).
+ * The index columns are taken only when needed (a log with unusable records, or repeated values left out).
+ */
 export interface BiasScratch {
-  idx: Int32Array;
+  n: number;
   d: Float64Array;
-  pos: Int32Array;
   work: Float64Array;
+  idx?: Int32Array;
+  pos?: Int32Array;
 }
 
 /** Work columns for a state stream of `n` records, from the shared pool (scratch.ts): give them back with {@link giveBackBiasScratch}. */
 export function biasScratch(n: number): BiasScratch {
-  return { idx: takeInt32(n), d: takeFloat64(n), pos: takeInt32(n), work: takeFloat64(n) };
+  return { n, d: takeFloat64(n), work: takeFloat64(n) };
+}
+
+/** The scratch's index column `which`, taken from the pool on first use. */
+function indexColumn(s: BiasScratch, which: 'idx' | 'pos'): Int32Array {
+  return (s[which] ??= takeInt32(s.n));
 }
 
 /** Return the work columns of {@link biasScratch} to the shared pool. */
@@ -128,7 +232,7 @@ export function giveBackBiasScratch(s: BiasScratch): void {
 function madScale(values: ArrayLike<number>, center: number, work: Float64Array = new Float64Array(values.length)): number {
   const n = values.length;
   for (let i = 0; i < n; i++) work[i] = Math.abs(values[i] - center);
-  return 1.4826 * medianInPlace(work, n);
+  return 1.4826 * radixMedian(work, n);
 }
 
 /**
@@ -145,20 +249,35 @@ export function robustScale(values: ArrayLike<number>, center: number, work?: Fl
   }
   if (!(s > 0)) return 0;
   for (let it = 0; it < 2; it++) {
-    let ss = 0;
-    let c = 0;
-    for (let i = 0; i < values.length; i++) {
-      const v = values[i] - center;
-      if (Math.abs(v) <= 5 * s) { ss += v * v; c++; }
-    }
+    const ss = sumSquaresWithin(values, center, 5 * s);
+    const c = withinCount;
     if (c > 0 && ss > 0) s = Math.sqrt(ss / c);
   }
   return s;
 }
 
+/** Values counted by the last {@link sumSquaresWithin} call. */
+let withinCount = 0;
+
+/**
+ * Sum of (v - center)^2 over the values with |v - center| <= limit (their count to `withinCount`). A function of its
+ * own so that both passes of {@link robustScale} run the one optimised loop (a loop inside the iteration was dropped
+ * back to unoptimised code after its first pass).
+ */
+function sumSquaresWithin(values: ArrayLike<number>, center: number, limit: number): number {
+  let ss = 0;
+  let c = 0;
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i] - center;
+    if (Math.abs(v) <= limit) { ss += v * v; c++; }
+  }
+  withinCount = c;
+  return ss;
+}
+
 /** Theil-Sen slope of (x, y) points (median of pairwise slopes). */
 export function theilSenSlope(x: ArrayLike<number>, y: ArrayLike<number>): number {
-  const slopes = new Float64Array((x.length * (x.length - 1)) / 2);
+  const slopes = takeFloat64((x.length * (x.length - 1)) / 2); // work column (selection does not keep it)
   let k = 0;
   for (let i = 0; i < x.length; i++) {
     for (let j = i + 1; j < x.length; j++) {
@@ -166,7 +285,9 @@ export function theilSenSlope(x: ArrayLike<number>, y: ArrayLike<number>): numbe
       if (dx !== 0) slopes[k++] = (y[j] - y[i]) / dx;
     }
   }
-  return medianInPlace(slopes, k);
+  const slope = radixMedian(slopes, k);
+  giveBack(slopes);
+  return slope;
 }
 
 /** One value in the unit people read (deg/h for gyro, ug for accel), as text. */
@@ -245,20 +366,22 @@ function analyzeAxis(
   const n = state.length;
   const name = `${sensor} bias ${AXES[axis]}`;
   const work = scratch.work;
-  // finite samples with increasing time
-  const idxAll = scratch.idx;
-  let count = 0;
-  let lastT = -Infinity;
-  for (let i = 0; i < n; i++) {
-    const ti = t[i];
-    const ci = col[i];
-    if (ci - ci === 0 && ti - ti === 0 && ti > lastT) { idxAll[count++] = i; lastT = ti; } // finite, time increasing
-  }
+  // finite samples with increasing time (and, in the same pass, repeated values between them)
+  // The corrections need the median time step of the usable samples; when every record is usable (the usual case)
+  // that is the median step of the time column, so it is taken first and the corrections made in the same pass
+  // (checked below: otherwise they are made again).
+  const dAll = scratch.d;
+  const dtAll = sampledStepMedian(t, n, work);
+  const count = usableSamples(t, col, n, dtAll, dAll);
+  const zeros = scanZeros;
   if (count < 2) return undefined;
-  const idx = idxAll.subarray(0, count);
-  const t0 = t[0] <= t[idx[0]] && Number.isFinite(t[0]) ? t[0] : t[idx[0]];
-  const first = col[idx[0]];
-  const last = col[idx[idx.length - 1]];
+  // indices of the usable records: the identity when every record is usable (no column then)
+  const idx = count === n ? undefined : indexColumn(scratch, 'idx').subarray(0, usableIndices(t, col, n, indexColumn(scratch, 'idx')));
+  const iFirst = idx ? idx[0] : 0;
+  const iLast = idx ? idx[count - 1] : n - 1;
+  const t0 = t[0] <= t[iFirst] && Number.isFinite(t[0]) ? t[0] : t[iFirst];
+  const first = col[iFirst];
+  const last = col[iLast];
   let sigmaFinal = NaN;
   if (sigmaCol) for (let i = n - 1; i >= 0; i--) if (Number.isFinite(sigmaCol[i])) { sigmaFinal = sigmaCol[i]; break; }
 
@@ -268,7 +391,7 @@ function analyzeAxis(
   let xs: Float64Array;
   let ys: Float64Array;
   let ls: Float64Array;
-  if (count === n) {
+  if (!idx) {
     xs = t.subarray(0, n); ys = col.subarray(0, n); ls = state.line.subarray(0, n);
   } else {
     xs = new Float64Array(count); ys = new Float64Array(count); ls = new Float64Array(count);
@@ -277,7 +400,7 @@ function analyzeAxis(
   // the +-3 sigma band is made when the series is first read (lazySeries.ts), lo and hi together
   // (the index column is scratch, reused by the next axis: the band keeps its own copy unless it is the identity)
   let band: { lo: Float64Array; hi: Float64Array } | undefined;
-  const bandIdx = sigmaCol && count < n ? idx.slice() : undefined;
+  const bandIdx = sigmaCol && idx ? idx.slice() : undefined;
   const makeBand = (sig: Float64Array): { lo: Float64Array; hi: Float64Array } => {
     if (band) return band;
     const lo = new Float64Array(count);
@@ -296,24 +419,16 @@ function analyzeAxis(
   // repeats the estimate between updates, and zeros are left out; otherwise (a few zeros, e.g. from rounding in the
   // written log) they are kept. An increment over a longer step than usual (a gap) is divided by sqrt(dt / dt_median):
   // a random-walk-like estimate moves by sqrt(time) over a gap.
-  let zeros = 0;
-  for (let j = 1; j < idx.length; j++) if (ys[j] === ys[j - 1]) zeros++;
-  const dropZeros = zeros >= 0.3 * (idx.length - 1);
-  const steps: number[] = [];
-  for (let j = 1; j < idx.length; j += Math.max(1, Math.floor(idx.length / 20000))) steps.push(xs[j] - xs[j - 1]);
-  const dtMedian = median(steps);
-  const dAll = scratch.d;
-  const posAll = scratch.pos;
-  let nd = 0;
-  for (let j = 1; j < idx.length; j++) {
-    const v = ys[j] - ys[j - 1];
-    if (dropZeros && v === 0) continue;
-    const r = dtMedian > 0 ? Math.max(1, (xs[j] - xs[j - 1]) / dtMedian) : 1;
-    dAll[nd] = r > 1 ? v / Math.sqrt(r) : v;
-    posAll[nd++] = j;
+  const dropZeros = zeros >= 0.3 * (count - 1);
+  let nd = scanCorrections;
+  // the usable sample each correction ends at: j + 1 for the scan's corrections, a column when they are made again
+  let posCol: Int32Array | undefined;
+  if (count !== n || dropZeros) {
+    posCol = indexColumn(scratch, 'pos');
+    nd = corrections(xs, ys, count, dropZeros, count === n ? dtAll : sampledStepMedian(xs, count, work), dAll, posCol);
   }
   const d = dAll.subarray(0, nd);
-  const pos = posAll.subarray(0, nd);
+  const pos = (j: number): number => (posCol ? posCol[j] : j + 1);
   const result: AxisResult = {
     final: last, totalChange: last - first, driftPerHour: NaN, settleTime: xs[0] - t0, sigmaFinal, steps: [], h: NaN, series,
   };
@@ -322,7 +437,7 @@ function analyzeAxis(
     return result;
   }
   const ref = d.subarray(d.length >> 1);
-  const med = medianWith(ref, work);
+  const med = radixMedian(ref);
   const scale = robustScale(ref, med, work);
   if (!(scale > 0)) {
     result.driftPerHour = driftRate(xs, ys, 0, work);
@@ -343,29 +458,29 @@ function analyzeAxis(
     if (settledWindow(st) && settledWindow(st + W)) { settleInc = st; break; }
   }
   if (settleInc < 0) settleInc = d.length >> 1;
-  const settlePos = pos[settleInc] - 1; // the sample before the first settled increment
+  const settlePos = pos(settleInc) - 1; // the sample before the first settled increment
   result.settleTime = xs[settlePos] - t0;
-  result.driftPerHour = driftRate(xs, ys, settlePos, work);
+  // the block medians after settling serve both the drift rate and the drift check (computed once)
+  const blocks = xs.length - settlePos >= 3 ? blockMedians(xs, ys, settlePos, 200, work) : undefined;
+  result.driftPerHour = blocks ? theilSenSlope(blocks.bt, blocks.bv) * 3600 : NaN;
 
   // steps: two-sided CUSUM on the normalised settled increments
   const nAfter = d.length - settleInc;
-  const z = d.subarray(settleInc); // normalised in place: the raw corrections are not needed any more
-  for (let j = 0; j < nAfter; j++) z[j] = (z[j] - med) / scale;
   const h = cusumThresholdForArl(Math.max(nAfter, 2) / options.alpha, 0.5);
   result.h = h;
-  const changes = detectChanges(z, h, 0.5);
+  const changes = detectChangesScaled(d, settleInc, nAfter, med, scale, h, 0.5);
   const Wb = Math.min(200, Math.max(5, 2 * W));
-  const bounds = changes.map((c) => ({ p0: pos[settleInc + c.onset] - 1, p1: pos[settleInc + c.end], c }));
+  const bounds = changes.map((c) => ({ p0: pos(settleInc + c.onset) - 1, p1: pos(settleInc + c.end), c }));
   for (let k = 0; k < bounds.length; k++) {
     const { p0, p1, c } = bounds[k];
     // level before: the Wb samples up to the onset; level after: Wb samples starting two step-durations after the
     // detected end (the estimate is still converging to the new level when the sum peaks), both clipped by neighbours
     const beforeLo = Math.max(k > 0 ? bounds[k - 1].p1 : settlePos, p0 - Wb);
-    const limit = k + 1 < bounds.length ? bounds[k + 1].p0 : idx.length - 1;
+    const limit = k + 1 < bounds.length ? bounds[k + 1].p0 : count - 1;
     const afterLo = Math.min(limit, p1 + 2 * (p1 - p0));
     const afterHi = Math.min(limit, afterLo + Wb);
-    const before = medianWith(ys.subarray(beforeLo, p0 + 1), work);
-    const after = medianWith(ys.subarray(afterLo, afterHi + 1), work);
+    const before = radixMedian(ys.subarray(beforeLo, p0 + 1));
+    const after = radixMedian(ys.subarray(afterLo, afterHi + 1));
     const size = after - before;
     // the step's time is the first sample that moved (p0 is the last one before the change)
     const first = Math.min(p0 + 1, p1);
@@ -388,7 +503,9 @@ function analyzeAxis(
   }
 
   // drift against the specification
-  const drift = driftCheck(xs, ys, settlePos, sensor, sigmaFinal, options.spec, bounds.map((b) => [xs[b.p0], xs[b.p1]] as [number, number]), work);
+  const drift = blocks && xs.length - settlePos >= 10
+    ? driftCheck(blocks, sensor, sigmaFinal, options.spec, bounds.map((b) => [xs[b.p0], xs[b.p1]] as [number, number]), work)
+    : undefined;
   if (drift) {
     result.drift = drift;
     if (drift.ratio > 1) {
@@ -417,12 +534,19 @@ function blockMedians(xs: Float64Array, ys: Float64Array, start: number, blocks:
   for (let b = 0; b < nb; b++) {
     const a = start + Math.floor(b * size);
     const e = Math.max(a + 1, start + Math.floor((b + 1) * size));
-    let st = 0;
-    for (let i = a; i < e; i++) st += xs[i];
-    bt[b] = st / (e - a);
-    bv[b] = medianWith(ys.subarray(a, e), work);
+    bt[b] = rangeSum(xs, a, e) / (e - a);
+    // blocks are short: plain selection on a copy in the axis's work column (one column for all blocks)
+    work.set(ys.subarray(a, e));
+    bv[b] = medianInPlace(work, e - a);
   }
   return { bt, bv };
+}
+
+/** xs[a] + ... + xs[e - 1], in that order (a function of its own: called per block, optimised once). */
+function rangeSum(xs: Float64Array, a: number, e: number): number {
+  let st = 0;
+  for (let i = a; i < e; i++) st += xs[i];
+  return st;
 }
 
 /** Theil-Sen drift rate after `start`, SI units per hour (on at most 200 block medians). */
@@ -440,11 +564,10 @@ export function plausibleBiasChange(T_s: number, K: number, B: number, sigma = 0
 
 /** Worst window of the drift check (see the module comment). */
 function driftCheck(
-  xs: Float64Array, ys: Float64Array, start: number, sensor: BiasSensor, sigmaFinal: number, spec: ResolvedSpec,
+  blocks: { bt: Float64Array; bv: Float64Array }, sensor: BiasSensor, sigmaFinal: number, spec: ResolvedSpec,
   stepSpans: [number, number][], work: Float64Array,
 ): BiasDriftCheck | undefined {
-  if (xs.length - start < 10) return undefined;
-  const { bt, bv } = blockMedians(xs, ys, start, 200, work);
+  const { bt, bv } = blocks;
   const span = bt[bt.length - 1] - bt[0];
   if (!(span > 0)) return undefined;
   const K = sensor === 'gyro' ? spec.spec.gyroRateRandomWalk : spec.spec.accRateRandomWalk;
@@ -452,7 +575,7 @@ function driftCheck(
   // the estimate's own scatter: consecutive block medians differ by about sqrt(2) times their noise
   const diffs = new Float64Array(Math.max(0, bv.length - 1));
   for (let i = 1; i < bv.length; i++) diffs[i - 1] = bv[i] - bv[i - 1];
-  const scatter = diffs.length >= 5 ? madScale(diffs, median(diffs)) / Math.SQRT2 : 0;
+  const scatter = diffs.length >= 5 ? madScale(diffs, radixMedian(diffs), work) / Math.SQRT2 : 0;
   const sigma = Math.hypot(Number.isFinite(sigmaFinal) ? sigmaFinal : 0, scatter);
   const blockLen = span / Math.max(1, bt.length - 1);
   const at = (tq: number): number => {

@@ -42,6 +42,8 @@ export function parsePairId(id: string): [string, string] | undefined {
 /** True when `channel` is a TDOA channel by the rule in the file comment. */
 export function isTdoaChannel(channel: Channel): boolean {
   if (channel.dof !== 1) return false;
+  // every interned id a pair: then so is every used one, and only whether any update names an id is left to find
+  if (channel.ids.length > 0 && channel.ids.every((id) => parsePairId(id) !== undefined)) return anyUsedId(channel);
   const used = usedIds(channel);
   return used.length > 0 && used.every((id) => parsePairId(id) !== undefined);
 }
@@ -53,13 +55,29 @@ export function isRangeChannel(channel: Channel): boolean {
   return used.length > 0 && used.every((id) => parsePairId(id) === undefined && id.trim() !== '');
 }
 
-function usedIds(channel: Channel): string[] {
-  const seen = new Set<number>();
+/** True when some update names an interned id (stops at the first). */
+function anyUsedId(channel: Channel): boolean {
+  const nIds = channel.ids.length;
   for (let k = 0; k < channel.length; k++) {
     const v = channel.id[k];
-    if (Number.isInteger(v) && v >= 0 && v < channel.ids.length) seen.add(v);
+    if (v >= 0 && v < nIds && v === Math.floor(v)) return true;
   }
-  return [...seen].map((k) => channel.ids[k]);
+  return false;
+}
+
+/** The interned ids the channel's updates use (in interning order; callers only test every one). */
+function usedIds(channel: Channel): string[] {
+  // a mark per interned id rather than a Set per update (one typed-array store per update)
+  const nIds = channel.ids.length;
+  const seen = new Uint8Array(nIds);
+  const id = channel.id;
+  for (let k = 0; k < channel.length; k++) {
+    const v = id[k];
+    if (v >= 0 && v < nIds && v === Math.floor(v)) seen[v] = 1;
+  }
+  const out: string[] = [];
+  for (let v = 0; v < nIds; v++) if (seen[v]) out.push(channel.ids[v]);
+  return out;
 }
 
 /** Parse "x y z" (spaces, commas or semicolons) into a point; undefined unless exactly three finite numbers. */
@@ -210,22 +228,13 @@ function singleChannelUpdates(
 ): UpdateColumns | undefined {
   const n = ch.length;
   if (ch.dof !== 1) return undefined;
-  for (let k = 0; k < n; k++) {
-    const idv = ch.id[k];
-    const r = ch.rejected[k];
-    if (!(Number.isInteger(idv) && idv >= 0 && idv < ch.ids.length) || (r !== 0 && r !== 1)) return undefined;
-  }
-  const linkOfId = linksOfIds(ch, kind, anchors, links);
+  // (links of every interned id first: the copying path, when this one gives up, finds the same anchors and links in
+  // the same order, as adding them is idempotent)
+  const linkOfId = Int32Array.from(linksOfIds(ch, kind, anchors, links));
   const nis = nisOf(ch);
+  if (nis.length < n) return undefined;
   const link = new Int32Array(n);
-  let ok = nis.length >= n;
-  for (let k = 0; k < n && ok; k++) {
-    const L = linkOfId[ch.id[k]];
-    if (L < 0) ok = false;
-    link[k] = L;
-  }
-  // (the copying path then finds the same anchors and links, in the same order: adding them is idempotent)
-  if (!ok) return undefined;
+  if (!linkEachUpdate(ch.id, ch.rejected, n, linkOfId, link)) return undefined;
   return {
     length: n,
     t_s: ch.t_s.subarray(0, n),
@@ -237,6 +246,23 @@ function singleChannelUpdates(
     rejected: ch.rejected.subarray(0, n),
     channels: [{ name: ch.name, file: ch.file, kind }],
   };
+}
+
+/**
+ * link[k] = linkOfId[id[k]] for every update, in one pass; false as soon as an update has no integer id in range, a
+ * rejection flag other than 0/1, or an id naming no link.
+ */
+function linkEachUpdate(id: Float64Array, rejected: Uint8Array, n: number, linkOfId: Int32Array, link: Int32Array): boolean {
+  const nIds = linkOfId.length;
+  for (let k = 0; k < n; k++) {
+    const idv = id[k];
+    const r = rejected[k];
+    if (!(idv >= 0 && idv < nIds && idv === Math.floor(idv)) || (r !== 0 && r !== 1)) return false;
+    const L = linkOfId[idv];
+    if (L < 0) return false;
+    link[k] = L;
+  }
+  return true;
 }
 
 /** Raw TDOA and range records (those with both anchor ids and a finite time). */
@@ -284,14 +310,48 @@ export function collectRaw(log: NavLog, anchors: AnchorTable, links: LinkTable):
   return out;
 }
 
-/** Record indices per link, each list in ascending time (stable). */
-export function indicesByLink(link: Int32Array, t_s: Float64Array, length: number, nLinks: number): number[][] {
-  const out: number[][] = Array.from({ length: nLinks }, () => []);
-  for (let k = 0; k < length; k++) if (link[k] >= 0) out[link[k]].push(k);
-  for (const list of out) {
-    let sorted = true;
-    for (let k = 1; k < list.length; k++) if (t_s[list[k]] < t_s[list[k - 1]]) sorted = false;
-    if (!sorted) list.sort((x, y) => t_s[x] - t_s[y] || x - y);
+/** Record indices grouped by link: `order` lists them link after link, link L at [start[L], start[L + 1]). */
+export interface LinkGroups {
+  order: Int32Array;
+  start: Int32Array;
+  /** Views of `order`, one per link. */
+  lists: Int32Array[];
+}
+
+/**
+ * Record indices per link, each list in ascending time (stable), as views of one index column (a counting sort:
+ * no per-record array growth).
+ */
+export function groupByLink(link: Int32Array, t_s: Float64Array, length: number, nLinks: number): LinkGroups {
+  const start = new Int32Array(nLinks + 1);
+  for (let k = 0; k < length; k++) {
+    const L = link[k];
+    if (L >= 0) start[L + 1]++;
   }
-  return out;
+  for (let L = 0; L < nLinks; L++) start[L + 1] += start[L];
+  const order = new Int32Array(start[nLinks]);
+  const fill = start.slice(0, nLinks);
+  // time order of each link checked while placing (last time placed per link): no second pass
+  const lastT = new Float64Array(nLinks).fill(-Infinity);
+  const unsorted = new Uint8Array(nLinks);
+  for (let k = 0; k < length; k++) {
+    const L = link[k];
+    if (L < 0) continue;
+    order[fill[L]++] = k;
+    const t = t_s[k];
+    if (t < lastT[L]) unsorted[L] = 1;
+    lastT[L] = t;
+  }
+  const lists: Int32Array[] = [];
+  for (let L = 0; L < nLinks; L++) {
+    const list = order.subarray(start[L], start[L + 1]);
+    if (unsorted[L]) list.sort((x, y) => t_s[x] - t_s[y] || x - y);
+    lists.push(list);
+  }
+  return { order, start, lists };
+}
+
+/** Record indices per link, each list in ascending time (stable). */
+export function indicesByLink(link: Int32Array, t_s: Float64Array, length: number, nLinks: number): Int32Array[] {
+  return groupByLink(link, t_s, length, nLinks).lists;
 }

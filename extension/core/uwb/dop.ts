@@ -37,13 +37,23 @@ export function lineOfSightEnu(el_rad: number, az_rad: number): Vec3_m {
   return [Math.cos(el_rad) * Math.sin(az_rad), Math.cos(el_rad) * Math.cos(az_rad), Math.sin(el_rad)];
 }
 
-/** Diagonal of the inverse of the symmetric n x n matrix `a` (row-major) via Cholesky; undefined when not SPD. */
+const invL = new Float64Array(16);
+const invE = new Float64Array(4);
+const invX = new Float64Array(4);
+const invD = new Float64Array(4);
+
+/**
+ * Diagonal of the inverse of the symmetric n x n matrix `a` (row-major) via Cholesky; undefined when not SPD.
+ * The result is a shared work array (valid until the next call).
+ */
 function inverseDiagonal(a: Float64Array, n: number): Float64Array | undefined {
-  const l = new Float64Array(n * n);
+  // work arrays reused between calls (one DOP per geometry window: thousands of calls per log); the result is read
+  // by the caller at once and never kept
+  const l = invL.length >= n * n ? invL : new Float64Array(n * n);
   if (!choleskyFactor(a, 0, n, l, 0)) return undefined;
-  const e = new Float64Array(n);
-  const x = new Float64Array(n);
-  const d = new Float64Array(n);
+  const e = invE.length >= n ? invE.subarray(0, n) : new Float64Array(n);
+  const x = invX.length >= n ? invX : new Float64Array(n);
+  const d = invD.length >= n ? invD : new Float64Array(n);
   for (let k = 0; k < n; k++) {
     e.fill(0);
     e[k] = 1;
@@ -104,6 +114,11 @@ export function toaOffsetDop(anchors: readonly Vec3_m[], p: Vec3_m): DopFigures 
   return dopFromLineOfSight(los);
 }
 
+/** Work arrays of {@link tdoaDop} (normal matrix, column sums, one row), reused between calls. */
+const tdoaN = new Float64Array(9);
+const tdoaSum = new Float64Array(3);
+const tdoaH = new Float64Array(3);
+
 /** Options of {@link tdoaDop}. */
 export interface TdoaDopOptions {
   /** Index of the reference anchor (0). */
@@ -122,14 +137,21 @@ export function tdoaDop(anchors: readonly Vec3_m[], p: Vec3_m, options: TdoaDopO
   if (anchors.length < 4 || ref < 0 || ref >= anchors.length) return undefined;
   const uRef = unit(anchors[ref], p);
   if (!uRef) return undefined;
-  const n = new Float64Array(9);
-  const sum = [0, 0, 0];
+  const n = tdoaN.fill(0);
+  const sum = tdoaSum.fill(0);
+  const h = tdoaH;
   let m = 0;
   for (let i = 0; i < anchors.length; i++) {
     if (i === ref) continue;
-    const u = unit(anchors[i], p);
-    if (!u) return undefined;
-    const h = [u[0] - uRef[0], u[1] - uRef[1], u[2] - uRef[2]];
+    // unit(anchors[i], p) written out (no array per anchor): the same operations
+    const dx = p[0] - anchors[i][0];
+    const dy = p[1] - anchors[i][1];
+    const dz = p[2] - anchors[i][2];
+    const rr = Math.sqrt(dx * dx + dy * dy + dz * dz);
+    if (!(rr > 0) || !Number.isFinite(rr)) return undefined;
+    h[0] = dx / rr - uRef[0];
+    h[1] = dy / rr - uRef[1];
+    h[2] = dz / rr - uRef[2];
     for (let r = 0; r < 3; r++) {
       sum[r] += h[r];
       for (let c = 0; c < 3; c++) n[r * 3 + c] += h[r] * h[c];

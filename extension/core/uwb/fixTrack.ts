@@ -46,7 +46,7 @@ export const OUTLIER_FLOOR_M = 0.05;
 const PRIOR_MAX_AGE_S = 2;
 
 /** Typical interval between records of one link: median over links of the median step. */
-export function typicalLinkPeriod_s(t_s: Float64Array, perLink: readonly number[][]): number {
+export function typicalLinkPeriod_s(t_s: Float64Array, perLink: readonly ArrayLike<number>[]): number {
   const periods: number[] = [];
   for (const list of perLink) {
     if (list.length < 3) continue;
@@ -77,7 +77,7 @@ export function fixTrack(
   raw: RawColumns,
   links: LinkTable,
   positions: readonly (Vec3_m | undefined)[],
-  perLink: readonly number[][],
+  perLink: readonly ArrayLike<number>[],
   estimateAt: (t_s: number) => Vec3_m | undefined,
 ): FixTrack {
   const period = typicalLinkPeriod_s(raw.t_s, perLink);

@@ -56,6 +56,25 @@ export interface GeometryWindowsResult {
   intervals: GeometryInterval[];
 }
 
+/** Set the bits of the anchors of each event of `e` in its window's slot of `dense` (and mark the window in `hit`). */
+function markEvents(
+  e: LinkEvents, t0: number, w: number, la: Int32Array, lb: Int32Array, words: number, dense: Uint32Array, hit: Uint8Array,
+): void {
+  const t_s = e.t_s;
+  const link = e.link;
+  for (let k = 0; k < e.length; k++) {
+    const L = link[k];
+    const t = t_s[k];
+    if (L < 0 || !(t - t === 0)) continue; // no link, or time not finite
+    const bin = Math.floor((t - t0) / w);
+    hit[bin] = 1;
+    const o = bin * words;
+    const a = la[L], b = lb[L];
+    if (a >= 0) dense[o + (a >>> 5)] |= 1 << (a & 31);
+    if (b >= 0) dense[o + (b >>> 5)] |= 1 << (b & 31);
+  }
+}
+
 /**
  * DOP per window. `positionAt` gives positions at the window centres (NaN where unknown); `maxDop` is the
  * high-dop threshold. Only windows holding at least one event are evaluated; the empty windows between them are
@@ -72,34 +91,60 @@ export function geometryWindows(
   maxDop: number,
 ): GeometryWindowsResult | undefined {
   let t0 = Infinity;
+  let tMax = -Infinity;
+  let total = 0;
   for (const e of events) {
     for (let k = 0; k < e.length; k++) {
       const t = e.t_s[k];
-      if (Number.isFinite(t) && e.link[k] >= 0 && t < t0) t0 = t;
+      if (Number.isFinite(t) && e.link[k] >= 0) {
+        if (t < t0) t0 = t;
+        if (t > tMax) tMax = t;
+        total++;
+      }
     }
   }
   if (!Number.isFinite(t0)) return undefined;
   const w = window_s > 0 ? window_s : 1;
   const nA = positions.length;
   const words = Math.max(1, Math.ceil(nA / 32));
-  const occupied = new Map<number, Uint32Array>();
-  for (const e of events) {
-    for (let k = 0; k < e.length; k++) {
-      const L = e.link[k];
-      const t = e.t_s[k];
-      if (L < 0 || !Number.isFinite(t)) continue;
-      const bin = Math.floor((t - t0) / w);
-      let bits = occupied.get(bin);
-      if (!bits) {
-        bits = new Uint32Array(words);
-        occupied.set(bin, bits);
+  const la = Int32Array.from(links.a);
+  const lb = Int32Array.from(links.b);
+  // anchors heard per occupied window: a bit set of `words` words per window, windows in ascending order
+  let bins: number[];
+  let packed: Uint32Array;
+  const span = Math.floor((tMax - t0) / w) + 1; // bins are floor((t - t0) / w), monotone in t: all within [0, span)
+  if (span <= 4 * total + 1024) {
+    // dense: one slot per window of the span (a typed-array store per event instead of a Map lookup)
+    const dense = new Uint32Array(span * words);
+    const hit = new Uint8Array(span);
+    for (const e of events) markEvents(e, t0, w, la, lb, words, dense, hit);
+    bins = [];
+    for (let b = 0; b < span; b++) if (hit[b]) bins.push(b);
+    packed = new Uint32Array(bins.length * words);
+    for (let k = 0; k < bins.length; k++) for (let q = 0; q < words; q++) packed[k * words + q] = dense[bins[k] * words + q];
+  } else {
+    // a stray time stamp far from the rest: only the occupied windows are kept
+    const occupied = new Map<number, Uint32Array>();
+    for (const e of events) {
+      for (let k = 0; k < e.length; k++) {
+        const L = e.link[k];
+        const t = e.t_s[k];
+        if (L < 0 || !Number.isFinite(t)) continue;
+        const bin = Math.floor((t - t0) / w);
+        let bits = occupied.get(bin);
+        if (!bits) {
+          bits = new Uint32Array(words);
+          occupied.set(bin, bits);
+        }
+        const a = la[L], b = lb[L];
+        if (a >= 0) bits[a >>> 5] |= 1 << (a & 31);
+        if (b >= 0) bits[b >>> 5] |= 1 << (b & 31);
       }
-      const a = links.a[L], b = links.b[L];
-      if (a >= 0) bits[a >>> 5] |= 1 << (a & 31);
-      if (b >= 0) bits[b >>> 5] |= 1 << (b & 31);
     }
+    bins = [...occupied.keys()].sort((x, y) => x - y);
+    packed = new Uint32Array(bins.length * words);
+    for (let k = 0; k < bins.length; k++) packed.set(occupied.get(bins[k]) as Uint32Array, k * words);
   }
-  const bins = [...occupied.keys()].sort((x, y) => x - y);
   const nb = bins.length;
   const center = new Float64Array(nb);
   for (let k = 0; k < nb; k++) center[k] = t0 + (bins[k] + 0.5) * w;
@@ -114,10 +159,10 @@ export function geometryWindows(
   let noPosition = 0;
   let above = 0;
   for (let k = 0; k < nb; k++) {
-    const bits = occupied.get(bins[k]) as Uint32Array;
+    const o = k * words;
     const seen: Vec3_m[] = [];
     for (let a = 0; a < nA; a++) {
-      if (bits[a >>> 5] & (1 << (a & 31))) {
+      if (packed[o + (a >>> 5)] & (1 << (a & 31))) {
         const p = positions[a];
         if (p) seen.push(p);
       }

@@ -26,15 +26,16 @@ import type { AnalysisSettings } from '../settings';
 import { computeNis } from '../consistency/nis';
 import { chi2Quantile } from '../stats/chi2';
 import { blameAnchors, estimateOffsets, gateZ, isBiased, type LinkEvidence, type LinkMean } from './anchors';
-import { buildAnchorTable, collectRaw, collectUpdates, indicesByLink, type LinkTable, type UpdateColumns } from './collect';
+import { buildAnchorTable, collectRaw, collectUpdates, groupByLink, indicesByLink, type LinkGroups, type LinkTable, type UpdateColumns } from './collect';
 import { fixTrack } from './fixTrack';
 import { geometryWindows } from './geometryWindows';
 import {
-  MAD_TO_SIGMA, interpolateTrack, makeTrack, maxBridgedGap_s, median, predictedRange_m, predictedTdoa_m, summarizeValues,
+  MAD_TO_SIGMA, interpolateTrack, makeTrack, maxBridgedGap_s, median, predictedRange_m, predictedTdoa_m, summarizeFiniteInPlace, summarizeValues,
   type Track, type ValueSummary,
 } from './residuals';
 import type { Vec3_m } from './vec3';
 import { lazySeries } from '../lazySeries';
+import { giveBack, takeFloat64 } from '../scratch';
 
 /** The channel rule and the per-anchor statistics function, re-exported for callers of the stage. */
 export { isTdoaChannel, isRangeChannel, parsePairId } from './collect';
@@ -204,7 +205,7 @@ function truthTrack(log: NavLog, settings: AnalysisSettings): Track | undefined 
 }
 
 /** src[idx[0]], src[idx[1]], ... as a new column. */
-function gather(src: Float64Array, idx: readonly number[]): Float64Array {
+function gather(src: Float64Array, idx: ArrayLike<number>): Float64Array {
   const out = new Float64Array(idx.length);
   for (let q = 0; q < idx.length; q++) out[q] = src[idx[q]];
   return out;
@@ -226,8 +227,26 @@ interface UpdateTallies {
   linkRejected: Int32Array;
   linkNisMean: Float64Array;
   linkInnov: ValueSummary[];
-  /** Innovations per anchor, oriented as seen from that anchor, in update order. */
-  anchorNu: Float64Array[];
+  /** Summary of the innovations per anchor, oriented as seen from that anchor, link after link in update order. */
+  anchorInnov: ValueSummary[];
+  anchorNisSum: Float64Array;
+  anchorNisCount: Int32Array;
+  anchorUpdates: Int32Array;
+  anchorRejected: Int32Array;
+  anchorOutliers: Int32Array;
+  linkAnomalyTimes: number[][];
+  linkAnomalyLines: number[];
+}
+
+/** Work arrays of {@link tallyPass}, per link (`link*`, length nL) and per anchor (`anchor*`, length nA). */
+interface TallyArrays {
+  la: Int32Array;
+  lb: Int32Array;
+  linkOutliers: Int32Array;
+  linkRejected: Int32Array;
+  linkNisSum: Float64Array;
+  linkNisCount: Int32Array;
+  linkNuLength: Int32Array;
   anchorNisSum: Float64Array;
   anchorNisCount: Int32Array;
   anchorUpdates: Int32Array;
@@ -238,91 +257,114 @@ interface UpdateTallies {
 }
 
 /**
- * Step 1: updates per link and per anchor (counts, NIS sums, outliers beyond `gateNis`, oriented innovations).
- * A function of its own, apart from the long stage function, so the engine optimises its loops early.
+ * One pass over the updates link after link (`order`, link L at [start[L], start[L + 1])): counts, NIS sums in that
+ * order, outliers beyond `gateNis`, and each link's finite accepted innovations into nus[start[L] ...].
+ * One flat loop in a small function: the engine optimises it at once (a loop per link in a long function ran mostly
+ * unoptimised on the first, and only, call).
  */
-function tallyUpdates(upd: UpdateColumns, updByLink: number[][], links: LinkTable, nA: number, gateNis: number): UpdateTallies {
-  const nL = links.keys.length;
-  const linkOutliers = new Int32Array(nL);
-  const linkRejected = new Int32Array(nL);
-  const linkNisMean = new Float64Array(nL).fill(NaN);
-  const linkInnov: ValueSummary[] = [];
-  // innovations per anchor (sign as seen from that anchor) in typed arrays sized by a counting pass, in update order
-  const anchorNuCount = new Int32Array(nA);
-  for (let L = 0; L < nL; L++) {
-    const a = links.a[L];
-    const b = links.b[L];
-    const list = updByLink[L];
-    for (let q = 0; q < list.length; q++) {
-      const k = list[q];
-      if (upd.rejected[k] || !Number.isFinite(upd.nu[k])) continue;
-      anchorNuCount[a]++;
-      if (b >= 0) anchorNuCount[b]++;
+function tallyPass(upd: UpdateColumns, order: Int32Array, start: Int32Array, gateNis: number, w: TallyArrays, nus: Float64Array): void {
+  const { la, lb, linkOutliers, linkRejected, linkNisSum, linkNisCount, linkNuLength, anchorNisSum, anchorNisCount,
+    anchorUpdates, anchorRejected, anchorOutliers, linkAnomalyTimes, linkAnomalyLines } = w;
+  const link = upd.link;
+  const rejected = upd.rejected;
+  const nuCol = upd.nu;
+  const nisCol = upd.nis;
+  const n = order.length;
+  for (let q = 0; q < n; q++) {
+    const k = order[q];
+    const L = link[k];
+    const a = la[L];
+    const b = lb[L];
+    anchorUpdates[a]++;
+    if (b >= 0) anchorUpdates[b]++;
+    if (rejected[k]) {
+      linkRejected[L]++;
+      anchorRejected[a]++;
+      if (b >= 0) anchorRejected[b]++;
+      linkAnomalyTimes[L].push(upd.t_s[k]);
+      if (Number.isNaN(linkAnomalyLines[L])) linkAnomalyLines[L] = upd.line[k];
+      continue;
     }
-  }
-  const anchorNu: Float64Array[] = Array.from({ length: nA }, (_, i) => new Float64Array(anchorNuCount[i]));
-  const anchorNuLength = new Int32Array(nA);
-  const anchorNisSum = new Float64Array(nA);
-  const anchorNisCount = new Int32Array(nA);
-  const anchorUpdates = new Int32Array(nA);
-  const anchorRejected = new Int32Array(nA);
-  const anchorOutliers = new Int32Array(nA);
-  const linkAnomalyTimes: number[][] = Array.from({ length: nL }, () => []);
-  const linkAnomalyLines: number[] = new Array<number>(nL).fill(NaN);
-  for (let L = 0; L < nL; L++) {
-    const a = links.a[L];
-    const b = links.b[L];
-    const nus = new Float64Array(updByLink[L].length);
-    let nusLength = 0;
-    let nisSum = 0;
-    let nisCount = 0;
-    const list = updByLink[L];
-    for (let q = 0; q < list.length; q++) {
-      const k = list[q];
-      anchorUpdates[a]++;
-      if (b >= 0) anchorUpdates[b]++;
-      if (upd.rejected[k]) {
-        linkRejected[L]++;
-        anchorRejected[a]++;
-        if (b >= 0) anchorRejected[b]++;
+    const nu = nuCol[k];
+    if (nu - nu === 0) nus[start[L] + linkNuLength[L]++] = nu; // finite
+    const nis = nisCol[k];
+    if (nis - nis === 0) {
+      linkNisSum[L] += nis;
+      linkNisCount[L]++;
+      anchorNisSum[a] += nis;
+      anchorNisCount[a]++;
+      if (b >= 0) {
+        anchorNisSum[b] += nis;
+        anchorNisCount[b]++;
+      }
+      if (nis > gateNis) {
+        linkOutliers[L]++;
+        anchorOutliers[a]++;
+        if (b >= 0) anchorOutliers[b]++;
         linkAnomalyTimes[L].push(upd.t_s[k]);
         if (Number.isNaN(linkAnomalyLines[L])) linkAnomalyLines[L] = upd.line[k];
-        continue;
-      }
-      const nu = upd.nu[k];
-      if (Number.isFinite(nu)) {
-        nus[nusLength++] = nu;
-        if (b >= 0) {
-          anchorNu[b][anchorNuLength[b]++] = nu;
-          anchorNu[a][anchorNuLength[a]++] = -nu;
-        } else anchorNu[a][anchorNuLength[a]++] = nu;
-      }
-      const nis = upd.nis[k];
-      if (Number.isFinite(nis)) {
-        nisSum += nis;
-        nisCount++;
-        anchorNisSum[a] += nis;
-        anchorNisCount[a]++;
-        if (b >= 0) {
-          anchorNisSum[b] += nis;
-          anchorNisCount[b]++;
-        }
-        if (nis > gateNis) {
-          linkOutliers[L]++;
-          anchorOutliers[a]++;
-          if (b >= 0) anchorOutliers[b]++;
-          linkAnomalyTimes[L].push(upd.t_s[k]);
-          if (Number.isNaN(linkAnomalyLines[L])) linkAnomalyLines[L] = upd.line[k];
-        }
       }
     }
-    if (nisCount > 0) linkNisMean[L] = nisSum / nisCount;
-    linkInnov.push(summarizeValues(nus.subarray(0, nusLength)));
   }
+}
 
+/** out[o..o+m) = sign * src[from..from+m); returns o + m. */
+function copySigned(src: Float64Array, from: number, m: number, sign: number, out: Float64Array, o: number): number {
+  for (let q = 0; q < m; q++) out[o + q] = sign * src[from + q];
+  return o + m;
+}
+
+/**
+ * Step 1: updates per link and per anchor (counts, NIS sums, outliers beyond `gateNis`, oriented innovations).
+ * An anchor's innovations are its links' in link order (each link's in update order): +nu where it is j of pair
+ * i-j or the range anchor, -nu where it is i.
+ */
+function tallyUpdates(upd: UpdateColumns, groups: LinkGroups, links: LinkTable, nA: number, gateNis: number): UpdateTallies {
+  const nL = links.keys.length;
+  const { order, start } = groups;
+  const w: TallyArrays = {
+    la: Int32Array.from(links.a),
+    lb: Int32Array.from(links.b),
+    linkOutliers: new Int32Array(nL),
+    linkRejected: new Int32Array(nL),
+    linkNisSum: new Float64Array(nL),
+    linkNisCount: new Int32Array(nL),
+    linkNuLength: new Int32Array(nL),
+    anchorNisSum: new Float64Array(nA),
+    anchorNisCount: new Int32Array(nA),
+    anchorUpdates: new Int32Array(nA),
+    anchorRejected: new Int32Array(nA),
+    anchorOutliers: new Int32Array(nA),
+    linkAnomalyTimes: Array.from({ length: nL }, () => []),
+    linkAnomalyLines: new Array<number>(nL).fill(NaN),
+  };
+  const n = order.length;
+  const nus = takeFloat64(Math.max(1, n));
+  tallyPass(upd, order, start, gateNis, w, nus);
+  // anchors first (copies), then the links' own summaries (which reorder their innovations in place)
+  const work = takeFloat64(Math.max(1, n));
+  const anchorInnov: ValueSummary[] = [];
+  for (let a = 0; a < nA; a++) {
+    let m = 0;
+    for (let L = 0; L < nL; L++) {
+      if (w.la[L] === a) m = copySigned(nus, start[L], w.linkNuLength[L], w.lb[L] >= 0 ? -1 : 1, work, m);
+      else if (w.lb[L] === a) m = copySigned(nus, start[L], w.linkNuLength[L], 1, work, m);
+    }
+    anchorInnov.push(summarizeFiniteInPlace(work.subarray(0, m), m));
+  }
+  const linkNisMean = new Float64Array(nL).fill(NaN);
+  const linkInnov: ValueSummary[] = [];
+  for (let L = 0; L < nL; L++) {
+    if (w.linkNisCount[L] > 0) linkNisMean[L] = w.linkNisSum[L] / w.linkNisCount[L];
+    const m = w.linkNuLength[L];
+    linkInnov.push(summarizeFiniteInPlace(nus.subarray(start[L], start[L] + m), m));
+  }
+  giveBack(nus, work);
   return {
-    linkOutliers, linkRejected, linkNisMean, linkInnov, anchorNu, anchorNisSum, anchorNisCount, anchorUpdates,
-    anchorRejected, anchorOutliers, linkAnomalyTimes, linkAnomalyLines,
+    linkOutliers: w.linkOutliers, linkRejected: w.linkRejected, linkNisMean, linkInnov, anchorInnov,
+    anchorNisSum: w.anchorNisSum, anchorNisCount: w.anchorNisCount, anchorUpdates: w.anchorUpdates,
+    anchorRejected: w.anchorRejected, anchorOutliers: w.anchorOutliers, linkAnomalyTimes: w.linkAnomalyTimes,
+    linkAnomalyLines: w.linkAnomalyLines,
   };
 }
 
@@ -359,14 +401,24 @@ export function analyzeUwb(
   const kind: UwbBlock['kind'] = hasTdoa && hasRange ? 'mixed' : hasTdoa ? 'tdoa' : 'range';
 
   // ---- 1. Updates per link and per anchor ----
-  const updByLink = indicesByLink(upd.link, upd.t_s, upd.length, nL);
+  const updGroups = groupByLink(upd.link, upd.t_s, upd.length, nL);
+  const updByLink = updGroups.lists;
   const {
-    linkOutliers, linkRejected, linkNisMean, linkInnov, anchorNu, anchorNisSum, anchorNisCount, anchorUpdates,
+    linkOutliers, linkRejected, linkNisMean, linkInnov, anchorInnov, anchorNisSum, anchorNisCount, anchorUpdates,
     anchorRejected, anchorOutliers, linkAnomalyTimes, linkAnomalyLines,
-  } = tallyUpdates(upd, updByLink, links, nA, gateNis);
+  } = tallyUpdates(upd, updGroups, links, nA, gateNis);
 
   // ---- 2. Residuals of raw records against truth and estimate ----
-  const truth = truthTrack(log, settings);
+  // the truth track only when something reads it (raw records, fixes, or no estimate): building it scans the log
+  let truthMade = false;
+  let truthKept: Track | undefined;
+  const truthOf = (): Track | undefined => {
+    if (!truthMade) {
+      truthKept = truthTrack(log, settings);
+      truthMade = true;
+    }
+    return truthKept;
+  };
   const estimate = estimateTrack(log);
   // The bridged gap of each track is computed once (it takes a median over the track).
   const gapOf = new Map<Track, number>();
@@ -397,9 +449,13 @@ export function analyzeUwb(
     }
     return res;
   };
-  const resTruth = residualAgainst(truth);
+  const resTruth = raw.length > 0 ? residualAgainst(truthOf()) : undefined;
   const resEst = residualAgainst(estimate);
-  const linkValues = (res: Float64Array | undefined, L: number): number[] => (res ? rawByLink[L].map((k) => res[k]).filter(Number.isFinite) : []);
+  const linkValues = (res: Float64Array | undefined, L: number): number[] => {
+    const out: number[] = [];
+    if (res) for (const k of rawByLink[L]) if (Number.isFinite(res[k])) out.push(res[k]);
+    return out;
+  };
   const anchorOriented = (res: Float64Array | undefined): number[][] => {
     const out: number[][] = Array.from({ length: nA }, () => []);
     if (!res) return out;
@@ -487,7 +543,7 @@ export function analyzeUwb(
   // ---- Anchor reports, suspects ----
   const anchorReports: UwbAnchorReport[] = [];
   for (let a = 0; a < nA; a++) {
-    const nu = summarizeValues(anchorNu[a]);
+    const nu = anchorInnov[a];
     const rep: UwbAnchorReport = {
       id: anchors.ids[a],
       ...(positions[a] ? { p: [positions[a]![0], positions[a]![1], positions[a]![2]] as [number, number, number] } : {}),
@@ -633,7 +689,7 @@ export function analyzeUwb(
       return n > 0 ? Math.sqrt(s / n) : undefined;
     };
     const tq = fixes.t_s;
-    const atTruth = truthAt(truth, tq);
+    const atTruth = truthAt(truthOf(), tq);
     const atEst = truthAt(estimate, tq);
     const r3 = rmse(atTruth, 3);
     const r2 = rmse(atTruth, 2);
@@ -656,6 +712,7 @@ export function analyzeUwb(
 
   // ---- 4. Geometry ----
   const fixTrackAsTrack: Track | undefined = fixes.length > 0 ? { t_s: fixes.t_s, x: fixes.x, y: fixes.y, z: fixes.z, length: fixes.length } : undefined;
+  const truth = estimate ? undefined : truthOf();
   const positionTrack = estimate ?? truth ?? fixTrackAsTrack;
   const positionName: UwbBlock['dop']['position'] = estimate ? 'estimate' : truth ? 'truth' : fixTrackAsTrack ? 'fix' : undefined;
   const model = hasTdoa ? 'tdoa' : 'range';

@@ -11,6 +11,7 @@
  *   wander slowly do not make a small offset look significant.
  */
 import { norm3, type Vec3_m } from './vec3';
+import { radixMedian } from '../stats/radixMedian';
 
 /** Scale from MAD to a Gaussian sigma, 1 / Phi^-1(3/4) (common practice). */
 export const MAD_TO_SIGMA = 1.482602218505602;
@@ -101,6 +102,15 @@ export function summarizeValues(values: ArrayLike<number>): ValueSummary {
     const v = values[k];
     if (Number.isFinite(v)) finite[o++] = v;
   }
+  return summarizeFiniteInPlace(finite, n);
+}
+
+/**
+ * {@link summarizeValues} of finite[0..n), all finite, in their order; reorders `finite` (its median and MAD are
+ * selected in place). For callers that own a scratch copy of finite values: no further copy is made.
+ */
+export function summarizeFiniteInPlace(finite: Float64Array, n: number): ValueSummary {
+  if (n === 0) return { count: 0 };
   let sum = 0;
   let sumSq = 0;
   for (let k = 0; k < n; k++) {
@@ -128,10 +138,10 @@ export function summarizeValues(values: ArrayLike<number>): ValueSummary {
     out.meanSigma = out.std / Math.sqrt(nEff);
   }
   // Order no longer matters: select in place.
-  const med = medianInPlace(finite);
+  const med = radixMedian(finite, n);
   out.median = med;
   for (let k = 0; k < n; k++) finite[k] = Math.abs(finite[k] - med);
-  out.mad = medianInPlace(finite);
+  out.mad = radixMedian(finite, n);
   return out;
 }
 
@@ -164,7 +174,8 @@ export function makeTrack(t_s: Float64Array, x: Float64Array, y: Float64Array, z
   let lastT = -Infinity;
   for (let k = 0; k < length; k++) {
     const t = t_s[k];
-    if (Number.isFinite(t) && Number.isFinite(x[k]) && Number.isFinite(y[k]) && Number.isFinite(z[k])) {
+    // v - v === 0 is the finiteness test without a call (NaN and +-Infinity give NaN); the first pass over a long log
+    if (t - t === 0 && x[k] - x[k] === 0 && y[k] - y[k] === 0 && z[k] - z[k] === 0) {
       n++;
       if (t < lastT) sorted = false;
       lastT = t;
