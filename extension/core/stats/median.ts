@@ -33,8 +33,16 @@ export function medianInPlace(a: Float64Array, n = a.length): number {
   if (n === 0) return NaN;
   const h = n >> 1;
   const upper = selectInPlace(a, h, n);
-  if (n % 2) return upper;
-  let lower = -Infinity; // the largest value below position h, after the partition
+  return n % 2 ? upper : meanWithLowerMiddle(a, h, upper);
+}
+
+/**
+ * (largest of a[0..h) + upper) / 2: the even-length median after the partition. A function of its own: inlined in
+ * medianInPlace, a first even length after many odd ones made V8 drop the optimised code hundreds of times in one
+ * run (--trace-deopt: "insufficient type feedback for binary operation").
+ */
+function meanWithLowerMiddle(a: Float64Array, h: number, upper: number): number {
+  let lower = -Infinity;
   for (let i = 0; i < h; i++) if (a[i] > lower) lower = a[i];
   return (lower + upper) / 2;
 }
