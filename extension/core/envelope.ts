@@ -71,8 +71,82 @@ export function isAscending(x: Float64Array, length = x.length): boolean {
  * `length` limits the source to its first `length` points (streams may hold spare capacity).
  */
 export function envelope(source: EnvelopeSource, t0: number, t1: number, buckets: number, length = source.x.length): Envelope {
+  const n = Math.min(length, source.x.length, source.y.length);
+  const acc = new BucketScan(source.y, source.lo, source.hi);
+  return bucketEnvelope(source, n, t0, t1, buckets, (from, to) => {
+    acc.reset();
+    acc.scan(from, to);
+    return acc;
+  });
+}
+
+/** What a bucket's summary gives: first index of the smallest and of the largest `y` (-1: none), band extremes (+-Infinity: none). */
+export interface BucketSummary {
+  readonly iMin: number;
+  readonly iMax: number;
+  readonly lo: number;
+  readonly hi: number;
+}
+
+/** Running min/max over pieces of a series visited left to right (strict comparisons: the first index wins a tie). */
+export class BucketScan implements BucketSummary {
+  iMin = -1;
+  iMax = -1;
+  yMin = Infinity;
+  yMax = -Infinity;
+  lo = Infinity;
+  hi = -Infinity;
+
+  constructor(protected readonly y: Float64Array, protected readonly loCol?: Float64Array, protected readonly hiCol?: Float64Array) {}
+
+  /** Forget what was summed (a new bucket). */
+  reset(): void {
+    this.iMin = -1;
+    this.iMax = -1;
+    this.yMin = Infinity;
+    this.yMax = -Infinity;
+    this.lo = Infinity;
+    this.hi = -Infinity;
+  }
+
+  /** Points [from, to) one by one (locals in the loop: V8 keeps them in registers, not in the object). */
+  scan(from: number, to: number): void {
+    if (to <= from) return;
+    const { y, loCol, hiCol } = this;
+    let yMin = this.yMin;
+    let yMax = this.yMax;
+    let iMin = this.iMin;
+    let iMax = this.iMax;
+    for (let k = from; k < to; k++) {
+      const v = y[k];
+      if (v < yMin) { yMin = v; iMin = k; }
+      if (v > yMax) { yMax = v; iMax = k; }
+    }
+    this.yMin = yMin;
+    this.yMax = yMax;
+    this.iMin = iMin;
+    this.iMax = iMax;
+    if (loCol) {
+      let lo = this.lo;
+      for (let k = from; k < to; k++) if (loCol[k] < lo) lo = loCol[k];
+      this.lo = lo;
+    }
+    if (hiCol) {
+      let hi = this.hi;
+      for (let k = from; k < to; k++) if (hiCol[k] > hi) hi = hiCol[k];
+      this.hi = hi;
+    }
+  }
+}
+
+/**
+ * The envelope of `source`'s first `n` points over [t0, t1] (see the file header) with each bucket's extremes from
+ * `summarise(from, to)`: the plain scan ({@link envelope}) and the pyramid (core/envelopeIndex.ts) share this frame,
+ * so they place buckets, edge points and gap points the same way.
+ */
+export function bucketEnvelope(source: EnvelopeSource, n: number, t0: number, t1: number, buckets: number,
+  summarise: (from: number, to: number) => BucketSummary): Envelope {
   const { x } = source;
-  const n = Math.min(length, x.length, source.y.length);
   const nb = Math.max(1, Math.floor(buckets));
   const i0 = lowerBound(x, t0, 0, n);
   const i1 = upperBound(x, t1, i0, n);
@@ -100,19 +174,7 @@ export function envelope(source: EnvelopeSource, t0: number, t1: number, buckets
   for (let b = 0; b < nb && i < i1; b++) {
     const end = b === nb - 1 ? i1 : lowerBound(x, t0 + (b + 1) * span, i, i1);
     if (end <= i) continue;
-    let iMin = -1;
-    let iMax = -1;
-    let yMin = Infinity;
-    let yMax = -Infinity;
-    let l = Infinity;
-    let h = -Infinity;
-    for (let k = i; k < end; k++) {
-      const v = source.y[k];
-      if (v < yMin) { yMin = v; iMin = k; }
-      if (v > yMax) { yMax = v; iMax = k; }
-      if (source.lo && source.lo[k] < l) l = source.lo[k];
-      if (source.hi && source.hi[k] > h) h = source.hi[k];
-    }
+    const { iMin, iMax, lo: l, hi: h } = summarise(i, end);
     const lo = l === Infinity ? NaN : l;
     const hi = h === -Infinity ? NaN : h;
     if (iMin < 0) push(i, lo, hi); // only NaN in this bucket: keep one gap point

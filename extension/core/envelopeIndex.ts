@@ -13,7 +13,7 @@
  * Memory: about (4 + 4 + 8 + 8) * n / BLOCK * 4/3 bytes per series (0.5 MB for a million points with a band).
  * Hand-written: no npm package offers a first-index min/max pyramid over Float64Array columns with a band.
  */
-import { lowerBound, upperBound, type Envelope, type EnvelopeSource } from './envelope';
+import { BucketScan, bucketEnvelope, type Envelope, type EnvelopeSource } from './envelope';
 
 /** Points per level-0 block. */
 const BLOCK = 64;
@@ -37,54 +37,7 @@ export interface EnvelopeIndex {
 }
 
 /** Running min/max over pieces visited left to right (strict comparisons: the first index wins a tie). */
-class Accumulator {
-  iMin = -1;
-  iMax = -1;
-  yMin = Infinity;
-  yMax = -Infinity;
-  lo = Infinity;
-  hi = -Infinity;
-
-  constructor(private readonly y: Float64Array, private readonly loCol?: Float64Array, private readonly hiCol?: Float64Array) {}
-
-  reset(): void {
-    this.iMin = -1;
-    this.iMax = -1;
-    this.yMin = Infinity;
-    this.yMax = -Infinity;
-    this.lo = Infinity;
-    this.hi = -Infinity;
-  }
-
-  /** Points [from, to) one by one (locals in the loop: V8 keeps them in registers, not in the object). */
-  scan(from: number, to: number): void {
-    if (to <= from) return;
-    const { y, loCol, hiCol } = this;
-    let yMin = this.yMin;
-    let yMax = this.yMax;
-    let iMin = this.iMin;
-    let iMax = this.iMax;
-    for (let k = from; k < to; k++) {
-      const v = y[k];
-      if (v < yMin) { yMin = v; iMin = k; }
-      if (v > yMax) { yMax = v; iMax = k; }
-    }
-    this.yMin = yMin;
-    this.yMax = yMax;
-    this.iMin = iMin;
-    this.iMax = iMax;
-    if (loCol) {
-      let lo = this.lo;
-      for (let k = from; k < to; k++) if (loCol[k] < lo) lo = loCol[k];
-      this.lo = lo;
-    }
-    if (hiCol) {
-      let hi = this.hi;
-      for (let k = from; k < to; k++) if (hiCol[k] > hi) hi = hiCol[k];
-      this.hi = hi;
-    }
-  }
-
+class Accumulator extends BucketScan {
   /** Entry `j` of `level`. */
   add(level: Level, j: number): void {
     const a = level.iMin[j];
@@ -176,65 +129,10 @@ function summarise(index: EnvelopeIndex, acc: Accumulator, a: number, b: number)
  * same `source` and `length`): two binary searches per bucket and O(levels * FANOUT + BLOCK) work per bucket.
  */
 export function envelopeIndexed(source: EnvelopeSource, index: EnvelopeIndex, t0: number, t1: number, buckets: number): Envelope {
-  const { x } = source;
-  const n = index.length;
-  const nb = Math.max(1, Math.floor(buckets));
-  const i0 = lowerBound(x, t0, 0, n);
-  const i1 = upperBound(x, t1, i0, n);
-  const inWindow = i1 - i0;
-  const from = i0 > 0 ? i0 - 1 : i0;
-  const to = i1 < n ? i1 + 1 : i1;
-  if (inWindow <= 2 * nb || !(t1 > t0)) return copyRange(source, from, to, inWindow);
-
-  const cap = 2 * nb + 2;
-  const idx = new Int32Array(cap);
-  const bandLo = new Float64Array(cap);
-  const bandHi = new Float64Array(cap);
-  let count = 0;
-  const push = (i: number, l: number, h: number): void => {
-    idx[count] = i;
-    bandLo[count] = l;
-    bandHi[count] = h;
-    count++;
-  };
-  if (from < i0) push(from, source.lo ? source.lo[from] : NaN, source.hi ? source.hi[from] : NaN);
-
   const acc = new Accumulator(source.y, source.lo, source.hi);
-  const span = (t1 - t0) / nb;
-  let i = i0;
-  for (let b = 0; b < nb && i < i1; b++) {
-    const end = b === nb - 1 ? i1 : lowerBound(x, t0 + (b + 1) * span, i, i1);
-    if (end <= i) continue;
+  return bucketEnvelope(source, index.length, t0, t1, buckets, (from, to) => {
     acc.reset();
-    summarise(index, acc, i, end);
-    const lo = acc.lo === Infinity ? NaN : acc.lo;
-    const hi = acc.hi === -Infinity ? NaN : acc.hi;
-    const { iMin, iMax } = acc;
-    if (iMin < 0) push(i, lo, hi);
-    else if (iMin === iMax) push(iMin, lo, hi);
-    else if (iMin < iMax) { push(iMin, lo, hi); push(iMax, lo, hi); }
-    else { push(iMax, lo, hi); push(iMin, lo, hi); }
-    i = end;
-  }
-  if (to > i1) push(i1, source.lo ? source.lo[i1] : NaN, source.hi ? source.hi[i1] : NaN);
-
-  const out: Envelope = { x: new Float64Array(count), y: new Float64Array(count), inWindow, decimated: true };
-  if (source.lo) out.lo = bandLo.slice(0, count);
-  if (source.hi) out.hi = bandHi.slice(0, count);
-  if (source.line) out.line = new Float64Array(count);
-  for (let k = 0; k < count; k++) {
-    const j = idx[k];
-    out.x[k] = x[j];
-    out.y[k] = source.y[j];
-    if (out.line && source.line) out.line[k] = source.line[j];
-  }
-  return out;
-}
-
-function copyRange(source: EnvelopeSource, from: number, to: number, inWindow: number): Envelope {
-  const out: Envelope = { x: source.x.slice(from, to), y: source.y.slice(from, to), inWindow, decimated: false };
-  if (source.lo) out.lo = source.lo.slice(from, to);
-  if (source.hi) out.hi = source.hi.slice(from, to);
-  if (source.line) out.line = source.line.slice(from, to);
-  return out;
+    summarise(index, acc, from, to);
+    return acc;
+  });
 }
