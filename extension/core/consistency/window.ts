@@ -167,6 +167,48 @@ class BracketedBound {
 }
 
 /** The first finite value of `t[0..n)`, NaN when there is none. */
+/**
+ * The trailing window of each update in turn (`advance(i)` for i = 0, 1, ... n-1): it starts at `start` and holds
+ * `spec.size` updates or `spec.size` seconds; it never reaches back past a filter restart (`breaks`, the first update
+ * of each later segment), and it is full once its segment has run for the whole window. Shared by the sliding average
+ * with columns and the inside-share walk, so both walk the windows exactly alike.
+ */
+class TrailingWindows {
+  /** First update of the current window. */
+  start = 0;
+  private segmentStart = 0;
+  private nextBreak = 0;
+  private t0: number;
+  private readonly byUpdates: boolean;
+  private readonly size: number;
+
+  constructor(private readonly t_s: Float64Array, private readonly n: number, spec: WindowSpec, private readonly breaks: readonly number[]) {
+    this.t0 = firstFinite(t_s, n);
+    this.byUpdates = spec.kind === 'updates';
+    this.size = spec.size;
+  }
+
+  /** Move to update `i` (the next one); whether its window is full. */
+  advance(i: number): boolean {
+    const t = this.t_s;
+    if (this.nextBreak < this.breaks.length && i === this.breaks[this.nextBreak]) {
+      this.segmentStart = i;
+      this.start = i;
+      this.t0 = firstFinite(t.subarray(i), this.n - i);
+      this.nextBreak++;
+    }
+    if (this.byUpdates) {
+      this.start = Math.max(this.segmentStart, i - this.size + 1);
+      return i - this.segmentStart + 1 >= this.size;
+    }
+    const from = t[i] - this.size;
+    let j = this.start;
+    while (j < i && t[j] <= from) j++;
+    this.start = j;
+    return t[i] - this.t0 >= this.size;
+  }
+}
+
 function firstFinite(t: Float64Array, n: number): number {
   for (let i = 0; i < n; i++) if (Number.isFinite(t[i])) return t[i];
   return NaN;
@@ -203,30 +245,12 @@ export function slidingAverage(
   const hi = new Float64Array(size_).fill(NaN);
   const band = new BoundsCache(confidence, dof);
   const band95 = confidence === 0.95 ? band : new BoundsCache(0.95, dof);
-  const byUpdates = spec.kind === 'updates';
-  const size = spec.size;
   let full = 0;
   let fullInside95 = 0;
-  let j = 0;
-  let s0 = 0; // first update of the current segment
-  let nextBreak = 0;
-  let t0 = firstFinite(t_s, n);
+  const walk = new TrailingWindows(t_s, n, spec, breaks);
   for (let i = 0; i < n; i++) {
-    if (nextBreak < breaks.length && i === breaks[nextBreak]) {
-      s0 = i;
-      j = i;
-      t0 = firstFinite(t_s.subarray(i), n - i);
-      nextBreak++;
-    }
-    let isFull: boolean;
-    if (byUpdates) {
-      j = Math.max(s0, i - size + 1);
-      isFull = i - s0 + 1 >= size;
-    } else {
-      const start = t_s[i] - size;
-      while (j < i && t_s[j] <= start) j++;
-      isFull = t_s[i] - t0 >= size;
-    }
+    const isFull = walk.advance(i);
+    const j = walk.start;
     const k = i - j + 1;
     const m = (prefix[i + 1] - prefix[j]) / k;
     if (withColumns) {
@@ -260,8 +284,6 @@ export function insideShareFromPrefix(
   // Two walks over the windows: the first finds the smallest and largest count of a full window (the brackets'
   // ends), the second decides each window. Walking twice costs less than keeping every window's count and average
   // in work columns (first touches of new memory cost ~3.5 ms per MB here).
-  const byUpdates = spec.kind === 'updates';
-  const size = spec.size;
   let full = 0;
   let kMin = Infinity;
   let kMax = 0;
@@ -276,26 +298,10 @@ export function insideShareFromPrefix(
       hi95 = new BracketedBound(chi2IntervalUpper, 0.95, dof, kMin, kMax);
       finite = [lo95.exact(kMin), lo95.exact(kMax), hi95.exact(kMin), hi95.exact(kMax)].every(Number.isFinite);
     }
-    let j = 0;
-    let s0 = 0; // first update of the current segment
-    let nextBreak = 0;
-    let t0 = firstFinite(t_s, n);
+    const walk = new TrailingWindows(t_s, n, spec, breaks);
     for (let i = 0; i < n; i++) {
-      if (nextBreak < breaks.length && i === breaks[nextBreak]) {
-        s0 = i;
-        j = i;
-        t0 = firstFinite(t_s.subarray(i), n - i);
-        nextBreak++;
-      }
-      let isFull: boolean;
-      if (byUpdates) {
-        j = Math.max(s0, i - size + 1);
-        isFull = i - s0 + 1 >= size;
-      } else {
-        const start = t_s[i] - size;
-        while (j < i && t_s[j] <= start) j++;
-        isFull = t_s[i] - t0 >= size;
-      }
+      const isFull = walk.advance(i);
+      const j = walk.start;
       if (!isFull) continue;
       const k = i - j + 1;
       if (pass === 0 || !lo95 || !hi95) {
