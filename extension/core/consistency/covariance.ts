@@ -17,6 +17,39 @@ export const EIGEN_SAMPLE = 24;
 /** Runs of bad covariances kept (the rest are counted). */
 export const MAX_BAD_RUNS = 50;
 
+/** Maximal runs of consecutive bad updates: the first MAX_BAD_RUNS listed, the rest counted. */
+class BadRuns {
+  readonly runs: BadCovarianceRun[] = [];
+  moreRuns = 0;
+  private open: BadCovarianceRun | undefined;
+  private prevBad = false;
+
+  /** Update i is fine (or not checked): the next bad one starts a new run. */
+  good(): void {
+    this.prevBad = false;
+  }
+
+  /** Update i is bad: extend the open run or start one. */
+  bad(i: number, notSpd: boolean, asymmetric: boolean): void {
+    if (!this.prevBad) {
+      if (this.runs.length < MAX_BAD_RUNS) {
+        this.open = { first: i, last: i, count: 0, notSpd: 0, asymmetric: 0 };
+        this.runs.push(this.open);
+      } else {
+        this.open = undefined;
+        this.moreRuns++;
+      }
+    }
+    this.prevBad = true;
+    const open = this.open;
+    if (!open) return;
+    open.last = i;
+    open.count++;
+    if (notSpd) open.notSpd++;
+    if (asymmetric) open.asymmetric++;
+  }
+}
+
 /** A maximal run of consecutive updates whose S failed. */
 export interface BadCovarianceRun {
   first: number;
@@ -55,17 +88,14 @@ export function covarianceHealth(channel: Channel, extra: number[] = []): Covari
   let notSpd = 0;
   let asym = 0;
   let incomplete = 0;
-  const runs: BadCovarianceRun[] = [];
-  let moreRuns = 0;
-  let open: BadCovarianceRun | undefined;
-  let prevBad = false;
+  const bad = new BadRuns();
   for (let i = 0; i < length; i++) {
     const o = i * dd;
     let finite = 0;
     for (let k = 0; k < dd; k++) if (Number.isFinite(S[o + k])) finite++;
     if (finite < dd) {
       if (finite > 0) incomplete++;
-      prevBad = false;
+      bad.good();
       continue;
     }
     checked++;
@@ -73,24 +103,10 @@ export function covarianceHealth(channel: Channel, extra: number[] = []): Covari
     const isSpd = choleskyFactor(S, o, dof, work, 0);
     if (isAsym) asym++;
     if (!isSpd) notSpd++;
-    if (!isAsym && isSpd) { ok[i] = 1; prevBad = false; continue; }
-    if (!prevBad) {
-      if (runs.length < MAX_BAD_RUNS) {
-        open = { first: i, last: i, count: 0, notSpd: 0, asymmetric: 0 };
-        runs.push(open);
-      } else {
-        open = undefined;
-        moreRuns++;
-      }
-    }
-    prevBad = true;
-    if (!open) continue;
-    open.last = i;
-    open.count++;
-    if (!isSpd) open.notSpd++;
-    if (isAsym) open.asymmetric++;
+    if (!isAsym && isSpd) { ok[i] = 1; bad.good(); continue; }
+    bad.bad(i, !isSpd, isAsym);
   }
-  const out: CovarianceHealth = { checked, notSpd, asymmetric: asym, incomplete, eigenSampled: 0, runs, moreRuns };
+  const out: CovarianceHealth = { checked, notSpd, asymmetric: asym, incomplete, eigenSampled: 0, runs: bad.runs, moreRuns: bad.moreRuns };
   if (checked === 0) return out;
   // Eigen-figures on a sample of well-formed updates.
   const picks = new Set<number>();
@@ -153,36 +169,20 @@ function scalarHealth(S: Float64Array, length: number): CovarianceHealth {
   let notSpd = 0;
   let incomplete = 0;
   let minDiag = Infinity;
-  const runs: BadCovarianceRun[] = [];
-  let moreRuns = 0;
-  let open: BadCovarianceRun | undefined;
-  let prevBad = false;
+  const bad = new BadRuns();
   for (let i = 0; i < length; i++) {
     const v = S[i];
     if (!Number.isFinite(v)) {
-      prevBad = false;
+      bad.good();
       continue;
     }
     checked++;
     if (v < minDiag) minDiag = v;
-    if (v > Math.abs(v) * 1e-14) { prevBad = false; continue; }
+    if (v > Math.abs(v) * 1e-14) { bad.good(); continue; }
     notSpd++;
-    if (!prevBad) {
-      if (runs.length < MAX_BAD_RUNS) {
-        open = { first: i, last: i, count: 0, notSpd: 0, asymmetric: 0 };
-        runs.push(open);
-      } else {
-        open = undefined;
-        moreRuns++;
-      }
-    }
-    prevBad = true;
-    if (!open) continue;
-    open.last = i;
-    open.count++;
-    open.notSpd++;
+    bad.bad(i, true, false);
   }
-  const out: CovarianceHealth = { checked, notSpd, asymmetric: 0, incomplete, eigenSampled: 0, runs, moreRuns };
+  const out: CovarianceHealth = { checked, notSpd, asymmetric: 0, incomplete, eigenSampled: 0, runs: bad.runs, moreRuns: bad.moreRuns };
   if (checked === 0) return out;
   out.minEigenvalue = minDiag;
   if (minDiag > 0) out.maxCondition = 1;

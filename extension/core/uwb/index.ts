@@ -222,13 +222,17 @@ function estimateTrack(log: NavLog): Track | undefined {
 }
 
 /** Per-link and per-anchor tallies of the updates (step 1 of the file comment). */
-interface UpdateTallies {
+interface UpdateTallies extends AnchorCounts {
   linkOutliers: Int32Array;
   linkRejected: Int32Array;
   linkNisMean: Float64Array;
   linkInnov: ValueSummary[];
   /** Summary of the innovations per anchor, oriented as seen from that anchor, link after link in update order. */
   anchorInnov: ValueSummary[];
+}
+
+/** Per-anchor counts (length nA) and per-link anomaly lists, shared by the tallies and their work arrays. */
+interface AnchorCounts {
   anchorNisSum: Float64Array;
   anchorNisCount: Int32Array;
   anchorUpdates: Int32Array;
@@ -239,7 +243,7 @@ interface UpdateTallies {
 }
 
 /** Work arrays of {@link tallyPass}, per link (`link*`, length nL) and per anchor (`anchor*`, length nA). */
-interface TallyArrays {
+interface TallyArrays extends AnchorCounts {
   la: Int32Array;
   lb: Int32Array;
   linkOutliers: Int32Array;
@@ -247,13 +251,6 @@ interface TallyArrays {
   linkNisSum: Float64Array;
   linkNisCount: Int32Array;
   linkNuLength: Int32Array;
-  anchorNisSum: Float64Array;
-  anchorNisCount: Int32Array;
-  anchorUpdates: Int32Array;
-  anchorRejected: Int32Array;
-  anchorOutliers: Int32Array;
-  linkAnomalyTimes: number[][];
-  linkAnomalyLines: number[];
 }
 
 /**
