@@ -232,20 +232,27 @@ async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memory
     size,
     async *chunks(signal?: AbortSignal) {
       try {
+        // The iterator by hand (to time the waits); when the reader stops early, return() lets the byte source's
+        // `finally` close the file, as a for-await loop would.
         const it = raw.chunks(signal)[Symbol.asyncIterator]();
-        for (;;) {
-          let t = clock();
-          const next = await it.next();
-          io_ms += clock() - t;
-          if (next.done) break;
-          const chunk = next.value;
-          if (hash) { t = clock(); hash.update(chunk); hash_ms += clock() - t; }
-          bytesRead += chunk.byteLength;
-          progress?.publish(bytesRead);
-          options.onProgress?.(size > 0 ? Math.min(1, bytesRead / size) : 1);
-          t = clock();
-          yield chunk;
-          parse_ms += clock() - t;
+        let done = false;
+        try {
+          for (;;) {
+            let t = clock();
+            const next = await it.next();
+            io_ms += clock() - t;
+            if (next.done) { done = true; break; }
+            const chunk = next.value;
+            if (hash) { t = clock(); hash.update(chunk); hash_ms += clock() - t; }
+            bytesRead += chunk.byteLength;
+            progress?.publish(bytesRead);
+            options.onProgress?.(size > 0 ? Math.min(1, bytesRead / size) : 1);
+            t = clock();
+            yield chunk;
+            parse_ms += clock() - t;
+          }
+        } finally {
+          if (!done) await it.return?.();
         }
         mainDoneAt = clock();
         progress?.finish(bytesRead);

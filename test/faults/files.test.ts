@@ -131,6 +131,30 @@ describe('fault injection in the file layer', () => {
     expectOneLine(await cli('analyze', p), /log changed again while it was being read a second time: .*truncated/);
   });
 
+  it('an analysis cancelled mid-read closes the log it opened', async () => {
+    const p = path.join(dir, 'cancelled.csv');
+    writeFileSync(p, log(4000, 1));
+    const controller = new AbortController();
+    let opened = 0;
+    let closed = 0;
+    NODE_FILES.open = async (q: string): Promise<FileHandleLike> => {
+      const h = await REAL.open(q);
+      if (q === p) opened++;
+      let reads = 0;
+      return {
+        stat: () => h.stat(),
+        close: async () => { if (q === p) closed++; return h.close(); },
+        read: async (buf, off, len, pos) => {
+          if (q === p && ++reads === 3) controller.abort();
+          return h.read(buf, off, Math.min(len, 16 * 1024), pos);
+        },
+      };
+    };
+    await analyzeFile(p, { signal: controller.signal }).catch(() => undefined); // cancelled: a result or a rejection
+    expect(opened).toBeGreaterThan(0);
+    expect(closed).toBe(opened);
+  });
+
   it('a log that only grows while it is read is not a fault: the new rows are read too', async () => {
     const p = path.join(dir, 'grow.csv');
     writeFileSync(p, log(5000, 1));
