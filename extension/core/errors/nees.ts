@@ -27,6 +27,7 @@
 import { inverseQuadraticForm } from '../linalg/cholesky';
 import { chi2Cdf, chi2Interval, chi2Quantile, chi2Sf } from '../stats/chi2';
 import { giveBack, takeFloat64 } from '../scratch';
+import { fourLagSums } from '../stats/autocorrelation';
 
 /** Largest autocorrelation lag used for the effective sample size. */
 export const MAX_ACF_LAG = 500;
@@ -255,22 +256,17 @@ function centre3(num: Float64Array[], den: Float64Array[], i0: number, i1: numbe
  * d may hold NaN), each in ascending k.
  */
 function lagSums(d: Float64Array, m: number, lag: number, B: number, gaps: boolean, sums: Float64Array): void {
+  // Without gaps a full block is the plain four-lag sweep of the whiteness test (same sums in the same order).
+  if (!gaps && B === 4) { fourLagSums(d, m, 1, lag, sums, 0); return; }
   let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
   const kCommon = m - (lag + B - 1); // below it every lag of the block has its pair
-  if (!gaps && B === 4) {
-    for (let k = 0; k < kCommon; k++) {
-      const a = d[k];
-      s0 += a * d[k + lag]; s1 += a * d[k + lag + 1]; s2 += a * d[k + lag + 2]; s3 += a * d[k + lag + 3];
-    }
-  } else {
-    for (let k = 0; k < kCommon; k++) {
-      const a = d[k];
-      if (a !== a) continue;
-      let b = d[k + lag]; if (b === b) s0 += a * b;
-      if (B > 1) { b = d[k + lag + 1]; if (b === b) s1 += a * b; }
-      if (B > 2) { b = d[k + lag + 2]; if (b === b) s2 += a * b; }
-      if (B > 3) { b = d[k + lag + 3]; if (b === b) s3 += a * b; }
-    }
+  for (let k = 0; k < kCommon; k++) {
+    const a = d[k];
+    if (a !== a) continue;
+    let b = d[k + lag]; if (b === b) s0 += a * b;
+    if (B > 1) { b = d[k + lag + 1]; if (b === b) s1 += a * b; }
+    if (B > 2) { b = d[k + lag + 2]; if (b === b) s2 += a * b; }
+    if (B > 3) { b = d[k + lag + 3]; if (b === b) s3 += a * b; }
   }
   // the tails: the shorter lags have pairs beyond kCommon
   const acc = [s0, s1, s2, s3];

@@ -17,10 +17,11 @@ import { chi2Quantile, chi2Sf } from './chi2';
 import { giveBack, takeFloat64 } from '../scratch';
 
 /**
- * Lag products s_k = sum_{a < len - k * step} x[a] x[a + k * step] for k = k0..k0+3 into out[k - 1] (each summed in
- * increasing a, as a plain loop per lag would). Every k must be <= the caller's maxLag.
+ * Lag products s_k = sum_{a < len - k * step} x[a] x[a + k * step] for k = k0..k0+3 into out[at + k - k0] (each summed
+ * in increasing a, as a plain loop per lag would; `at` defaults to k0 - 1, i.e. out[k - 1]). Every k must be <= the
+ * caller's maxLag. Also the gap-free path of the NEES autocorrelations (errors/nees.ts).
  */
-function fourLagSums(x: Float64Array, len: number, step: number, k0: number, out: Float64Array): void {
+export function fourLagSums(x: Float64Array, len: number, step: number, k0: number, out: Float64Array, at = k0 - 1): void {
   const o0 = k0 * step, o1 = o0 + step, o2 = o1 + step, o3 = o2 + step;
   let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
   const end = len - o3; // a + o3 < len for every lag of the block below `end`
@@ -37,10 +38,10 @@ function fourLagSums(x: Float64Array, len: number, step: number, k0: number, out
   for (a = from; a + o2 < len; a++) s2 += x[a] * x[a + o2];
   for (a = from; a + o1 < len; a++) s1 += x[a] * x[a + o1];
   for (a = from; a + o0 < len; a++) s0 += x[a] * x[a + o0];
-  out[k0 - 1] = s0;
-  out[k0] = s1;
-  out[k0 + 1] = s2;
-  out[k0 + 2] = s3;
+  out[at] = s0;
+  out[at + 1] = s1;
+  out[at + 2] = s2;
+  out[at + 3] = s3;
 }
 
 /** Lag sums s_k (see fourLagSums) for k = 1..maxLag into out[k - 1]. */
