@@ -166,7 +166,6 @@ class BracketedBound {
   }
 }
 
-/** The first finite value of `t[0..n)`, NaN when there is none. */
 /**
  * The trailing window of each update in turn (`advance(i)` for i = 0, 1, ... n-1): it starts at `start` and holds
  * `spec.size` updates or `spec.size` seconds; it never reaches back past a filter restart (`breaks`, the first update
@@ -209,6 +208,7 @@ class TrailingWindows {
   }
 }
 
+/** The first finite value of `t[0..n)`, NaN when there is none. */
 function firstFinite(t: Float64Array, n: number): number {
   for (let i = 0; i < n; i++) if (Number.isFinite(t[i])) return t[i];
   return NaN;
