@@ -8,7 +8,7 @@ import { spawnSync } from 'node:child_process';
 import path from 'node:path';
 import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
-import { hugePageEnv, HUGE_PAGE_TUNABLE } from '../../extension/cli/launch';
+import { childV8Flags, hugePageEnv, HUGE_PAGE_TUNABLE } from '../../extension/cli/launch';
 
 const root = path.resolve(__dirname, '../..');
 const cli = path.join(root, 'dist/cli.js');
@@ -35,6 +35,14 @@ describe('hugePageEnv', () => {
   });
 });
 
+describe('childV8Flags', () => {
+  it('compiles on the running thread on machines with two cores or fewer, in the background elsewhere', () => {
+    expect(childV8Flags(1)).toEqual(['--no-concurrent-recompilation']);
+    expect(childV8Flags(2)).toEqual(['--no-concurrent-recompilation']);
+    expect(childV8Flags(4)).toEqual([]);
+  });
+});
+
 describe('dist/cli.js through the child', () => {
   const run = (args: string[], env: NodeJS.ProcessEnv) => spawnSync(process.execPath, [cli, ...args], { encoding: 'utf8', env });
   it('gives the same message and exit status with and without the child', () => {
@@ -51,12 +59,14 @@ describe('dist/cli.js through the child', () => {
     const seen = path.join(dir, 'seen.txt');
     const preload = path.join(dir, 'preload.js');
     // Every process that loads the preload writes whether it has the tunable: the parent (without) and its child (with).
-    writeFileSync(preload, `require('fs').appendFileSync(${JSON.stringify(seen)}, (process.env.GLIBC_TUNABLES || '-') + '\\n');`);
+    writeFileSync(preload, `require('fs').appendFileSync(${JSON.stringify(seen)}, (process.env.GLIBC_TUNABLES || '-') + ' ' + process.execArgv.filter((a) => a.startsWith('--')).join(',') + '\\n');`);
     const r = spawnSync(process.execPath, ['-r', preload, cli, 'analyze', '/no/such/residuum-log.csv'],
       { encoding: 'utf8', env: { ...process.env, RESIDUUM_NO_REEXEC: '', GLIBC_TUNABLES: '' } });
     expect(r.status).toBe(2);
     const lines = readFileSync(seen, 'utf8').trim().split('\n');
-    if (process.platform === 'linux') expect(lines).toEqual(['-', HUGE_PAGE_TUNABLE]);
-    else expect(lines).toEqual(['-']);
+    // The child gets the parent's flags (-r) after its own V8 flags (childV8Flags of this machine's cores).
+    const v8 = childV8Flags(os.availableParallelism()).join(',');
+    if (process.platform === 'linux') expect(lines).toEqual(['- ', `${HUGE_PAGE_TUNABLE} ${v8}`]);
+    else expect(lines).toEqual(['- ']);
   });
 });
