@@ -76,7 +76,8 @@ function finiteOrNull(x: number): number | null {
 
 /**
  * Analyse one channel (see the file comment). Never throws on bad data. `resets_s` (the run's filter restarts,
- * seconds) split the windowed NIS test into segments, and `nis.segments` gives the NIS figures of each segment.
+ * seconds) split the windowed NIS test and the whiteness figures into segments, and `nis.segments` gives the NIS
+ * figures of each segment.
  */
 export function analyzeChannel(channel: Channel, settings: AnalysisSettings, resets_s: readonly number[] = []): ChannelAnalysis {
   const { name, dof, length: n } = channel;
@@ -99,7 +100,7 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
   const scan = scanUpdates(channel, nu, gateValue, lo95, hi95, settings.maxWorst, binWidth);
   const { nis, m, tC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top } = scan;
   const { idUpdates, idRejected, idCount, idSum, idInside, idOutliers } = scan;
-  const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW } = scan;
+  const { compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, tW, mW } = scan;
 
   const accepted = n - rejected;
   const nisSummary: ChannelReport['nis'] = {
@@ -273,9 +274,12 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
     report.innovationMeanP = pValues;
   }
 
-  // Whiteness.
-  const white = whiteness(nuW.subarray(0, mW * dof), zW.subarray(0, mW * dof), mW, dof, settings.whitenessLags);
-  giveBack(nuW, zW);
+  // Whiteness, pooled within segments: no lag product pairs updates on both sides of a restart (whiteness.ts).
+  const whiteBreaks = mW > 0 && resets_s.length > 0 ? segmentBreaks(tW, 0, mW, resets_s) : [];
+  const white = whiteness(
+    nuW.subarray(0, mW * dof), zW.subarray(0, mW * dof), mW, dof, settings.whitenessLags, whiteBreaks, settings.familyAlpha,
+  );
+  giveBack(nuW, zW, tW);
   if (white) {
     report.whiteness = {
       lags: white.lags,
@@ -286,6 +290,8 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
       rho: Array.from(white.rho, finiteOrNull),
       rhoBound: Array.from(white.rhoBound, finiteOrNull),
       outside: white.outside,
+      ...(white.segments > 1 ? { segments: white.segments } : {}),
+      ...(white.permutations > 0 ? { permutations: white.permutations } : {}),
     };
     const lagsX = Float64Array.from({ length: white.lags }, (_, j) => j + 1);
     series.push({
@@ -302,8 +308,10 @@ export function analyzeChannel(channel: Channel, settings: AnalysisSettings, res
         ...(m > 0 ? { t: tC[0], tEnd: tC[m - 1] } : {}),
         message:
           `Innovations of ${name} are not white: Ljung-Box Q = ${formatNumber(white.ljungBoxQ)} over ${white.lags} lags` +
+          `${white.segments > 1 ? ` (within each of ${white.segments} segments between filter restarts)` : ''}` +
           `${dof > 1 ? ` (component ${white.component}, p corrected for ${dof} components)` : ''}, ` +
-          `p = ${formatNumber(white.ljungBoxP)} < ${formatPercent(settings.familyAlpha)}; ` +
+          `p = ${formatNumber(white.ljungBoxP)}${white.permutations > 0 ? ` (permutation test, ${white.permutations} reorderings)` : ''}` +
+          ` < ${formatPercent(settings.familyAlpha)}; ` +
           `${white.outside} of ${white.lags} lags of the normalized autocorrelation lie outside +-1.96/sqrt(K)`,
       });
     }
@@ -512,6 +520,8 @@ interface UpdateScan {
    */
   nuW: Float64Array;
   zW: Float64Array;
+  /** Times of those updates (scratch: give it back once read). */
+  tW: Float64Array;
   mW: number;
   /** Whether tC[0..m) is non-decreasing without NaN. */
   timesSorted: boolean;
@@ -553,6 +563,7 @@ function scanUpdates(
   const idNuCount = new Float64Array(nIds * dof);
   const nuW = takeFloat64(n * dof);
   const zW = takeFloat64(n * dof);
+  const tW = takeFloat64(n);
   const nis = new Float64Array(n);
   const work = new Float64Array(dd + dof);
   const haveS = hasFullS(channel);
@@ -639,12 +650,12 @@ function scanUpdates(
         zW[w + c] = x;
       }
     }
-    if (normOk) mW++;
+    if (normOk) { tW[mW] = t[i]; mW++; }
   }
   return {
     m, tC, idxC, sum, inside, outliers, outlierIdx, fromLog, missing, rejected, top,
     idUpdates, idRejected, idCount, idSum, idInside, idOutliers,
-    compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, mW, prefix, binCounts, overflow, nis, timesSorted,
+    compCount, compMean, compM2, idNuSum, idNuCount, nuW, zW, tW, mW, prefix, binCounts, overflow, nis, timesSorted,
   };
 }
 

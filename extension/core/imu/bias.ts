@@ -383,7 +383,7 @@ function analyzeAxis(
   const first = col[iFirst];
   const last = col[iLast];
   let sigmaFinal = NaN;
-  if (sigmaCol) for (let i = n - 1; i >= 0; i--) if (Number.isFinite(sigmaCol[i])) { sigmaFinal = sigmaCol[i]; break; }
+  if (sigmaCol) for (let i = n - 1; i >= 0; i--) if (Number.isFinite(sigmaCol[i]) && sigmaCol[i] >= 0) { sigmaFinal = sigmaCol[i]; break; }
 
   // series
   // the usable samples; when every record is usable, views of the columns (no copy: a long log's copies cost more

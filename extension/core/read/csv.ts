@@ -35,6 +35,11 @@ const QUOTE = 0x22;
 export class CsvFileReader {
   private readonly splitter: LineSplitter;
   private plan: RowPlan | undefined;
+  /** The row being dispatched, for {@link cellColumnOf}: its bytes (plain rows) or its cells' columns (quoted ones). */
+  private rowBytes: Uint8Array | undefined;
+  private rowStart = 0;
+  private rowEnd = 0;
+  private rowColumns: number[] | undefined;
   private delim = 0x2c;
   private delimChar = ',';
   private vals = new Float64Array(0);
@@ -251,6 +256,7 @@ export class CsvFileReader {
       names, charColumns, headerLine: header ? line : 0, spec, mapping: this.opts.mapping, role: this.opts.role,
       file: this.file, run: this.run, reportUnknown: true, mapName: this.opts.mapName,
     });
+    this.plan.cellColumn = (c) => this.cellColumnOf(c);
     this.vals = new Float64Array(names.length);
     this.strs = new Array<string | undefined>(names.length);
     if (!header) {
@@ -320,7 +326,28 @@ export class CsvFileReader {
       for (let k = p; k < e; k++) if (b[k] === delim) extra++;
       if (!(extra === 1 && this.isBlank(b, p + 1, e))) this.ragged(line, ncols + extra, ncols);
     }
+    this.rowBytes = b;
+    this.rowStart = s;
+    this.rowEnd = e;
+    this.rowColumns = undefined;
     plan.row(vals, strs, line);
+  }
+
+  /**
+   * 1-based character column of cell `c` of the row being dispatched (found when a diagnostic needs it: a plain row
+   * has no quotes, so cell c starts after the c-th delimiter).
+   */
+  private cellColumnOf(c: number): number | undefined {
+    if (this.rowColumns) return this.rowColumns[c];
+    const b = this.rowBytes;
+    if (!b) return undefined;
+    let p = this.rowStart;
+    for (let k = 0; k < c; k++) {
+      while (p < this.rowEnd && b[p] !== this.delim) p++;
+      if (p >= this.rowEnd) return undefined;
+      p++;
+    }
+    return charColumn(b, this.rowStart, p);
   }
 
   /** After the first rows, reserve every growing stream in proportion to the file size. */
@@ -384,9 +411,11 @@ export class CsvFileReader {
     const plan = this.plan;
     const n = plan.ncols;
     let column = 1;
+    const columns: number[] = [];
     for (let c = 0; c < n; c++) {
       const cell = cells[c];
       if (cell === undefined) { this.vals[c] = NaN; this.strs[c] = undefined; continue; }
+      columns[c] = column;
       const kind = plan.cellKind[c];
       if (kind === CELL_NUM) {
         const v = parseNumberText(cell);
@@ -402,6 +431,7 @@ export class CsvFileReader {
       column += cell.length + 1;
     }
     if (cells.length !== n && !(cells.length === n + 1 && cells[n].trim() === '')) this.ragged(line, cells.length, n);
+    this.rowColumns = columns;
     plan.row(this.vals, this.strs, line);
   }
 }

@@ -1,6 +1,7 @@
 /**
  * Reader diagnostics with a cap per (file, kind, column): the first {@link DIAGNOSTIC_CAP} are kept and the rest
- * counted, then summarised in one line, so a bad 1 GB file does not produce millions of objects.
+ * counted, then summarised in one line, so a bad 1 GB file does not produce millions of objects. A key starting with
+ * `first:` keeps only its first diagnostic and summarises the rest; `once:` keeps the first and drops the rest.
  */
 import type { Diagnostic, FindingKind, Severity } from '../model';
 
@@ -23,9 +24,10 @@ export class DiagnosticSink {
     const k = key ?? `${d.file}\u0000${d.kind}\u0000${d.channel ?? ''}\u0000${d.column ?? ''}`;
     const n = (this.counts.get(k) ?? 0) + 1;
     this.counts.set(k, n);
-    // Keys starting with "once:" are kept the first time only, without a summary.
+    // Keys starting with "once:" are kept the first time only, without a summary; keys starting with "first:" are
+    // kept the first time and the rest counted in one summary line (a value reported once per column).
     if (n > 1 && k.startsWith('once:')) return;
-    if (n <= DIAGNOSTIC_CAP) { this.list.push(d); return; }
+    if (n <= (k.startsWith('first:') ? 1 : DIAGNOSTIC_CAP)) { this.list.push(d); return; }
     const o = this.overflow.get(k);
     if (o) o.dropped++;
     else this.overflow.set(k, { first: d, dropped: 1 });

@@ -46,6 +46,8 @@ export class JsonRecordSink {
   private flatP: JsonValue | undefined;
   /** While learning a shape, diagnostics are counted in {@link learnDiags} instead of reported. */
   private learning = false;
+  /** Column of the record being dispatched (the column a plan's cell diagnostics give). */
+  private rowColumn = 1;
   private learnDiags = 0;
   /** Learned record shapes (jsonShape.ts) by shape hash. */
   private readonly shapes = new Map<number, FastShape[]>();
@@ -235,6 +237,7 @@ export class JsonRecordSink {
     if (!plan) {
       plan = compilePlan({ names, headerLine: line, spec: this.opts.spec, mapping: this.opts.mapping, role: this.opts.role,
         file: this.file, run: this.run, reportUnknown: true, mapName: this.opts.mapName });
+      plan.cellColumn = () => this.rowColumn;
       this.plans.set(sig, plan);
     }
     return plan;
@@ -286,6 +289,7 @@ export class JsonRecordSink {
     const target = plan.target;
     const before = target.length;
     const droppedBefore = target.dropped;
+    this.rowColumn = column;
     plan.row(vals, strs, line);
     if (P !== undefined && target.dropped === droppedBefore) {
       if (target.length === before) {
@@ -382,6 +386,7 @@ export class JsonRecordSink {
       if (leafStr[k] === 1) strs[c] = this.ids.text(b, scanner.strStart[k], scanner.strEnd[k]);
       else vals[c] = num[k] * scale[c] + offset[c];
     }
+    this.rowColumn = scanner.column;
     plan.row(vals, strs, line);
   }
 

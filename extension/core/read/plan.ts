@@ -45,7 +45,11 @@ export interface PlanInput {
   mapName?: string;
 }
 
-interface SimpleCol { col: number; slot: Slot; variance: boolean; name: string }
+/**
+ * A state column copied as is (`variance`: a variance, stored as its square root; `sigma`: a 1-sigma column, which
+ * must not be negative).
+ */
+interface SimpleCol { col: number; slot: Slot; variance: boolean; sigma: boolean; name: string }
 interface AttitudeGroup {
   prefix: string;
   quat?: number[];
@@ -99,6 +103,11 @@ export class RowPlan {
   private readonly m = new Float64Array(9);
   private scratch = new Float64Array(0);
   private chol = new Float64Array(0);
+  /**
+   * The 1-based character column of cell `c` of the row being dispatched, for diagnostics about a cell (set by the
+   * reader: the CSV reader finds the cell in the row, the JSON reader gives the record's column).
+   */
+  cellColumn: (c: number) => number | undefined = () => undefined;
 
   constructor(readonly run: RunBuilder, role: FileRole) {
     this.target = role === 'reference' ? run.reference : run.state;
@@ -152,9 +161,18 @@ export class RowPlan {
           if (s.variance && v === v) {
             if (v < 0) {
               run.diagnostics.report('warning', 'bad-value', this.file, line,
-                `Negative variance ${v} in column "${clip(this.names[s.col])}"; left out.`, { t, key: `${this.file}:negvar:${s.col}` });
+                `Negative variance ${v} in column "${clip(this.names[s.col])}"; left out.`,
+                { t, key: `${this.file}:negvar:${s.col}`, ...columnOf(this.cellColumn(s.col)) });
               v = NaN;
             } else v = Math.sqrt(v);
+          } else if (s.sigma && v < 0) {
+            // A standard deviation cannot be negative (squared it would pass as a valid variance downstream):
+            // missing, reported on its first occurrence per column with the count of the others (diagnostics.ts).
+            run.diagnostics.report('warning', 'bad-value', this.file, line,
+              `Column "${clip(this.names[s.col])}" holds the negative standard deviation ${v}; it is treated as missing, ` +
+              'as is every negative value of this column.',
+              { t, key: `first:${this.file}:negsigma:${s.col}`, ...columnOf(this.cellColumn(s.col)) });
+            v = NaN;
           }
           s.slot.arr[i] = v;
         }
@@ -536,7 +554,7 @@ export function compilePlan(input: PlanInput): RowPlan {
       stateByName.delete(prefix + k);
       if (EULER.includes(k) && !g.quat && !g.mat && !g.euler) {
         // An incomplete set of Euler angles (e.g. heading only) is kept as its own column, in radians.
-        plan.simple.push({ col: c, slot: target.slot(prefix + k), variance: false, name: prefix + k });
+        plan.simple.push({ col: c, slot: target.slot(prefix + k), variance: false, sigma: false, name: prefix + k });
         diag.report('info', 'note', file, input.headerLine,
           `Column "${clip(names[c])}" gives ${prefix}${k} without the other Euler angles; it is kept as column ${prefix}${k} (rad), no quaternion is formed.`,
           { ...where(c), key: `once:${file}:partial:${names[c]}` });
@@ -550,7 +568,8 @@ export function compilePlan(input: PlanInput): RowPlan {
   }
   for (const [name, c] of stateByName) {
     const r = roles[c];
-    plan.simple.push({ col: c, slot: target.slot(name), variance: r?.kind === 'state' && r.variance === true, name });
+    const variance = r?.kind === 'state' && r.variance === true;
+    plan.simple.push({ col: c, slot: target.slot(name), variance, sigma: !variance && isSigmaName(name), name });
   }
   plan.stateCols = [...stateCols];
 
@@ -630,4 +649,14 @@ export function compilePlan(input: PlanInput): RowPlan {
     plan.tdoa = { i: ti, j: tj, d: td, iSlot: tb.slot('i'), jSlot: tb.slot('j'), dSlot: tb.slot('d') };
   }
   return plan;
+}
+
+/** Whether a state column name is a 1-sigma column (`sigma_<state>`, names.ts). */
+function isSigmaName(name: string): boolean {
+  return name.startsWith('sigma_');
+}
+
+/** `{ column }` when the column is known, else nothing (for a diagnostic's extra fields). */
+function columnOf(column: number | undefined): { column?: number } {
+  return column !== undefined ? { column } : {};
 }

@@ -14,7 +14,7 @@
  *   `att`); its variance is the trace of its diagonal block (sum of the states' variances), which is invariant to a
  *   rotation of the axes and is not fooled by one nearly-zero axis.
  * - Variances come from the full covariance `state.P` when it is logged (its diagonal), else from the `sigma_*`
- *   columns squared.
+ *   columns squared; a negative sigma (invalid: the reader reports it and reads it as missing) counts as missing.
  * - The ratio of epoch k is trace_b(k) / trace_b(prev), where prev is the last earlier epoch with a finite, positive
  *   trace for that block; a previous trace below FLOOR_RELATIVE times the block's median trace is raised to that
  *   floor (a variance logged as almost 0, or rounded to 0 by the logger, must not make an infinite ratio).
@@ -212,7 +212,8 @@ function scanJumps(
       if (floors && !(floor > 0)) continue;
       let v = 0;
       if (matrix) for (let q = diagStart[k]; q < diagStart[k + 1]; q++) v += matrix[row + diag[q]];
-      for (let q = sigStart[k]; q < sigStart[k + 1]; q++) { const s = sig[q][i]; v += s * s; }
+      // a negative sigma is invalid, not a variance: NaN, so the epoch is skipped as for a missing one
+      for (let q = sigStart[k]; q < sigStart[k + 1]; q++) { const s = sig[q][i]; v += s >= 0 ? s * s : NaN; }
       if (!(v > 0) || !Number.isFinite(v)) continue; // NaN, zero or negative: that epoch is skipped for the block
       if (sampleNow && sample) sample.samples[k * sample.per + sample.count[k]++] = v;
       const prev = prevIndex[k];

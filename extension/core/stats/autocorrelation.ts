@@ -155,3 +155,126 @@ export function twoSidedNormalQuantile(confidence: number): number {
 export function autocorrelationBound(confidence: number, pairs: number): number {
   return pairs > 0 ? twoSidedNormalQuantile(confidence) / Math.sqrt(pairs) : NaN;
 }
+
+/**
+ * Segment bounds [0, ...breaks, n] as cuts: segment s is [cuts[s], cuts[s + 1]). `breaks` are the indices in (0, n)
+ * where a new segment starts (sorted, unique; resets/segments.ts `segmentBreaks`).
+ */
+function segmentCuts(n: number, breaks: readonly number[]): number[] {
+  const cuts = [0];
+  for (const b of breaks) if (b > cuts[cuts.length - 1] && b < n) cuts.push(b);
+  cuts.push(n);
+  return cuts;
+}
+
+/**
+ * Lag pairs within segments: `out[k - 1]` = sum over segments of max(0, n_s - k) for k = 1..maxLag (n - k for one
+ * segment). Returns `out`.
+ */
+export function segmentPairs(n: number, breaks: readonly number[], maxLag: number, out = new Float64Array(maxLag)): Float64Array {
+  const cuts = segmentCuts(n, breaks);
+  for (let k = 1; k <= maxLag; k++) {
+    let p = 0;
+    for (let s = 0; s + 1 < cuts.length; s++) p += Math.max(0, cuts[s + 1] - cuts[s] - k);
+    out[k - 1] = p;
+  }
+  return out;
+}
+
+/**
+ * The pooled within-segment sample autocorrelation of `x[0..n)` split at `breaks` (filter restarts): each segment s
+ * is centred on its own mean m_s and scaled to its own sample variance c_s / n_s (c_s = sum_{t in s} (x_t - m_s)^2),
+ * and r_k = (1/n) sum_s (n_s / c_s) sum_{t, t+k in s} (x_t - m_s)(x_{t+k} - m_s): no product pairs values of two
+ * segments, and a segment whose scale differs (S too large or too small after a restart) weighs as its length says.
+ * With no breaks it is the value of `autocorrelation` (the lag sums of one segment are taken in the same order).
+ * A constant segment adds no products. `out[k - 1]` receives r_k (NaN when no segment holds a pair at lag k or
+ * every segment is constant).
+ */
+export function segmentedAutocorrelation(
+  x: ArrayLike<number>, n: number, breaks: readonly number[], maxLag: number, out = new Float64Array(maxLag),
+): Float64Array {
+  const cuts = segmentCuts(n, breaks);
+  const d = takeFloat64(n);
+  const part = new Float64Array(maxLag);
+  out.fill(0, 0, maxLag);
+  let varying = false;
+  for (let s = 0; s + 1 < cuts.length; s++) {
+    const a = cuts[s], b = cuts[s + 1];
+    let mean = 0;
+    for (let t = a; t < b; t++) mean += x[t];
+    mean /= b - a;
+    let c0 = 0;
+    for (let t = a; t < b; t++) { const v = x[t] - mean; d[t] = v; c0 += v * v; }
+    if (!(c0 > 0)) continue;
+    varying = true;
+    const usable = Math.min(maxLag, b - a - 1);
+    if (usable < 1) continue;
+    lagSums(d.subarray(a, b), b - a, 1, usable, part);
+    // one segment: N_k / c exactly as `autocorrelation` divides; several: weighted by n_s / c_s, divided by n below
+    const scale = (b - a) / c0;
+    for (let k = 0; k < usable; k++) out[k] += cuts.length === 2 ? part[k] / c0 : part[k] * scale;
+  }
+  giveBack(d);
+  const pairs = segmentPairs(n, breaks, maxLag);
+  for (let k = 1; k <= maxLag; k++) {
+    if (!(pairs[k - 1] > 0) || !varying) { out[k - 1] = NaN; continue; }
+    if (cuts.length > 2) out[k - 1] /= n;
+  }
+  return out;
+}
+
+/**
+ * Ljung-Box Q of a series split into segments, from its pooled within-segment autocorrelations `r` (r[k-1] = r_k,
+ * `segmentedAutocorrelation`): Q = n (n + 2) sum_{k=1}^{m} r_k^2 / P_k with P_k the lag-k pairs within segments
+ * (`segmentPairs`), since Var(r_k) is about P_k / (n (n + 2)) under whiteness as (n - k) / (n (n + 2)) is for
+ * one segment (Ljung and Box 1978). m - fittedParams degrees of freedom. With P_k = n - k it is `ljungBox`.
+ */
+export function segmentedLjungBox(
+  r: ArrayLike<number>, n: number, pairs: ArrayLike<number>, m: number, fittedParams = 0,
+): PortmanteauResult {
+  let s = 0;
+  for (let k = 1; k <= m; k++) s += (r[k - 1] * r[k - 1]) / pairs[k - 1];
+  const q = n * (n + 2) * s;
+  const dof = m - fittedParams;
+  return { q, dof, p: dof > 0 && Number.isFinite(q) ? chi2Sf(q, dof) : NaN };
+}
+
+/**
+ * `normalizedAutocorrelation` with products taken within segments only (split at `breaks`): rho(j) sums
+ * nu(k)^T nu(k+j) over the pairs of a segment and normalises by the energies of those pairs' first and second
+ * members. With no breaks it is the value of `normalizedAutocorrelation`.
+ */
+export function segmentedNormalizedAutocorrelation(
+  nu: Float64Array, dof: number, count: number, breaks: readonly number[], maxLag: number, out = new Float64Array(maxLag),
+): Float64Array {
+  const cuts = segmentCuts(count, breaks);
+  const energy = takeFloat64(count + 1);
+  energy[0] = 0;
+  for (let k = 0; k < count; k++) {
+    let e = 0;
+    for (let c = 0; c < dof; c++) e += nu[k * dof + c] * nu[k * dof + c];
+    energy[k + 1] = energy[k] + e;
+  }
+  const part = new Float64Array(maxLag);
+  out.fill(0, 0, maxLag);
+  for (let s = 0; s + 1 < cuts.length; s++) {
+    const a = cuts[s], b = cuts[s + 1];
+    const usable = Math.min(maxLag, b - a - 1);
+    if (usable < 1) continue;
+    lagSums(nu.subarray(a * dof, b * dof), (b - a) * dof, dof, usable, part);
+    for (let j = 0; j < usable; j++) out[j] += part[j];
+  }
+  for (let j = 1; j <= maxLag; j++) {
+    let head = 0, tail = 0;
+    for (let s = 0; s + 1 < cuts.length; s++) {
+      const a = cuts[s], b = cuts[s + 1];
+      if (b - a <= j) continue;
+      head += energy[b - j] - energy[a];
+      tail += energy[b] - energy[a + j];
+    }
+    const den = Math.sqrt(head * tail);
+    out[j - 1] = den > 0 ? out[j - 1] / den : NaN;
+  }
+  giveBack(energy);
+  return out;
+}

@@ -11,6 +11,7 @@ export interface JStatSubset {
   chisquare: { inv(p: number, dof: number): number; cdf(x: number, dof: number): number };
   studentt: { cdf(x: number, dof: number): number };
   normal: { inv(p: number, mean: number, std: number): number };
+  binomial: { cdf(k: number, n: number, p: number): number };
 }
 
 /** jStat 1.9 (devDependency). */
