@@ -12,7 +12,7 @@
  *   which checks every field at run time. A file is named by its index in `InitMessage.files`, never by a path.
  *
  * This file imports types only, so both the host and the webview bundle can use it without pulling code in,
- * except for the small guard functions at the bottom, which are pure.
+ * except for small pure functions: which series the panel draws ({@link isDrawn}) and the guards at the bottom.
  */
 import type { Report } from './core/report';
 import type { Note } from './core/notes/sidecar';
@@ -35,6 +35,54 @@ export interface SeriesInfo {
   /** Smallest and largest finite x (NaN when the series is empty). */
   x0: number;
   x1: number;
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Which series the panel draws (shared: the webview builds its charts by it, the host pushes envelopes by it)
+
+/** Key prefixes that name a view when a series carries no group. */
+const PREFIX_VIEW: Record<string, string> = {
+  nis: 'innovations',
+  nisWindow: 'innovations',
+  innovation: 'innovations',
+  error: 'errors',
+  nees: 'errors',
+  neesWindow: 'errors',
+  trajectory: 'trajectory',
+  bias: 'bias',
+  allan: 'allan',
+  uwb: 'uwb',
+};
+
+/** Views that draw none of the run's series: the overview shows tables, Compare and Monte Carlo get their own data. */
+const VIEWS_WITHOUT_SERIES: ReadonlySet<string> = new Set(['overview', 'compare', 'montecarlo']);
+
+/** The view (tab id) a series is shown in: its `group`, else the view named by its key's first segment. */
+export function viewOf(info: Pick<SeriesInfo, 'key' | 'group'>): string {
+  const group = info.group.trim();
+  if (group !== '') return group;
+  const prefix = info.key.split('/')[0];
+  return PREFIX_VIEW[prefix] ?? (prefix || 'other');
+}
+
+/**
+ * Whether a series gets a chart of its own: step series (`.../steps`) are drawn as markers on their parent, and the
+ * core's NIS histogram/density pair is replaced by the host's histogram chart when one exists for the channel.
+ */
+export function ownChart(info: Pick<SeriesInfo, 'key'>, histogramKeys: ReadonlySet<string>): boolean {
+  const parts = info.key.split('/');
+  if (parts[parts.length - 1] === 'steps' && parts.length > 2) return false;
+  if ((parts[0] === 'nisHistogram' || parts[0] === 'nisPdf') && histogramKeys.has(`nis/${parts.slice(1).join('/')}`)) return false;
+  return true;
+}
+
+/**
+ * Whether the panel draws series `info` in a chart (of its own, or as a layer of the trajectory chart), given the
+ * NIS keys that have a host histogram: its view draws series, and {@link ownChart} holds. The host sends unasked
+ * envelopes only for these series; the webview asks only for these.
+ */
+export function isDrawn(info: Pick<SeriesInfo, 'key' | 'group'>, histogramKeys: ReadonlySet<string>): boolean {
+  return !VIEWS_WITHOUT_SERIES.has(viewOf(info)) && ownChart(info, histogramKeys);
 }
 
 /** A histogram of a NIS series against the chi-square density of its dof (counts per bin). */

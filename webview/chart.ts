@@ -7,7 +7,7 @@
  * shape.ts. Colours are read from the theme's CSS variables at draw time, so a theme switch needs only a redraw.
  */
 import uPlot from 'uplot';
-import { equalAspect, gapsToNull, positiveOrNull } from './shape';
+import { equalAspect, fitText, gapsToNull, positiveOrNull } from './shape';
 
 /** Colours of the current theme (CSS colour strings). */
 export interface Theme {
@@ -76,6 +76,8 @@ const XY_HEIGHT_PX = 360;
 export interface TimeChartOptions {
   label: string;
   unit: string;
+  /** The y axis's label (shape.ts yAxisLabel: the unit, or a short name of the quantity). */
+  axisLabel: string;
   /** 'time': linked cursor, zoom and pan; 'loglog': Allan deviation; 'plain': another abscissa (lags, bins). */
   kind: 'time' | 'loglog' | 'plain';
   band: boolean;
@@ -93,9 +95,17 @@ export interface TimeChartOptions {
   onPick?: (t: number) => void;
 }
 
+/**
+ * An axis in the theme's colours. Its label is fitted at each draw to the length of the plotting area along the axis
+ * (shortened with an ellipsis): a rotated y label longer than the plot's height would otherwise be cut by the canvas.
+ */
 function axis(theme: () => Theme, label: string, log = false): uPlot.Axis {
   return {
-    label,
+    label: label === '' ? undefined : (u, axisIdx) => {
+      // uPlot has set the label font on the context before it asks for the text; bbox and widths are device pixels.
+      const along = u.axes[axisIdx]?.side === 1 || u.axes[axisIdx]?.side === 3 ? u.bbox.height : u.bbox.width;
+      return fitText(label, along, (s) => u.ctx.measureText(s).width);
+    },
     stroke: () => theme().foreground,
     grid: { stroke: () => theme().grid, width: 1 },
     ticks: { stroke: () => theme().grid, width: 1 },
@@ -181,7 +191,7 @@ export class TimeChart extends PlotChart {
     const isTime = options.kind === 'time';
     const isLog = options.kind === 'loglog';
     const series: uPlot.Series[] = [
-      {},
+      { label: isTime ? 't [s]' : isLog ? 'tau [s]' : 'x' },
       { label: options.label, stroke: () => theme().line, width: 1, points: { show: false }, spanGaps: false },
     ];
     const bands: uPlot.Band[] = [];
@@ -192,7 +202,6 @@ export class TimeChart extends PlotChart {
       );
       bands.push({ series: [2, 3], fill: () => theme().bandFill });
     }
-    const unit = options.unit && options.unit !== '1' ? ` [${options.unit}]` : '';
     const opts: uPlot.Options = {
       width: this.width,
       height: HEIGHT_PX,
@@ -202,7 +211,7 @@ export class TimeChart extends PlotChart {
         x: isTime ? { time: false, auto: false, min: this.window[0], max: this.window[1] } : isLog ? { time: false, distr: 3, log: 10, range: safeRange(true) } : { time: false, range: safeRange(false) },
         y: isLog ? { distr: 3, log: 10, range: safeRange(true) } : { auto: true, range: safeRange(false) },
       },
-      axes: [axis(theme, isTime ? 't [s]' : isLog ? 'tau [s]' : '', isLog), axis(theme, unit ? unit.trim() : options.label.slice(0, 24), isLog)],
+      axes: [axis(theme, isTime ? 't [s]' : isLog ? 'tau [s]' : '', isLog), axis(theme, options.axisLabel, isLog)],
       legend: { show: true, live: isTime },
       cursor: isTime
         ? {
@@ -359,12 +368,42 @@ function planarPaths(style: XyLayer['style']): uPlot.Series.PathBuilder {
   };
 }
 
-/** A trajectory seen from above (x east, y north, equal metres per pixel) with point layers. */
+/**
+ * A trajectory seen from above (x east, y north, equal metres per pixel) with point layers, and a key under the plot
+ * naming each layer with its colour and style (uPlot's own legend does not serve planar charts).
+ */
 export class XyChart extends PlotChart {
   private layers: XyLayer[] = [];
+  private readonly plotHost: HTMLElement;
+  private readonly key: HTMLElement;
 
-  constructor(private readonly container: HTMLElement, private readonly unit: string, width: number, private readonly theme: () => Theme) {
+  constructor(container: HTMLElement, private readonly unit: string, width: number, private readonly theme: () => Theme) {
     super(width);
+    this.plotHost = document.createElement('div');
+    this.key = document.createElement('ul');
+    this.key.className = 'xy-key';
+    container.append(this.plotHost, this.key);
+  }
+
+  /** The key's entries for the current layers, coloured by the current theme. */
+  private drawKey(): void {
+    const theme = this.theme();
+    this.key.replaceChildren(
+      ...this.layers.map((l) => {
+        const swatch = document.createElement('span');
+        swatch.className = `swatch swatch-${l.style}`;
+        swatch.style.setProperty('--swatch', l.color(theme));
+        const item = document.createElement('li');
+        item.append(swatch, document.createTextNode(l.label));
+        return item;
+      }),
+    );
+  }
+
+  /** Redraw (and recolour the key) with the current theme. */
+  override redraw(): void {
+    this.drawKey();
+    super.redraw();
   }
 
   /** Draw `layers` (replaces the previous ones); returns the number of points drawn. */
@@ -423,8 +462,9 @@ export class XyChart extends PlotChart {
         cursor: { show: false, drag: { x: false, y: false } },
       },
       data as uPlot.AlignedData,
-      this.container,
+      this.plotHost,
     );
+    this.drawKey();
     return this.points;
   }
 
@@ -448,7 +488,7 @@ export class HistogramChart {
         width,
         height: HEIGHT_PX,
         series: [
-          {},
+          { label },
           { label: 'count', stroke: () => theme().line, fill: () => withAlpha(theme().line, 0.35), paths: bars, points: { show: false } },
           { label: 'chi-square expectation', stroke: () => theme().band, width: 2, points: { show: false } },
         ],
@@ -509,11 +549,11 @@ export class OverlayChart extends PlotChart {
   setData(x: readonly number[], ys: readonly (readonly (number | null)[])[]): number {
     const { options, theme } = this;
     this.plot?.destroy();
-    const series: uPlot.Series[] = [{}];
+    const series: uPlot.Series[] = [{ label: 'common t [s]' }];
     options.curves.forEach((c) => {
       series.push({ label: c.label, stroke: () => theme().runs[c.run % theme().runs.length], width: 1.5, points: { show: false }, spanGaps: true });
     });
-    const unit = options.unit && options.unit !== '1' ? options.unit : options.label.slice(0, 24);
+    const unit = options.unit && options.unit !== '1' ? `[${options.unit}]` : options.label;
     this.plot = new uPlot(
       {
         width: this.width,

@@ -9,7 +9,8 @@
  * `<button data-line data-t>`; `data-testid="findings-list"`; `data-testid="overview"`;
  * `document.body.dataset.chartsRendered` once every chart (on every view) got its first data. Timing hooks for the
  * editor bench: `body[data-render-timing]`, each time chart's `data-last-timing` and `data-last-envelope-ms`,
- * `body[data-zooms-answered]` and `body[data-last-zoom-all-ms]` (docs/editor.md).
+ * `body[data-zooms-answered]` and `body[data-last-zoom-all-ms]` (docs/editor.md). `body[data-unasked-undrawn]` counts
+ * the envelopes the host sent unasked for a series no chart draws (absent while there is none, as it should be).
  *
  * Envelopes: without a zoomed window the host sends every series' first envelope right after `init` (answers with
  * id 0); otherwise each view asks as it is built, the view on screen first. A zoom asks again only for the charts of
@@ -19,6 +20,7 @@
 import { exportButtons } from './export';
 import type { Finding } from '../extension/core/report';
 import {
+  isDrawn,
   parseHostMessage,
   type HistogramInfo,
   type HostToWebviewMessage,
@@ -43,12 +45,13 @@ import {
   flattenBlock,
   groupViews,
   markersFor,
-  ownChart,
   nextWindow,
   runSummary,
   tableRows,
   worstLabel,
+  layerName,
   worstOnPath,
+  yAxisLabel,
   type WindowAction,
 } from './shape';
 import { notesView } from './notes';
@@ -144,6 +147,8 @@ let responses = 0;
 let firstHostSinceInit_ms = -1;
 let lastHostSinceInit_ms = -1;
 let currentTabs: Tabs | undefined;
+/** Envelopes the host sent unasked (`id` 0) for series no chart draws (a hook for the e2e tests; should stay 0). */
+let unaskedUndrawn = 0;
 
 function log(level: 'info' | 'warning' | 'error', message: string): void {
   panelApi.post({ type: 'log/write', level, message });
@@ -218,10 +223,11 @@ function showStatus(msg: StatusMessage): void {
 // Building the views
 
 /**
- * Facts of the revision shown, as attributes of `main#app` for tests and the editor bench: the revision, the epochs
- * analysed, and which bytes of the log the host read for it (a growing log is read from the last byte read).
+ * Facts of the revision shown, as attributes of `main#app` for tests and the editor bench: the log's URI, the
+ * revision, the epochs analysed, and which bytes of the log the host read for it (a growing log is read from the last byte read).
  */
 function markRevision(message: InitMessage): void {
+  app.dataset.uri = message.uri;
   app.dataset.revision = String(message.revision);
   app.dataset.epochs = String(message.report.time.epochs);
   const read = message.read;
@@ -399,7 +405,7 @@ function chartSection(key: string, label: string, unit: string): { section: HTML
 function buildGroup(host: HTMLElement, id: string, all: readonly SeriesInfo[], message: InitMessage, width: number): void {
   const report = message.report;
   const histogramKeys = new Set(message.histograms.map((h) => h.key));
-  const series = all.filter((s) => ownChart(s, histogramKeys));
+  const series = all.filter((s) => isDrawn(s, histogramKeys));
   const xy = series.filter((s) => chartKind(s) === 'xy');
   const anchors = message.series.find((s) => s.key === 'uwb/anchors');
   if (id === 'trajectory' && xy.length) {
@@ -455,6 +461,7 @@ function addTimeChart(host: HTMLElement, viewId: string, info: SeriesInfo, kind:
     {
       label: info.label,
       unit: info.unit,
+      axisLabel: yAxisLabel(info),
       kind,
       band: info.band,
       extent: ownExtent,
@@ -654,6 +661,11 @@ function drawResponse(msg: SeriesResponseMessage): void {
     hostTotal_ms += msg.host_ms ?? 0;
   }
   sentAt.delete(msg.id);
+  if (!entry && msg.id === 0) {
+    // Sent unasked for a series no chart draws: wasted work on the host (extension/host/seriesStore.ts pushOrder).
+    document.body.dataset.unaskedUndrawn = String(++unaskedUndrawn);
+    log('warning', `the host sent an envelope of ${msg.key}, which no chart draws`);
+  }
   if (!entry || entry.kind === 'histogram') return;
   if (msg.error) log('warning', `series ${msg.key}: ${msg.error}`);
   const columns: Columns = {
@@ -695,14 +707,16 @@ function drawResponse(msg: SeriesResponseMessage): void {
 function drawXy(entry: XyEntry): void {
   const layers: XyLayer[] = [];
   let path: Columns | undefined;
-  for (const info of entry.infos) {
+  // Reference paths are drawn over the estimate (a thin line stays visible over a noisy one), anchors over both.
+  const rank = (key: string): number => (key === 'uwb/anchors' ? 2 : /reference|truth|gt/i.test(key) ? 1 : 0);
+  for (const info of [...entry.infos].sort((a, b) => rank(a.key) - rank(b.key))) {
     const c = entry.columns.get(info.key);
     if (!c) continue;
     const isAnchors = info.key === 'uwb/anchors';
     const isReference = /reference|truth|gt/i.test(info.key);
     if (!isAnchors && !isReference && !path) path = c;
     layers.push({
-      label: info.label,
+      label: layerName(info),
       x: c.x,
       y: c.y,
       style: isAnchors ? 'points' : 'path',

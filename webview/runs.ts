@@ -212,7 +212,7 @@ function drawMonteCarlo(): void {
     const { section, plot, tableHost } = chartSection(s.key, title);
     section.dataset.band = '1';
     host.append(section);
-    const chart = new TimeChart(plot, { label: title, unit: '1', kind: 'time', band: true, extent: finiteExtent(x), markers: [], syncKey: 'residuum-montecarlo' }, ctx.width(), ctx.theme);
+    const chart = new TimeChart(plot, { label: title, unit: '1', axisLabel: `average ${s.kind === 'nees' ? 'NEES' : 'NIS'}`, kind: 'time', band: true, extent: finiteExtent(x), markers: [], syncKey: 'residuum-montecarlo' }, ctx.width(), ctx.theme);
     section.dataset.points = String(chart.setData(x, y, lo, hi));
     monteCarloCharts.push(chart);
     const { rows, total } = tableRows({ x, y, lo, hi });

@@ -6,7 +6,7 @@
  * Conventions: times `t` in seconds in the log's own time base; windows are `[t0, t1]` with t0 < t1; `line` 1-based.
  */
 import type { Finding, Report, WorstEntry } from '../extension/core/report';
-import type { SeriesInfo } from '../extension/protocol';
+import { ownChart, viewOf, type SeriesInfo } from '../extension/protocol';
 
 /** Known views in display order, with their tab labels. Series of other groups get a view of their own. */
 export const KNOWN_VIEWS: readonly { id: string; label: string }[] = [
@@ -19,27 +19,8 @@ export const KNOWN_VIEWS: readonly { id: string; label: string }[] = [
   { id: 'uwb', label: 'UWB anchors' },
 ];
 
-/** Key prefixes that name a view when a series carries no group. */
-const PREFIX_VIEW: Record<string, string> = {
-  nis: 'innovations',
-  nisWindow: 'innovations',
-  innovation: 'innovations',
-  error: 'errors',
-  nees: 'errors',
-  neesWindow: 'errors',
-  trajectory: 'trajectory',
-  bias: 'bias',
-  allan: 'allan',
-  uwb: 'uwb',
-};
-
-/** The view (tab id) a series is shown in: its `group`, else the view named by its key's first segment. */
-export function viewOf(info: Pick<SeriesInfo, 'key' | 'group'>): string {
-  const group = info.group.trim();
-  if (group !== '') return group;
-  const prefix = info.key.split('/')[0];
-  return PREFIX_VIEW[prefix] ?? (prefix || 'other');
-}
+/** Which view a series is in and whether it has a chart of its own: shared with the host (extension/protocol.ts). */
+export { ownChart, viewOf };
 
 /** A view and the series drawn in it. */
 export interface ViewGroup {
@@ -87,17 +68,6 @@ export function chartKind(info: Pick<SeriesInfo, 'key' | 'logLog' | 'xy'>): Char
   if (info.logLog) return 'loglog';
   if (info.xy) return 'xy';
   return NON_TIME_PREFIXES.includes(info.key.split('/')[0]) ? 'plain' : 'time';
-}
-
-/**
- * Whether a series gets a chart of its own: step series (`.../steps`) are drawn as markers on their parent, and the
- * core's NIS histogram/density pair is replaced by the host's histogram chart when one exists for the channel.
- */
-export function ownChart(info: Pick<SeriesInfo, 'key'>, histogramKeys: ReadonlySet<string>): boolean {
-  const parts = info.key.split('/');
-  if (parts[parts.length - 1] === 'steps' && parts.length > 2) return false;
-  if ((parts[0] === 'nisHistogram' || parts[0] === 'nisPdf') && histogramKeys.has(`nis/${parts.slice(1).join('/')}`)) return false;
-  return true;
 }
 
 /** Replace NaN (and infinities) by null: uPlot treats only null/undefined as gaps. */
@@ -410,4 +380,59 @@ export function fileIndexOf(f: Pick<Finding, 'file'>, files: readonly string[]):
   const base = f.file.split(/[\\/]/).pop() ?? f.file;
   const i = files.indexOf(base);
   return i >= 0 ? i : 0;
+}
+
+/** Short names of unitless quantities by key prefix, for a y axis (the chart's heading carries the full label). */
+const AXIS_NAMES: Record<string, string> = {
+  nis: 'NIS',
+  nisWindow: 'NIS',
+  nisRejected: 'NIS',
+  nees: 'NEES',
+  neesWindow: 'NEES',
+  acf: 'autocorrelation',
+};
+
+/**
+ * The y-axis label of a time chart: the unit in brackets when there is one; else a short name of the quantity
+ * (NIS, NEES, DOP...) from the key; else the series' label (the chart draws it through {@link fitText}). The full
+ * label is the chart's heading, so the axis only has to say what the numbers are.
+ */
+export function yAxisLabel(info: Pick<SeriesInfo, 'key' | 'label' | 'unit'>): string {
+  const unit = info.unit.trim();
+  if (unit !== '' && unit !== '1') return `[${unit}]`;
+  const parts = info.key.split('/');
+  const named = AXIS_NAMES[parts[0]];
+  if (named) return named;
+  if (parts[parts.length - 1] === 'dop') return 'DOP';
+  return info.label;
+}
+
+/**
+ * `text` as drawn in at most `maxWidth` (the unit `measure` returns): whole when it fits, else the longest prefix
+ * (trailing spaces dropped) followed by an ellipsis that fits, else '' (not even the ellipsis fits).
+ */
+export function fitText(text: string, maxWidth: number, measure: (s: string) => number): string {
+  if (measure(text) <= maxWidth) return text;
+  const ellipsis = '…';
+  if (measure(ellipsis) > maxWidth) return '';
+  // The longest prefix whose width with the ellipsis fits (widths grow with the prefix: binary search).
+  let lo = 0;
+  let hi = text.length - 1;
+  while (lo < hi) {
+    const mid = Math.ceil((lo + hi) / 2);
+    if (measure(text.slice(0, mid).trimEnd() + ellipsis) <= maxWidth) lo = mid;
+    else hi = mid - 1;
+  }
+  return text.slice(0, lo).trimEnd() + ellipsis;
+}
+
+/**
+ * The name of a layer in a planar chart's key: the series' label up to its first comma, semicolon or parenthesis
+ * (labels go on to explain axes and order, which the chart's axes already say); `uwb/anchors` is "UWB anchors".
+ */
+export function layerName(info: Pick<SeriesInfo, 'key' | 'label'>): string {
+  if (info.key === 'uwb/anchors') return 'UWB anchors';
+  const cut = info.label.search(/[,;(]/);
+  const name = (cut >= 0 ? info.label.slice(0, cut) : info.label).trim();
+  return name === '' ? info.key : name;
 }

@@ -37,7 +37,7 @@ import type { WorkerRequest } from './analysisWorker';
 import { AnalysisError, AnalysisSession, runComparison, runMonteCarlo, type AnalysisResult } from './runAnalysis';
 import { compareReadyMessage, compareStateMessage, monteCarloReadyMessage, monteCarloStateMessage } from './runsMessages';
 import { expandRunUris, pickCompareRuns, pickMonteCarloRuns } from './runsPick';
-import { SeriesStore } from './seriesStore';
+import { SeriesStore, pushOrder } from './seriesStore';
 
 /** The panel's webview type (also the serializer's). */
 export const PANEL_VIEW_TYPE = 'residuum.analysis';
@@ -563,15 +563,13 @@ export class AnalysisPanel {
   }
 
   /**
-   * The first envelope of every series of `store` (the whole series at `widthPx`), posted as `series/responseBatch`es
-   * with `id` 0 of about {@link PUSH_BATCH} series each, the series of the view on screen first; one batch per turn
-   * of the event loop, so each leaves while the next is formed and the host stays responsive. Stops when the panel
-   * closed or a newer revision was sent.
+   * The first envelope of every series of `store` the panel draws (the whole series at `widthPx`; which, and in what
+   * order: {@link pushOrder}), posted as `series/responseBatch`es with `id` 0 of about {@link PUSH_BATCH} series each;
+   * one batch per turn of the event loop, so each leaves while the next is formed and the host stays responsive.
+   * Stops when the panel closed or a newer revision was sent.
    */
   private pushEnvelopes(store: SeriesStore, revision: number, widthPx: number): void {
-    const infos = store.infos();
-    const shown = this.view.view;
-    const order = [...infos.filter((i) => i.group === shown), ...infos.filter((i) => i.group !== shown)];
+    const order = pushOrder(store.infos(), this.view.view, new Set(this.histograms.map((h) => h.key)));
     let next = 0;
     const step = (): void => {
       if (this.disposed || this.revision !== revision || this.store !== store || next >= order.length) return;

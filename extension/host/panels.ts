@@ -9,7 +9,7 @@ import { parsePersistedState, type ViewState } from '../protocol';
 import { AnalysisPanel, PANEL_VIEW_TYPE, type PanelHost } from './panel';
 import { toProblems } from './problems';
 import { headlineInside95 } from './ranking';
-import { orphansToRevive, parseKeptPanels, type KeptPanel } from './revive';
+import { keptOrphans, orphansToRevive, panelTitles, parseKeptPanels, type KeptPanel } from './revive';
 
 /** Workspace-state key of the open panels' logs and view states (see revive.ts). */
 const KEPT_PANELS_KEY = 'residuum.openPanels';
@@ -27,6 +27,8 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
   private shuttingDown = false;
   private keepTimer: ReturnType<typeof setTimeout> | undefined;
   private reviveTimer: ReturnType<typeof setTimeout> | undefined;
+  /** Tab labels already reported as fitting several kept logs (reported once). */
+  private readonly warnedAmbiguous = new Set<string>();
   private readonly watchTabs: vscode.Disposable | undefined;
 
   constructor(
@@ -54,6 +56,7 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     }
     const panel = AnalysisPanel.create(this, uri);
     this.byUri.set(uri.toString(), panel);
+    this.retitle();
     this.didFocus(panel);
     this.scheduleKeep();
     return panel;
@@ -131,6 +134,7 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
   didDispose(panel: AnalysisPanel, byUser: boolean): void {
     if (this.byUri.get(panel.uri.toString()) === panel) {
       this.byUri.delete(panel.uri.toString());
+      if (!this.shuttingDown) this.retitle();
       if (byUser && !this.shuttingDown) this.scheduleKeep();
     }
     this.editors.delete(panel);
@@ -144,8 +148,22 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
   private revive(webviewPanel: vscode.WebviewPanel, uri: vscode.Uri, view: ViewState): void {
     const panel = new AnalysisPanel(this, webviewPanel, uri, view);
     this.byUri.set(uri.toString(), panel);
+    this.retitle();
     this.didFocus(panel);
     this.scheduleKeep();
+  }
+
+  /**
+   * Give every panel opened by command its title from revive.ts panelTitles: the log's file name, and its folders too
+   * while another open log has the same name, so no two tabs read alike (a tab is matched to its log by its title
+   * after an extension host restart).
+   */
+  private retitle(): void {
+    const titles = panelTitles([...this.byUri].map(([key, p]) => ({ key, path: p.uri.path })));
+    for (const [key, p] of this.byUri) {
+      const title = titles.get(key);
+      if (title !== undefined && p.panel.title !== title) p.panel.title = title;
+    }
   }
 
   /** Write the open panels' logs and view states to the workspace state (debounced). */
@@ -155,7 +173,10 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     this.keepTimer = setTimeout(() => {
       this.keepTimer = undefined;
       const kept: Record<string, KeptPanel> = {};
-      for (const [uri, p] of this.byUri) kept[uri] = { title: AnalysisPanel.title(p.uri), view: p.viewState };
+      // Hidden tabs a restart left without a panel keep their entries until they are shown (and opened again).
+      const previous = parseKeptPanels(this.workspaceState?.get(KEPT_PANELS_KEY));
+      for (const [uri, entry] of keptOrphans(previous, (u) => this.byUri.has(u), this.orphanTabLabels())) kept[uri] = entry;
+      for (const [uri, p] of this.byUri) kept[uri] = { title: p.panel.title, view: p.viewState };
       this.output.debug(`kept panels: ${JSON.stringify(kept)}`);
       void this.workspaceState?.update(KEPT_PANELS_KEY, kept);
     }, 200);
@@ -170,11 +191,8 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     }, delay_ms);
   }
 
-  /** Open again, in the same column and state, the visible Residuum tabs that no panel owns (see revive.ts). */
-  private async reviveOrphans(): Promise<void> {
-    if (!this.workspaceState || this.shuttingDown) return;
-    const kept = parseKeptPanels(this.workspaceState.get(KEPT_PANELS_KEY));
-    if (kept.size === 0) return;
+  /** The Residuum panel tabs of the window, with their groups' columns. */
+  private panelTabs(): { label: string; active: boolean; tab: vscode.Tab; column: vscode.ViewColumn }[] {
     const tabs: { label: string; active: boolean; tab: vscode.Tab; column: vscode.ViewColumn }[] = [];
     for (const group of vscode.window.tabGroups.all) {
       for (const tab of group.tabs) {
@@ -183,16 +201,57 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
         }
       }
     }
-    for (const { tab, uri, view } of orphansToRevive(tabs, kept, (u) => this.byUri.has(u))) {
+    return tabs;
+  }
+
+  /** Labels of the Residuum panel tabs that are no open panel's title (tabs left without a panel by a restart). */
+  private orphanTabLabels(): Set<string> {
+    const owned = new Set([...this.all()].map((p) => p.panel.title));
+    return new Set(this.panelTabs().map((t) => t.label).filter((l) => !owned.has(l)));
+  }
+
+  /** Open again, in the same column and state, the visible Residuum tabs that no panel owns (see revive.ts). */
+  private async reviveOrphans(): Promise<void> {
+    if (!this.workspaceState || this.shuttingDown) return;
+    const kept = parseKeptPanels(this.workspaceState.get(KEPT_PANELS_KEY));
+    if (kept.size === 0) return;
+    const { revive, ambiguous } = orphansToRevive(this.panelTabs(), kept, (u) => this.byUri.has(u));
+    for (const { tab } of ambiguous) {
+      if (this.warnedAmbiguous.has(tab.label)) continue;
+      this.warnedAmbiguous.add(tab.label);
+      this.output.warn(`the tab "${tab.label}" fits several logs kept for reopening; it is left as it is (close it and open the log again)`);
+    }
+    for (const { tab, uri, view } of revive) {
       this.output.info(`opening the panel of ${uri} again in view state ${JSON.stringify(view)} (its tab was left without a panel, e.g. after an extension host restart)`);
-      await vscode.window.tabGroups.close(tab.tab, true).then(undefined, () => undefined);
       if (this.shuttingDown || this.byUri.has(uri)) continue;
+      // The new panel first, then the old tab closed: closing first could empty its group, which VS Code then
+      // removes, so the columns of the groups right of it (and of the other orphans) would shift by one.
       const log = vscode.Uri.parse(uri, true);
       const panel = AnalysisPanel.create(this, log, tab.column, view);
       this.byUri.set(uri, panel);
+      this.retitle();
       this.didFocus(panel);
+      await this.closeOrphanTab(tab.label, tab.column);
     }
     this.scheduleKeep();
+  }
+
+  /**
+   * Close the orphaned tab `label` of column `column` once the panel opened in its place is that group's active tab.
+   * The tab is looked up afresh (the tab model follows a new panel asynchronously, and Tab objects read before it
+   * changed no longer close anything): the tab of that label in that group that is not the active one.
+   */
+  private async closeOrphanTab(label: string, column: vscode.ViewColumn): Promise<void> {
+    for (let attempt = 0; attempt < 60 && !this.shuttingDown; attempt++) {
+      const group = vscode.window.tabGroups.all.find((g) => g.viewColumn === column);
+      const old = group?.tabs.filter((t) => !t.isActive && t.label === label && t.input instanceof vscode.TabInputWebview && t.input.viewType.endsWith(PANEL_VIEW_TYPE)) ?? [];
+      if (old.length === 1 && group?.activeTab?.input instanceof vscode.TabInputWebview) {
+        await vscode.window.tabGroups.close(old[0], true).then(undefined, (e: unknown) => this.output.warn(`could not close the old tab "${label}": ${String(e)}`));
+        return;
+      }
+      await new Promise((resolve) => setTimeout(resolve, 50));
+    }
+    this.output.warn(`the old tab "${label}" was not found beside the panel opened in its place; it is left open`);
   }
 
   private all(): AnalysisPanel[] {
@@ -227,7 +286,9 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     const share = headlineInside95(report.channels);
     const text = share === undefined ? 'no NIS' : `NIS ${(share * 100).toFixed(1)}% in bounds`;
     this.statusItem.text = `$(pulse) ${text}`;
-    this.statusItem.tooltip = `Residuum: ${AnalysisPanel.title(panel.uri).slice('Residuum: '.length)}: share of NIS values inside their 95% chi-square bounds, all channels (${report.findings.length} findings). Click to show the analysis.`;
+    // A panel opened by command has the title that tells same-named logs apart; a custom editor's is the file name.
+    const title = this.byUri.get(panel.uri.toString()) === panel ? panel.panel.title : AnalysisPanel.title(panel.uri);
+    this.statusItem.tooltip = `${title}: share of NIS values inside their 95% chi-square bounds, all channels (${report.findings.length} findings). Click to show the analysis.`;
     this.statusItem.accessibilityInformation = { label: `Residuum: ${text}, ${report.findings.length} findings. Show the analysis.`, role: 'button' };
     this.statusItem.command = { title: 'Show Residuum analysis', command: 'residuum.openAnalysis', arguments: [panel.uri] };
     this.statusItem.show();

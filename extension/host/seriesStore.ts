@@ -9,7 +9,7 @@
 import { isAscending, stride, type Envelope } from '../core/envelope';
 import { buildEnvelopeIndex, envelopeIndexed, type EnvelopeIndex } from '../core/envelopeIndex';
 import type { Series } from '../core/series';
-import type { SeriesInfo, SeriesRequestMessage, SeriesResponseMessage } from '../protocol';
+import { isDrawn, viewOf, type SeriesInfo, type SeriesRequestMessage, type SeriesResponseMessage } from '../protocol';
 
 /**
  * Series drawn as planar (x, y) paths rather than over time: the trajectory seen from above, anchor positions, and
@@ -106,4 +106,16 @@ export class SeriesStore {
     if (env.line && request.line !== false) response.line = toArrayBuffer(env.line);
     return response;
   }
+}
+
+/**
+ * The series whose first envelopes the host sends after `init` unasked, in sending order: only those the panel draws
+ * ({@link isDrawn}: not the step series drawn as markers, not the NIS histogram/density pairs replaced by the host's
+ * histograms, nothing of a view without charts), those of the view on screen (`shownView`, default the overview)
+ * first. `histogramKeys` are the NIS keys the host made histograms for (`InitMessage.histograms`).
+ */
+export function pushOrder(infos: readonly SeriesInfo[], shownView: string | undefined, histogramKeys: ReadonlySet<string>): SeriesInfo[] {
+  const drawn = infos.filter((i) => isDrawn(i, histogramKeys));
+  const shown = shownView ?? 'overview';
+  return [...drawn.filter((i) => viewOf(i) === shown), ...drawn.filter((i) => viewOf(i) !== shown)];
 }

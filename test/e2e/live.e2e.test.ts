@@ -10,12 +10,14 @@
  * - The demo panel with a chosen view and worst epoch comes back with its data and the same state after the window
  *   reloads (the serializer plus the webview's own state) and after the extension host restarts; no Content
  *   Security Policy violation is logged by the panel.
+ * - Two logs with the same file name in different folders get tab titles that tell them apart, and each tab comes
+ *   back with its own log after the extension host restarts (the visible tab at once, the hidden one when shown).
  *
  * Tools as in editor.e2e.test.ts: the test FAILS with the reason when code-server or chromium cannot be had.
  * RESIDUUM_E2E_VSIX reuses a prebuilt .vsix (dev only).
  */
 import { describe, expect, it } from 'vitest';
-import { appendFileSync, existsSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
+import { appendFileSync, existsSync, mkdirSync, readFileSync, readdirSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import type { FrameLocator } from 'playwright-core';
 import * as h from '../../scripts/e2e/harness.mjs';
@@ -183,4 +185,59 @@ describe('Residuum panel lifecycle in a real VS Code', () => {
     await expectRestoredAsBefore(wb, before);
     await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-after-restart.png') });
   }, 300_000);
+  it('two logs with the same name in different folders each come back with their own log after the extension host restarts', async () => {
+    await h.runCommand(wb.page, 'View: Close All Editors');
+    // The whole demo log in one folder, its first 60% in the other: the epoch counts tell the readings apart too.
+    const logs = { 'same-a': path.join(wb.workspace, 'same-a', 'flight.csv'), 'same-b': path.join(wb.workspace, 'same-b', 'flight.csv') };
+    mkdirSync(path.dirname(logs['same-a']), { recursive: true });
+    mkdirSync(path.dirname(logs['same-b']), { recursive: true });
+    writeFileSync(logs['same-a'], lines.join(''));
+    writeFileSync(logs['same-b'], head);
+    const tabOf = (folder: string) => wb.page.locator('.tabs-container .tab').filter({ hasText: `Residuum: flight.csv (${folder})` });
+    /** The visible panels: the log each shows (main#app data-uri), its epochs, and whether it has the test's mark. */
+    const visiblePanels = async (): Promise<{ uri: string; epochs: number; marked: boolean }[]> => {
+      const frames = wb.page.locator('iframe.webview.ready').filter({ visible: true });
+      const out: { uri: string; epochs: number; marked: boolean }[] = [];
+      for (let i = 0; i < (await frames.count()); i++) {
+        const doc = frames.nth(i).contentFrame().locator('#active-frame').contentFrame();
+        const facts = await doc.locator('main#app[data-state="ready"]').evaluate((el) => ({ ...(el as unknown as { dataset: Record<string, string> }).dataset }), undefined, { timeout: 1000 }).catch(() => undefined);
+        const marked = (await doc.locator('body[data-before-restart]').count().catch(() => 0)) > 0;
+        if (facts?.uri) out.push({ uri: decodeURIComponent(facts.uri), epochs: Number(facts.epochs), marked });
+      }
+      return out;
+    };
+    /** Shows the tab of `folder`'s panel and waits for a visible, unmarked panel showing that log; its epochs. */
+    const epochsShown = async (folder: string): Promise<number> => {
+      await tabOf(folder).first().click();
+      const suffix = `/${folder}/flight.csv`;
+      let shown: { uri: string; epochs: number; marked: boolean } | undefined;
+      await expect.poll(async () => {
+        shown = (await visiblePanels()).find((p) => p.uri.endsWith(suffix) && !p.marked && p.epochs > 0);
+        return shown !== undefined;
+      }, { timeout: 120_000, message: `a panel showing ${folder}/flight.csv` }).toBe(true);
+      return shown?.epochs ?? NaN;
+    };
+    await h.openLogViaDialog(wb.page, logs['same-a']);
+    await h.openLogViaDialog(wb.page, logs['same-b']);
+    // Both tabs carry their folder once the second log with that name is open.
+    await expect.poll(async () => (await tabOf('same-a').count()) + (await tabOf('same-b').count()), { timeout: 60_000 }).toBe(2);
+    const before = { a: await epochsShown('same-a'), b: await epochsShown('same-b') };
+    expect(before.a).toBeGreaterThan(before.b);
+    // The kept panels reach the workspace state (debounced) before the restart; then every panel page is marked.
+    await wb.page.waitForTimeout(1500);
+    const frames = wb.page.locator('iframe.webview.ready');
+    for (let i = 0; i < (await frames.count()); i++) {
+      await frames.nth(i).contentFrame().locator('#active-frame').contentFrame().locator('body').evaluate((b) => b.setAttribute('data-before-restart', '1'), undefined, { timeout: 2000 }).catch(() => undefined);
+    }
+    const pids = extensionHostPids(wb.codeServer.child.pid ?? -1);
+    expect(pids.length, 'extension host processes of this code-server').toBeGreaterThan(0);
+    for (const pid of pids) process.kill(pid, 'SIGKILL');
+    // Each tab comes back with its own log (the shown one at once, a hidden one when it is shown), titles unchanged.
+    expect(await epochsShown('same-b')).toBe(before.b);
+    expect(await epochsShown('same-a')).toBe(before.a);
+    expect(await tabOf('same-a').count()).toBe(1);
+    expect(await tabOf('same-b').count()).toBe(1);
+    expect(webviewCspViolations(wb).map((m) => m.text)).toEqual([]);
+    await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, 'workbench-same-names-after-restart.png') });
+  }, 420_000);
 });

@@ -12,11 +12,13 @@ import {
   equalAspect,
   fileIndexOf,
   findingLabel,
+  fitText,
   flattenBlock,
   formatNumber,
   formatPercent,
   gapsToNull,
   groupViews,
+  layerName,
   markersFor,
   nearestIndex,
   nextWindow,
@@ -26,6 +28,7 @@ import {
   viewOf,
   worstLabel,
   worstOnPath,
+  yAxisLabel,
 } from '../../webview/shape';
 
 function info(key: string, group: string, extra: Partial<SeriesInfo> = {}): SeriesInfo {
@@ -177,5 +180,36 @@ describe('run summary', () => {
     const summary = new Map(runSummary({ ...report, source: { ...report.source, files: ['run.csv', 'run.csv.map.json', 'anchors.csv'] } }));
     expect(summary.get('Log')).toBe('run.csv');
     expect(summary.get('Files read')).toBe('run.csv, run.csv.map.json, anchors.csv');
+  });
+});
+
+describe('axis labels and layer names', () => {
+  it('labels a y axis by its unit, else by a short name of the quantity', () => {
+    expect(yAxisLabel({ key: 'error/position/x', label: 'position error x (true minus estimate) with +-3 sigma', unit: 'm' })).toBe('[m]');
+    expect(yAxisLabel({ key: 'nees/position', label: 'position NEES (3 dof) with the per-epoch 95% band', unit: '1' })).toBe('NEES');
+    expect(yAxisLabel({ key: 'nees/position/window', label: 'position NEES window averages', unit: '' })).toBe('NEES');
+    expect(yAxisLabel({ key: 'nisWindow/tdoa', label: 'tdoa windowed NIS', unit: '1' })).toBe('NIS');
+    expect(yAxisLabel({ key: 'uwb/dop', label: 'PDOP (TDOA, correlated differences)', unit: '1' })).toBe('DOP');
+    expect(yAxisLabel({ key: 'uwb/anchorsHeard', label: 'Anchors heard per window', unit: '1' })).toBe('Anchors heard per window');
+  });
+
+  // A measure of 7 units per character (a fixed-pitch font), so the expected cuts are counted by hand.
+  const mono = (s: string): number => 7 * [...s].length;
+  it('fits a label to the room along its axis with an ellipsis', () => {
+    expect(fitText('NEES', 100, mono)).toBe('NEES');
+    // 70 units hold 10 characters: the 9-character prefix "position " loses its trailing space before the ellipsis
+    // ("position…", 9 characters), and the 10-character prefix with it would need 11.
+    expect(fitText('position NEES window averages', 70, mono)).toBe('position…');
+    expect(fitText('position NEES window averages', 77, mono)).toBe('position N…');
+    expect(fitText('position NEES window averages', 84, mono)).toBe('position NE…');
+    expect(mono(fitText('Anchors heard per window', 120, mono))).toBeLessThanOrEqual(120);
+    expect(fitText('NEES', 6, mono)).toBe('');
+  });
+
+  it('names the layers of a planar chart without the axis notes of their labels', () => {
+    expect(layerName({ key: 'trajectory/estimate', label: 'estimate from above, x = east (m), y = north (m); points in time order' })).toBe('estimate from above');
+    expect(layerName({ key: 'uwb/anchors', label: 'UWB anchors 0, 1, 2 (x = east, y = north)' })).toBe('UWB anchors');
+    expect(layerName({ key: 'trajectory/reference', label: 'reference' })).toBe('reference');
+    expect(layerName({ key: 'x/y', label: '(unnamed)' })).toBe('x/y');
   });
 });
