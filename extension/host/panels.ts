@@ -13,6 +13,12 @@ import { keptOrphans, orphansToRevive, panelTitles, parseKeptPanels, type KeptPa
 
 /** Workspace-state key of the open panels' logs and view states (see revive.ts). */
 const KEPT_PANELS_KEY = 'residuum.openPanels';
+/**
+ * Appended to the title of a panel opened in place of an orphaned tab until that tab is closed (a zero-width space:
+ * invisible, but the two tabs' labels differ, so the old one is found by its label alone).
+ */
+const REPLACING_MARK = '\u200b';
+
 /** How long after activation the serializer has to revive visible panels before a tab counts as orphaned, ms. */
 const REVIVE_GRACE_MS = 2500;
 
@@ -29,6 +35,8 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
   private reviveTimer: ReturnType<typeof setTimeout> | undefined;
   /** Tab labels already reported as fitting several kept logs (reported once). */
   private readonly warnedAmbiguous = new Set<string>();
+  /** Panels opened in place of an orphaned tab whose old tab is not closed yet (their titles carry REPLACING_MARK). */
+  private readonly replacing = new Set<AnalysisPanel>();
   private readonly watchTabs: vscode.Disposable | undefined;
 
   constructor(
@@ -162,7 +170,8 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     const titles = panelTitles([...this.byUri].map(([key, p]) => ({ key, path: p.uri.path })));
     for (const [key, p] of this.byUri) {
       const title = titles.get(key);
-      if (title !== undefined && p.panel.title !== title) p.panel.title = title;
+      const want = title !== undefined && this.replacing.has(p) ? title + REPLACING_MARK : title;
+      if (want !== undefined && p.panel.title !== want) p.panel.title = want;
     }
   }
 
@@ -176,15 +185,19 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
       // Hidden tabs a restart left without a panel keep their entries until they are shown (and opened again).
       const previous = parseKeptPanels(this.workspaceState?.get(KEPT_PANELS_KEY));
       for (const [uri, entry] of keptOrphans(previous, (u) => this.byUri.has(u), this.orphanTabLabels())) kept[uri] = entry;
-      for (const [uri, p] of this.byUri) kept[uri] = { title: p.panel.title, view: p.viewState };
+      for (const [uri, p] of this.byUri) kept[uri] = { title: p.panel.title.replace(REPLACING_MARK, ''), view: p.viewState };
       this.output.debug(`kept panels: ${JSON.stringify(kept)}`);
       void this.workspaceState?.update(KEPT_PANELS_KEY, kept);
     }, 200);
   }
 
+  /**
+   * Look for orphaned tabs in `delay_ms`, unless a look is already due: it then sees the tabs as they are by then. Not
+   * postponed by further tab events (a stream of them, e.g. while panels load on a busy machine, would otherwise
+   * delay the look indefinitely and a shown tab would stay empty).
+   */
   private scheduleRevive(delay_ms: number): void {
-    if (this.shuttingDown) return;
-    if (this.reviveTimer) clearTimeout(this.reviveTimer);
+    if (this.shuttingDown || this.reviveTimer) return;
     this.reviveTimer = setTimeout(() => {
       this.reviveTimer = undefined;
       void this.reviveOrphans();
@@ -226,26 +239,34 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
       if (this.shuttingDown || this.byUri.has(uri)) continue;
       // The new panel first, then the old tab closed: closing first could empty its group, which VS Code then
       // removes, so the columns of the groups right of it (and of the other orphans) would shift by one.
+      // Until the old tab is closed the new one's title carries an invisible mark, so the two are never confused
+      // (a new tab is not always its group's active one by the time the tab model shows it).
       const log = vscode.Uri.parse(uri, true);
       const panel = AnalysisPanel.create(this, log, tab.column, view);
       this.byUri.set(uri, panel);
+      this.replacing.add(panel);
       this.retitle();
       this.didFocus(panel);
       await this.closeOrphanTab(tab.label, tab.column);
+      this.replacing.delete(panel);
+      this.retitle();
     }
     this.scheduleKeep();
   }
 
   /**
-   * Close the orphaned tab `label` of column `column` once the panel opened in its place is that group's active tab.
-   * The tab is looked up afresh (the tab model follows a new panel asynchronously, and Tab objects read before it
-   * changed no longer close anything): the tab of that label in that group that is not the active one.
+   * Close the orphaned tab `label` of column `column` once the panel opened in its place (titled `label` with
+   * REPLACING_MARK) is in that group, so closing never empties the group (VS Code would remove it and shift the
+   * columns right of it). The tabs are looked up afresh on every try (the tab model follows a new panel
+   * asynchronously, and Tab objects read before it changed no longer close anything).
    */
   private async closeOrphanTab(label: string, column: vscode.ViewColumn): Promise<void> {
-    for (let attempt = 0; attempt < 60 && !this.shuttingDown; attempt++) {
+    const isPanelTab = (t: vscode.Tab, l: string): boolean => t.label === l && t.input instanceof vscode.TabInputWebview && t.input.viewType.endsWith(PANEL_VIEW_TYPE);
+    for (let attempt = 0; attempt < 200 && !this.shuttingDown; attempt++) {
       const group = vscode.window.tabGroups.all.find((g) => g.viewColumn === column);
-      const old = group?.tabs.filter((t) => !t.isActive && t.label === label && t.input instanceof vscode.TabInputWebview && t.input.viewType.endsWith(PANEL_VIEW_TYPE)) ?? [];
-      if (old.length === 1 && group?.activeTab?.input instanceof vscode.TabInputWebview) {
+      const old = group?.tabs.filter((t) => isPanelTab(t, label)) ?? [];
+      const replacement = group?.tabs.some((t) => isPanelTab(t, label + REPLACING_MARK)) ?? false;
+      if (old.length === 1 && replacement) {
         await vscode.window.tabGroups.close(old[0], true).then(undefined, (e: unknown) => this.output.warn(`could not close the old tab "${label}": ${String(e)}`));
         return;
       }

@@ -211,10 +211,19 @@ describe('Residuum panel lifecycle in a real VS Code', () => {
       await tabOf(folder).first().click();
       const suffix = `/${folder}/flight.csv`;
       let shown: { uri: string; epochs: number; marked: boolean } | undefined;
-      await expect.poll(async () => {
-        shown = (await visiblePanels()).find((p) => p.uri.endsWith(suffix) && !p.marked && p.epochs > 0);
-        return shown !== undefined;
-      }, { timeout: 120_000, message: `a panel showing ${folder}/flight.csv` }).toBe(true);
+      let seen: { uri: string; epochs: number; marked: boolean }[] = [];
+      try {
+        await expect.poll(async () => {
+          seen = await visiblePanels();
+          shown = seen.find((p) => p.uri.endsWith(suffix) && !p.marked && p.epochs > 0);
+          return shown !== undefined;
+        }, { timeout: 120_000, message: `a panel showing ${folder}/flight.csv` }).toBe(true);
+      } catch (e) {
+        // What the page showed instead, for the failure's message and a screenshot to look at.
+        await wb.page.screenshot({ path: path.join(SCREENSHOT_DIR, `workbench-same-names-${folder}-missing.png`) }).catch(() => undefined);
+        const tabs = await wb.page.locator('.tabs-container .tab').allInnerTexts().catch(() => []);
+        throw new Error(`${e instanceof Error ? e.message : String(e)}; panels seen: ${JSON.stringify(seen)}; tabs: ${JSON.stringify(tabs)}`);
+      }
       return shown?.epochs ?? NaN;
     };
     await h.openLogViaDialog(wb.page, logs['same-a']);
