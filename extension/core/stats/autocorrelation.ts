@@ -105,13 +105,10 @@ export function boxPierce(r: ArrayLike<number>, n: number, m: number, fittedPara
 }
 
 /**
- * Bar-Shalom's time-average normalized autocorrelation rho(1..maxLag) of the vector sequence `nu` (K vectors of
- * `dof` components, row-major). `out[j - 1]` receives rho(j) (NaN when undefined). Not mean-removed, as defined.
+ * Prefix sums of the energies |nu(k)|^2 of K vectors of `dof` components (row-major): energy[k] sums the first k.
+ * A scratch column of count + 1 values (scratch.ts): give it back once read.
  */
-export function normalizedAutocorrelation(
-  nu: ArrayLike<number>, dof: number, count: number, maxLag: number, out = new Float64Array(maxLag),
-): Float64Array {
-  // Energies |nu(k)|^2 and their prefix sums, so each lag costs one pass of dot products.
+function energyPrefix(nu: ArrayLike<number>, dof: number, count: number): Float64Array {
   const energy = takeFloat64(count + 1);
   energy[0] = 0;
   for (let k = 0; k < count; k++) {
@@ -119,6 +116,18 @@ export function normalizedAutocorrelation(
     for (let c = 0; c < dof; c++) e += nu[k * dof + c] * nu[k * dof + c];
     energy[k + 1] = energy[k] + e;
   }
+  return energy;
+}
+
+/**
+ * Bar-Shalom's time-average normalized autocorrelation rho(1..maxLag) of the vector sequence `nu` (K vectors of
+ * `dof` components, row-major). `out[j - 1]` receives rho(j) (NaN when undefined). Not mean-removed, as defined.
+ */
+export function normalizedAutocorrelation(
+  nu: ArrayLike<number>, dof: number, count: number, maxLag: number, out = new Float64Array(maxLag),
+): Float64Array {
+  // Energies |nu(k)|^2 and their prefix sums, so each lag costs one pass of dot products.
+  const energy = energyPrefix(nu, dof, count);
   // Cross sums over the flat array (one lag is a shift of `dof` values).
   const usable = Math.max(0, Math.min(maxLag, count - 1));
   if (nu instanceof Float64Array) {
@@ -248,13 +257,7 @@ export function segmentedNormalizedAutocorrelation(
   nu: Float64Array, dof: number, count: number, breaks: readonly number[], maxLag: number, out = new Float64Array(maxLag),
 ): Float64Array {
   const cuts = segmentCuts(count, breaks);
-  const energy = takeFloat64(count + 1);
-  energy[0] = 0;
-  for (let k = 0; k < count; k++) {
-    let e = 0;
-    for (let c = 0; c < dof; c++) e += nu[k * dof + c] * nu[k * dof + c];
-    energy[k + 1] = energy[k] + e;
-  }
+  const energy = energyPrefix(nu, dof, count);
   const part = new Float64Array(maxLag);
   out.fill(0, 0, maxLag);
   for (let s = 0; s + 1 < cuts.length; s++) {
