@@ -410,11 +410,13 @@ export class CsvFileReader {
     const cells: string[] = ([] as string[]).concat(...r.data);
     const plan = this.plan;
     const n = plan.ncols;
-    let column = 1;
+    const starts = cellStartColumns(text, this.delimChar);
     const columns: number[] = [];
     for (let c = 0; c < n; c++) {
       const cell = cells[c];
       if (cell === undefined) { this.vals[c] = NaN; this.strs[c] = undefined; continue; }
+      // where the cell starts in the record as written (its quotes counted), for the diagnostics
+      const column = starts[c] ?? starts[starts.length - 1];
       columns[c] = column;
       const kind = plan.cellKind[c];
       if (kind === CELL_NUM) {
@@ -428,12 +430,28 @@ export class CsvFileReader {
       } else if (kind === CELL_STR) this.strs[c] = normalizeId(cell);
       else if (kind === CELL_TIME) this.vals[c] = this.timeText(cell.trim(), c, line, column);
       else if (kind === CELL_SKIP) { /* not used */ }
-      column += cell.length + 1;
     }
     if (cells.length !== n && !(cells.length === n + 1 && cells[n].trim() === '')) this.ragged(line, cells.length, n);
     this.rowColumns = columns;
     plan.row(this.vals, this.strs, line);
   }
+}
+
+/**
+ * The 1-based character columns (code points) at which the cells of a record's text start, quotes included: the
+ * text split at delimiters outside quotes (a doubled quote inside a quoted cell toggles twice and stays inside).
+ * Columns of a record spanning lines count on from its first line, like its line number.
+ */
+export function cellStartColumns(text: string, delim: string): number[] {
+  const starts = [1];
+  let inQuotes = false;
+  let col = 1;
+  for (const ch of text) {
+    if (ch === '"') inQuotes = !inQuotes;
+    else if (ch === delim && !inQuotes) starts.push(col + 1);
+    col++;
+  }
+  return starts;
 }
 
 function countQuotes(b: Uint8Array, s: number, e: number): number {

@@ -180,6 +180,24 @@ describe('raw sensors, ranges and resets (raw-sensors.csv)', () => {
   });
 });
 
+describe('columns of cells in a quoted record', () => {
+  it('a bad cell after a quoted cell is placed where it stands in the line, quotes counted', async () => {
+    const { readLogText } = await import('../../../extension/core/read/index');
+    // Row 2 as written: 1,"a ""q"" id",abc,0.04 -- counted by hand: the quoted cell spans columns 3-14, its
+    // delimiter is column 15, so "abc" starts at column 16 (the unquoted cell text is only 8 characters long).
+    const log = await readLogText('t,id_tdoa,nu_tdoa,s_tdoa\n1,"a ""q"" id",abc,0.04\n', 'aisle.csv');
+    const pe = kinds(log, 'parse-error');
+    expect(pe).toHaveLength(1);
+    expect(pe[0]).toMatchObject({ line: 2, column: 16 });
+  });
+  it('cellStartColumns counts code points and keeps delimiters inside quotes', async () => {
+    const { cellStartColumns } = await import('../../../extension/core/read/csv');
+    expect(cellStartColumns('1,"2,5",x', ',')).toEqual([1, 3, 9]);
+    expect(cellStartColumns('"é",x', ',')).toEqual([1, 5]); // é is one code point (two UTF-8 bytes)
+    expect(cellStartColumns('"say ""hi""";z', ';')).toEqual([1, 14]);
+  });
+});
+
 describe('quoted records go through papaparse (quoted.csv)', () => {
   for (const chunk of [1, 4, 1 << 16]) {
     it(`keeps quoted delimiters, doubled quotes and a quoted line break (${chunk}-byte chunks)`, async () => {
