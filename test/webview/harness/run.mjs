@@ -6,13 +6,15 @@ import * as esbuild from 'esbuild';
 import { createServer } from 'node:http';
 import { readFileSync, mkdirSync } from 'node:fs';
 import { chromium } from 'playwright-core';
+import { ALIAS } from '../../../scripts/bench/bundle.mjs';
 
 const arg = (name, d) => { const i = process.argv.indexOf(`--${name}`); return i > 0 ? process.argv[i + 1] : d; };
 const n = arg('n', '200000');
 const logPath = arg('log', '');
 let real;
 if (logPath) {
-  const built = await esbuild.build({ entryPoints: ['test/webview/harness/realHost.ts'], bundle: true, write: false, format: 'cjs', platform: 'node', target: 'node20' });
+  // the module aliases of the real build (jsonc-parser's UMD main has lazy requires esbuild cannot follow)
+  const built = await esbuild.build({ entryPoints: ['test/webview/harness/realHost.ts'], bundle: true, write: false, format: 'cjs', platform: 'node', target: 'node20', alias: ALIAS });
   const mod = { exports: {} };
   new Function('module', 'exports', 'require', built.outputFiles[0].text)(mod, mod.exports, (await import('node:module')).createRequire(import.meta.url));
   real = await mod.exports.realHost(logPath);
