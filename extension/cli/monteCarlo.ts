@@ -5,7 +5,7 @@
  */
 import { readdirSync, statSync } from 'node:fs';
 import * as path from 'node:path';
-import { analyzeFile, InputError, type AnalyzeFileOptions } from '../node/analyzeFile';
+import { InputError, readLogFile, type AnalyzeFileOptions } from '../node/analyzeFile';
 import { analyzeMonteCarlo, type MonteCarloBlock, type MonteCarloSeries } from '../core/errors/montecarlo';
 import { resolveSettings } from '../core/settings';
 import { finiteJson } from '../core/finite';
@@ -23,7 +23,7 @@ export function expandRuns(inputs: string[]): string[] {
     try {
       isDir = statSync(p).isDirectory();
     } catch {
-      out.push(p); // analyzeFile names the missing file
+      out.push(p); // readLogFile names the missing file
       continue;
     }
     if (!isDir) {
@@ -59,7 +59,8 @@ export async function runMonteCarlo(values: Record<string, unknown>, positionals
   const files = expandRuns(positionals);
   if (files.length < 2) throw new UsageError(`montecarlo needs two or more runs (logs or a folder of logs), got ${files.length}`);
   const logs = [];
-  for (const f of files) logs.push((await analyzeFile(f, options)).log);
+  // only the logs: the N-run figures come from their columns, not from each run's own analysis
+  for (const f of files) logs.push(await readLogFile(f, options));
   const block = analyzeMonteCarlo(logs, resolveSettings(options.settings));
   if (values.json) {
     process.stdout.write(JSON.stringify(finiteJson({ schema: 'residuum.montecarlo/1', files, ...(summarize(block, values['per-epoch'] === true) as object) }), null, 2) + '\n');

@@ -117,19 +117,7 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
       }
     }
     worker?.close(); // the read again is hashed here, as the sequential path does
-    if (attempt.failure instanceof FileChangedError) {
-      const first = attempt.failure;
-      assertReadableFile(logPath, 'log');
-      attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map);
-      if (!attempt.failure) {
-        attempt.log.diagnostics.push({ severity: 'warning', kind: 'note', file: logPath, line: 0,
-          message: `${first.message}; it was read again from the start and this analysis is of the file as it was then.` });
-      }
-    }
-    if (attempt.failure) {
-      if (attempt.failure instanceof FileChangedError) throw new InputError(`log changed again while it was being read a second time: ${attempt.failure.message}`);
-      throw new InputError(`log cannot be read: ${attempt.failure.message}`);
-    }
+    attempt = await readAgainIfChanged(logPath, options, settings, map, attempt);
     const { log, hash } = attempt;
     if (options.times) options.times.read = performance.now() - t0;
     const out = analyzeWithSidecar(logPath, log, settings, hash ?? '', options.notes, options.times);
@@ -137,6 +125,44 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
   } finally {
     worker?.close();
   }
+}
+
+/**
+ * Read one log file with the files of its run as {@link analyzeFile} reads it, without analysing it: for callers that
+ * need only the NavLog (the command line's Monte Carlo, which computes its own figures from the runs' logs). Throws
+ * InputError as analyzeFile does; a log that changed while it was read is read again once (a note says so).
+ */
+export async function readLogFile(logPath: string, options: AnalyzeFileOptions = {}): Promise<NavLog> {
+  assertReadableFile(logPath, 'log');
+  const settings = resolveSettings(options.settings);
+  const map = readMappingFile(logPath, options.map);
+  for (const [file, what] of [[options.anchors, 'anchors file'], [options.reference, 'reference file']] as const) {
+    if (file) assertReadableFile(file, what);
+  }
+  const first = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map);
+  return (await readAgainIfChanged(logPath, options, settings, map, first)).log;
+}
+
+/**
+ * After a read: when the log changed under the reader (truncated, replaced or deleted) it is read once more from the
+ * start (a note in the log says so); a second change, or any read error, is an InputError with one plain line.
+ */
+async function readAgainIfChanged(logPath: string, options: AnalyzeFileOptions, settings: AnalysisSettings,
+  map: { text: string; name: string } | undefined, attempt: MainRead): Promise<MainRead> {
+  if (attempt.failure instanceof FileChangedError) {
+    const first = attempt.failure;
+    assertReadableFile(logPath, 'log');
+    attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map);
+    if (!attempt.failure) {
+      attempt.log.diagnostics.push({ severity: 'warning', kind: 'note', file: logPath, line: 0,
+        message: `${first.message}; it was read again from the start and this analysis is of the file as it was then.` });
+    }
+  }
+  if (attempt.failure) {
+    if (attempt.failure instanceof FileChangedError) throw new InputError(`log changed again while it was being read a second time: ${attempt.failure.message}`);
+    throw new InputError(`log cannot be read: ${attempt.failure.message}`);
+  }
+  return attempt;
 }
 
 /**
