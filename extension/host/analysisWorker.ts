@@ -15,7 +15,7 @@
  * whole read; the host terminates the worker if it does not stop promptly (a session then starts afresh).
  */
 import { parentPort, workerData } from 'node:worker_threads';
-import { analyzeFile, InputError, type FileAnalysis } from '../node/analyzeFile';
+import { analyzeFile, InputError, readLogFile, type FileAnalysis } from '../node/analyzeFile';
 import { LiveAnalysis, type ReadInfo } from '../node/liveAnalysis';
 import { resolveSettings, type AnalysisSettings } from '../core/settings';
 import { compareRuns, type Comparison } from '../core/compareRuns';
@@ -175,8 +175,12 @@ async function runOnce(port: NonNullable<typeof parentPort>, request: AnyWorkerR
       return;
     }
     if ('kind' in request && request.kind === 'montecarlo') {
-      const runs = await analyseAll(request.paths, request.map, request.settings, controller.signal, progress);
-      const block = analyzeMonteCarlo(runs.map((r) => r.log), resolveSettings(request.settings));
+      // only the logs: the N-run figures come from their columns, not from each run's own analysis
+      const logs: NavLog[] = [];
+      for (const [i, p] of request.paths.entries()) {
+        logs.push(await readLogFile(p, { map: request.map, settings: request.settings, signal: controller.signal, onProgress: (f) => progress((i + f) / request.paths.length) }));
+      }
+      const block = analyzeMonteCarlo(logs, resolveSettings(request.settings));
       port.postMessage({ type: 'montecarlo', block } satisfies WorkerReply, transferable(reachableBuffers(block)));
       return;
     }

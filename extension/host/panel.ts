@@ -291,11 +291,15 @@ export class AnalysisPanel {
 
   private setMonteCarlo(m: MonteCarloUpdateMessage): void {
     this.monteCarloView = { ...m, focus: false };
+    // The view to show is also the panel's: an `init` sent later (the panel's own analysis finishing after the runs'
+    // result) then keeps it instead of going back to the view it had.
+    if (m.focus) this.view = { ...this.view, view: 'montecarlo' };
     if (!this.post(m) && m.focus) this.pendingFocus = 'montecarlo';
   }
 
   private setCompare(m: CompareUpdateMessage): void {
     this.compareView = { ...m, focus: false };
+    if (m.focus) this.view = { ...this.view, view: 'compare' };
     if (!this.post(m) && m.focus) this.pendingFocus = 'compare';
   }
 
