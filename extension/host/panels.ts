@@ -19,6 +19,11 @@ const KEPT_PANELS_KEY = 'residuum.openPanels';
  */
 const REPLACING_MARK = '\u200b';
 
+/** Whether a tab is a Residuum analysis panel's (a webview tab of PANEL_VIEW_TYPE). */
+function isPanelTab(tab: vscode.Tab): boolean {
+  return tab.input instanceof vscode.TabInputWebview && tab.input.viewType.endsWith(PANEL_VIEW_TYPE);
+}
+
 /** How long after activation the serializer has to revive visible panels before a tab counts as orphaned, ms. */
 const REVIVE_GRACE_MS = 2500;
 
@@ -209,7 +214,7 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
     const tabs: { label: string; active: boolean; tab: vscode.Tab; column: vscode.ViewColumn }[] = [];
     for (const group of vscode.window.tabGroups.all) {
       for (const tab of group.tabs) {
-        if (tab.input instanceof vscode.TabInputWebview && tab.input.viewType.endsWith(PANEL_VIEW_TYPE)) {
+        if (isPanelTab(tab)) {
           tabs.push({ label: tab.label, active: tab.isActive, tab, column: group.viewColumn });
         }
       }
@@ -261,11 +266,10 @@ export class PanelManager implements PanelHost, vscode.WebviewPanelSerializer {
    * asynchronously, and Tab objects read before it changed no longer close anything).
    */
   private async closeOrphanTab(label: string, column: vscode.ViewColumn): Promise<void> {
-    const isPanelTab = (t: vscode.Tab, l: string): boolean => t.label === l && t.input instanceof vscode.TabInputWebview && t.input.viewType.endsWith(PANEL_VIEW_TYPE);
     for (let attempt = 0; attempt < 200 && !this.shuttingDown; attempt++) {
       const group = vscode.window.tabGroups.all.find((g) => g.viewColumn === column);
-      const old = group?.tabs.filter((t) => isPanelTab(t, label)) ?? [];
-      const replacement = group?.tabs.some((t) => isPanelTab(t, label + REPLACING_MARK)) ?? false;
+      const old = group?.tabs.filter((t) => isPanelTab(t) && t.label === label) ?? [];
+      const replacement = group?.tabs.some((t) => isPanelTab(t) && t.label === label + REPLACING_MARK) ?? false;
       if (old.length === 1 && replacement) {
         await vscode.window.tabGroups.close(old[0], true).then(undefined, (e: unknown) => this.output.warn(`could not close the old tab "${label}": ${String(e)}`));
         return;

@@ -1,5 +1,6 @@
 /**
- * Seeded pseudo-random numbers for the demo generator: the same seed gives the same log on every machine.
+ * Seeded pseudo-random numbers for the demo generator (the same seed gives the same log on every machine), the tests'
+ * simulations and the whiteness test's permutation p (consistency/whiteness.ts: the same report on every run).
  *
  * sfc32 (a public-domain 128-bit-state generator, common practice) seeded through splitmix32, with Box-Muller
  * normals. Hand-written because the core takes no runtime dependency for twenty lines, and `Math.random` cannot be
