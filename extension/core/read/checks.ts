@@ -5,6 +5,7 @@
  */
 import type { Diagnostic } from '../model';
 import type { StreamBuilder } from './builder';
+import { medianInPlace } from '../stats/median';
 
 /** A step longer than this many median steps is a `time-gap`. */
 export const GAP_FACTOR = 5;
@@ -12,79 +13,38 @@ export const GAP_FACTOR = 5;
 export const TIME_FINDINGS_CAP = 20;
 
 /**
- * Median of `values` (no NaN), which it reorders in place: Hoare's selection (expected linear time) instead of a full
- * sort, since only the middle order statistics are needed; the result is the same as sorting would give.
+ * Time checks of one stream; `what` names it in messages ("state records", "channel tdoa"...).
+ * The passes over the records are small functions of one loop each ({@link positiveSteps}, {@link timeAnomalies}):
+ * the engine compiles each loop on its own, where one function with both loops was compiled once per loop and again
+ * for every later stream (six compilations of the whole function on the benchmark log).
  */
-export function medianInPlace(values: Float64Array): number {
-  const n = values.length;
-  if (n === 0) return NaN;
-  const m = n >> 1;
-  select(values, m);
-  if (n % 2) return values[m];
-  // values[0, m) now hold the m smallest: the lower middle is their largest.
-  let lower = values[0];
-  for (let i = 1; i < m; i++) if (values[i] > lower) lower = values[i];
-  return 0.5 * (lower + values[m]);
-}
-
-/** Reorder `a` so that a[k] is its k-th smallest value, smaller or equal ones before it and larger or equal after. */
-function select(a: Float64Array, k: number): void {
-  let lo = 0;
-  let hi = a.length - 1;
-  while (hi > lo) {
-    // median of three as the pivot
-    const mid = (lo + hi) >> 1;
-    const x = a[lo], y = a[mid], z = a[hi];
-    const pivot = x < y ? (y < z ? y : x < z ? z : x) : (x < z ? x : y < z ? z : y);
-    let i = lo, j = hi;
-    while (i <= j) {
-      while (a[i] < pivot) i++;
-      while (a[j] > pivot) j--;
-      if (i <= j) {
-        const t = a[i]; a[i] = a[j]; a[j] = t;
-        i++; j--;
-      }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return;
-  }
-}
-
-/** Time checks of one stream; `what` names it in messages ("state records", "channel tdoa"...). */
 export function timeChecks(b: StreamBuilder, what: string, files: string[], channel?: string, maxGapSteps = GAP_FACTOR): Diagnostic[] {
   const out: Diagnostic[] = [];
   const segs = b.segments;
+  const hits = new Int32Array(2 * TIME_FINDINGS_CAP);
+  const counts = new Int32Array(3);
   for (let k = 0; k < segs.length; k++) {
     const start = segs[k].start;
     const end = k + 1 < segs.length ? segs[k + 1].start : b.length;
     const file = files[segs[k].file] ?? '';
     const t = b.t, line = b.line;
     const steps = new Float64Array(Math.max(0, end - start - 1));
-    let ns = 0;
-    for (let i = start + 1; i < end; i++) {
-      const d = t[i] - t[i - 1];
-      if (d > 0) steps[ns++] = d;
-    }
-    const med = medianInPlace(steps.subarray(0, ns));
-    let back = 0, gaps = 0;
+    const med = medianInPlace(steps, positiveSteps(t, start, end, steps));
+    timeAnomalies(t, start, end, med > 0 ? maxGapSteps * med : Infinity, TIME_FINDINGS_CAP, hits, counts);
     const mk = (kind: 'time-backwards' | 'time-gap', i: number, message: string): Diagnostic => {
       const d: Diagnostic = { severity: 'warning', kind, file, line: line[i], t: t[i], message };
       if (channel !== undefined) d.channel = channel;
       return d;
     };
-    for (let i = start + 1; i < end; i++) {
+    for (let h = 0; h < counts[2]; h++) {
+      const i = hits[h];
       const d = t[i] - t[i - 1];
       if (d < 0) {
-        if (++back <= TIME_FINDINGS_CAP) {
-          out.push(mk('time-backwards', i,
-            `Time goes backwards in the ${what}: ${fmt(t[i])} s after ${fmt(t[i - 1])} s (line ${line[i - 1]}), ${fmt(-d)} s earlier.`));
-        }
-      } else if (med > 0 && d > maxGapSteps * med) {
-        if (++gaps <= TIME_FINDINGS_CAP) {
-          out.push(mk('time-gap', i,
-            `Gap of ${fmt(d)} s in the ${what} before this record (${(d / med).toFixed(1)} times the median step of ${fmt(med)} s).`));
-        }
+        out.push(mk('time-backwards', i,
+          `Time goes backwards in the ${what}: ${fmt(t[i])} s after ${fmt(t[i - 1])} s (line ${line[i - 1]}), ${fmt(-d)} s earlier.`));
+      } else {
+        out.push(mk('time-gap', i,
+          `Gap of ${fmt(d)} s in the ${what} before this record (${(d / med).toFixed(1)} times the median step of ${fmt(med)} s).`));
       }
     }
     const summary = (n: number, kind: 'time-backwards' | 'time-gap', words: string): void => {
@@ -94,10 +54,39 @@ export function timeChecks(b: StreamBuilder, what: string, files: string[], chan
       if (channel !== undefined) d.channel = channel;
       out.push(d);
     };
-    summary(back, 'time-backwards', 'places where time goes backwards');
-    summary(gaps, 'time-gap', 'time gaps');
+    summary(counts[0], 'time-backwards', 'places where time goes backwards');
+    summary(counts[1], 'time-gap', 'time gaps');
   }
   return out;
+}
+
+/** The positive steps t[i] - t[i - 1] of records [start, end), in order, into `steps`; returns how many. */
+function positiveSteps(t: Float64Array, start: number, end: number, steps: Float64Array): number {
+  let ns = 0;
+  for (let i = start + 1; i < end; i++) {
+    const d = t[i] - t[i - 1];
+    if (d > 0) steps[ns++] = d;
+  }
+  return ns;
+}
+
+/**
+ * Records of [start, end) whose step from the one before goes backwards (negative) or exceeds `gapLimit`: counts of
+ * each kind into counts[0] (backwards) and counts[1] (gaps), and the records of the first `cap` of each kind, in
+ * record order, into `hits` (length 2 * cap), their number into counts[2].
+ */
+function timeAnomalies(t: Float64Array, start: number, end: number, gapLimit: number, cap: number, hits: Int32Array,
+  counts: Int32Array): void {
+  let back = 0, gaps = 0, listed = 0;
+  for (let i = start + 1; i < end; i++) {
+    const d = t[i] - t[i - 1];
+    if (d < 0) {
+      if (++back <= cap) hits[listed++] = i;
+    } else if (d > gapLimit) {
+      if (++gaps <= cap) hits[listed++] = i;
+    }
+  }
+  counts[0] = back; counts[1] = gaps; counts[2] = listed;
 }
 
 function fmt(x: number): string {

@@ -257,11 +257,17 @@ interface TallyArrays extends AnchorCounts {
  * One pass over the updates link after link (`order`, link L at [start[L], start[L + 1])): counts, NIS sums in that
  * order, outliers beyond `gateNis`, and each link's finite accepted innovations into nus[start[L] ...].
  * One flat loop in a small function: the engine optimises it at once (a loop per link in a long function ran mostly
- * unoptimised on the first, and only, call).
+ * unoptimised on the first, and only, call). The loop writes only typed arrays: the updates that are anomalies
+ * (rejected, or beyond the gate) go to `anomalies` as indices, and {@link anomalyLists} turns them into the per-link
+ * lists afterwards. Pushing times to the lists in the loop made the engine throw its optimised loop away and compile
+ * it again four times on the benchmark log (each first push into a list changes its element kind).
+ * Returns the number of anomalies written.
  */
-function tallyPass(upd: UpdateColumns, order: Int32Array, start: Int32Array, gateNis: number, w: TallyArrays, nus: Float64Array): void {
+function tallyPass(upd: UpdateColumns, order: Int32Array, start: Int32Array, gateNis: number, w: TallyArrays, nus: Float64Array,
+  anomalies: Int32Array): number {
   const { la, lb, linkOutliers, linkRejected, linkNisSum, linkNisCount, linkNuLength, anchorNisSum, anchorNisCount,
-    anchorUpdates, anchorRejected, anchorOutliers, linkAnomalyTimes, linkAnomalyLines } = w;
+    anchorUpdates, anchorRejected, anchorOutliers } = w;
+  let na = 0;
   const link = upd.link;
   const rejected = upd.rejected;
   const nuCol = upd.nu;
@@ -278,8 +284,7 @@ function tallyPass(upd: UpdateColumns, order: Int32Array, start: Int32Array, gat
       linkRejected[L]++;
       anchorRejected[a]++;
       if (b >= 0) anchorRejected[b]++;
-      linkAnomalyTimes[L].push(upd.t_s[k]);
-      if (Number.isNaN(linkAnomalyLines[L])) linkAnomalyLines[L] = upd.line[k];
+      anomalies[na++] = k;
       continue;
     }
     const nu = nuCol[k];
@@ -298,10 +303,23 @@ function tallyPass(upd: UpdateColumns, order: Int32Array, start: Int32Array, gat
         linkOutliers[L]++;
         anchorOutliers[a]++;
         if (b >= 0) anchorOutliers[b]++;
-        linkAnomalyTimes[L].push(upd.t_s[k]);
-        if (Number.isNaN(linkAnomalyLines[L])) linkAnomalyLines[L] = upd.line[k];
+        anomalies[na++] = k;
       }
     }
+  }
+  return na;
+}
+
+/**
+ * Per link, the times of its anomalous updates (in the order {@link tallyPass} met them) and the line of the first:
+ * from the first `count` indices of `anomalies`.
+ */
+function anomalyLists(upd: UpdateColumns, anomalies: Int32Array, count: number, w: TallyArrays): void {
+  for (let q = 0; q < count; q++) {
+    const k = anomalies[q];
+    const L = upd.link[k];
+    w.linkAnomalyTimes[L].push(upd.t_s[k]);
+    if (Number.isNaN(w.linkAnomalyLines[L])) w.linkAnomalyLines[L] = upd.line[k];
   }
 }
 
@@ -337,7 +355,8 @@ function tallyUpdates(upd: UpdateColumns, groups: LinkGroups, links: LinkTable, 
   };
   const n = order.length;
   const nus = takeFloat64(Math.max(1, n));
-  tallyPass(upd, order, start, gateNis, w, nus);
+  const anomalies = new Int32Array(Math.max(1, n));
+  anomalyLists(upd, anomalies, tallyPass(upd, order, start, gateNis, w, nus, anomalies), w);
   // anchors first (copies), then the links' own summaries (which reorder their innovations in place)
   const work = takeFloat64(Math.max(1, n));
   const anchorInnov: ValueSummary[] = [];

@@ -12,6 +12,7 @@
  */
 import { norm3, type Vec3_m } from './vec3';
 import { radixMedian } from '../stats/radixMedian';
+import { medianInPlace } from '../stats/median';
 
 /** Scale from MAD to a Gaussian sigma, 1 / Phi^-1(3/4) (common practice). */
 export const MAD_TO_SIGMA = 1.482602218505602;
@@ -32,59 +33,9 @@ export interface ValueSummary {
   meanSigma?: number;
 }
 
-/**
- * k-th smallest value (0-based) of `a`, reordering `a` in place: Hoare quickselect with a median-of-three pivot
- * (common practice), O(n) on average. Hand-written because a full sort per median was the stage's hot spot.
- */
-function selectKth(a: Float64Array, k: number): number {
-  let lo = 0;
-  let hi = a.length - 1;
-  while (hi > lo) {
-    const mid = (lo + hi) >> 1;
-    // Median of three to the middle, as pivot.
-    if (a[mid] < a[lo]) swap(a, mid, lo);
-    if (a[hi] < a[lo]) swap(a, hi, lo);
-    if (a[hi] < a[mid]) swap(a, hi, mid);
-    const pivot = a[mid];
-    let i = lo;
-    let j = hi;
-    while (i <= j) {
-      while (a[i] < pivot) i++;
-      while (a[j] > pivot) j--;
-      if (i <= j) {
-        swap(a, i, j);
-        i++;
-        j--;
-      }
-    }
-    if (k <= j) hi = j;
-    else if (k >= i) lo = i;
-    else return a[k];
-  }
-  return a[k];
-}
-
-function swap(a: Float64Array, i: number, j: number): void {
-  const t = a[i];
-  a[i] = a[j];
-  a[j] = t;
-}
-
 /** Median of a numeric array (a copy is reordered; the input is untouched); NaN for an empty input. */
 export function median(values: ArrayLike<number>): number {
   return values.length === 0 ? NaN : medianInPlace(Float64Array.from(values));
-}
-
-/** Median of `s`, reordering it. */
-function medianInPlace(s: Float64Array): number {
-  const n = s.length;
-  if (n === 0) return NaN;
-  const upper = selectKth(s, n >> 1);
-  if (n % 2 === 1) return upper;
-  // The lower middle is the largest value left of position n/2 after selection.
-  let lower = -Infinity;
-  for (let k = 0; k < n >> 1; k++) if (s[k] > lower) lower = s[k];
-  return 0.5 * (lower + upper);
 }
 
 /**

@@ -270,7 +270,7 @@ describe('CSV reader across chunk boundaries', () => {
 
 describe('medianInPlace (selection instead of a sort, for the time-gap checks)', () => {
   it('equals the median of the sorted values on seeded random arrays with ties', async () => {
-    const { medianInPlace } = await import('../../../extension/core/read/checks');
+    const { medianInPlace } = await import('../../../extension/core/stats/median');
     const rnd = mulberry32(42);
     for (let n = 0; n < 400; n++) {
       const len = 1 + Math.floor(rnd() * 300);
