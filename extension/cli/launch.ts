@@ -25,6 +25,7 @@
 import { spawnSync } from 'node:child_process';
 import path from 'node:path';
 import { availableParallelism } from 'node:os';
+import { loadBundle } from './codeCache';
 
 /** The tunable that asks glibc's malloc for transparent huge pages (madvise mode) on its mmap'd blocks. */
 export const HUGE_PAGE_TUNABLE = 'glibc.malloc.hugetlb=1';
@@ -92,10 +93,12 @@ export function childPlan(env: NodeJS.ProcessEnv, platform: NodeJS.Platform, ver
   };
 }
 
-/** The tool's own module, run in this process. */
+/**
+ * The tool's own module, run in this process: loaded with a code cache (codeCache.ts). The bundle's path is computed,
+ * so esbuild leaves it out of dist/cli.js, which stays small and starts at once.
+ */
 function runHere(mainFile: string): void {
-  // A computed path: esbuild leaves this require to Node, so dist/cli.js stays a few kilobytes and starts at once.
-  const tool = require(mainFile) as { runCommandLine(argv: string[]): void };
+  const tool = loadBundle(mainFile).exports as { runCommandLine(argv: string[]): void };
   tool.runCommandLine(process.argv.slice(2));
 }
 
@@ -106,7 +109,8 @@ if (require.main === module) {
     runHere(mainFile);
   } else {
     // Node's own flags (--cpu-prof, -r hook, --max-old-space-size) go to the child, which does the work, after ours.
-    const child = spawnSync(process.execPath, [...plan.flags, ...process.execArgv, mainFile, ...process.argv.slice(2)], { stdio: 'inherit', env: plan.env });
+    // The child starts this launcher again (RESIDUUM_LAUNCHED: it runs the tool at once), which loads the tool cached.
+    const child = spawnSync(process.execPath, [...plan.flags, ...process.execArgv, __filename, ...process.argv.slice(2)], { stdio: 'inherit', env: plan.env });
     if (child.error) {
       runHere(mainFile); // could not start a process: the same run here, with this process' settings
     } else if (child.signal) {
