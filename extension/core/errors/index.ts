@@ -355,7 +355,7 @@ function windowedTest(
       if (run.length === 0) return;
       const first = run[0], last = run[run.length - 1];
       let s = 0, c = 0, pMin = 1;
-      for (const w of run) { s += w.mean * w.count; c += w.count; pMin = Math.min(pMin, w.p); }
+      for (const w of run) { s += w.mean * w.count; c += w.count; pMin = Math.min(pMin, w.p ?? 1); } // flagged: p is there
       const mean = s / c;
       const over = first.side === 'overconfident';
       const bound = over ? Math.max(...run.map((w) => w.correctedBounds[1])) : Math.min(...run.map((w) => w.correctedBounds[0]));

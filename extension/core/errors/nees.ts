@@ -372,8 +372,11 @@ export interface NeesWindow {
   bounds: [number, number];
   /** Family-corrected interval of the mean (two-sided level `alphaPerWindow`). */
   correctedBounds: [number, number];
-  /** Two-sided p of the mean. */
-  p: number;
+  /**
+   * Two-sided p of the mean, computed only where it decides the window: absent when the mean lies clearly inside the
+   * family-corrected interval (its p is then at least `alphaPerWindow`; see {@link neesWindows}).
+   */
+  p?: number;
   /** Outside the family-corrected interval. */
   flagged: boolean;
   side?: 'overconfident' | 'pessimistic';
@@ -446,16 +449,24 @@ export function neesWindows(
       cache.set(cnt, ap);
     }
     const mean = s / cnt;
-    // upper tail: Pearson's three moments; lower tail: two moments (scaled chi-square), conservative there
-    const x = (s - ap.b) / ap.a;
-    const upper = x > 0 ? chi2Sf(x, ap.nu) : 1;
-    const lower = chi2Cdf(s / ap.g, ap.h);
-    const p = Math.min(1, 2 * Math.min(lower, upper));
     const { lo, hi, cLo, cHi } = ap;
-    const flagged = p < alphaPerWindow;
+    // p < alphaPerWindow exactly when the mean lies outside [cLo, cHi] (the bounds are the two laws' quantiles at
+    // alphaPerWindow / 2), so the tail probabilities (two incomplete gamma functions, most of this function's time
+    // on a long log) are computed only for a mean not clearly inside: a relative margin far above a quantile's
+    // round-off keeps every decision that of the exact p.
+    const clear = ap.a > 0 && ap.g > 0 && mean > cLo * (1 + P_MARGIN) && mean < cHi * (1 - P_MARGIN);
+    let p: number | undefined;
+    if (!clear) {
+      // upper tail: Pearson's three moments; lower tail: two moments (scaled chi-square), conservative there
+      const x = (s - ap.b) / ap.a;
+      const upper = x > 0 ? chi2Sf(x, ap.nu) : 1;
+      const lower = chi2Cdf(s / ap.g, ap.h);
+      p = Math.min(1, 2 * Math.min(lower, upper));
+    }
+    const flagged = p !== undefined && p < alphaPerWindow;
     out.push({
       t: t_s[a0], tEnd: t_s[b0 - 1], count: cnt, mean, nEff: ap.nEff, bounds: [Math.max(0, lo), hi],
-      correctedBounds: [Math.max(0, cLo), cHi], p, flagged,
+      correctedBounds: [Math.max(0, cLo), cHi], ...(p !== undefined ? { p } : {}), flagged,
       ...(flagged ? { side: mean > dof ? 'overconfident' as const : 'pessimistic' as const } : {}),
     });
   }
@@ -463,6 +474,9 @@ export function neesWindows(
 }
 
 const windowCount = new Float64Array(1);
+
+/** Relative margin inside the corrected bounds beyond which a window's p is not computed (see neesWindows). */
+const P_MARGIN = 1e-9;
 
 /** Sum of the finite values of v over [i0, i1), their count into count[0] (a function of its own: see track.ts). */
 function finiteSum(v: Float64Array, i0: number, i1: number, count: Float64Array): number {
