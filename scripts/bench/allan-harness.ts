@@ -4,13 +4,13 @@
  * usage: node allan-harness.js [N]   prints one JSON line { n, generate_s, allan_s, points, adev1s }
  */
 import { allanDeviation } from '../../extension/core/imu/allan';
-import { makeDemoRandom } from '../../extension/core/demo/random';
+import { makeSeededRandom } from '../../extension/core/stats/seededRandom';
 
 const n = Number(process.argv[2] ?? 1e7);
 const tau0_s = 0.01;
 const arw = 2e-4 * Math.sqrt(1 / tau0_s); // white rate noise per sample, rad/s
 const rrw = 2e-6 * Math.sqrt(tau0_s); // rate random walk per sample, rad/s
-const rng = makeDemoRandom(3);
+const rng = makeSeededRandom(3);
 const t0 = performance.now();
 const y = new Float64Array(n);
 let walk = 0;

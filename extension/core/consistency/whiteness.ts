@@ -38,7 +38,7 @@ import {
   segmentedNormalizedAutocorrelation, twoSidedNormalQuantile,
 } from '../stats/autocorrelation';
 import { giveBack, takeFloat64 } from '../scratch';
-import { makeDemoRandom } from '../demo/random';
+import { makeSeededRandom } from '../stats/seededRandom';
 
 /** Reorderings of the Monte Carlo permutation p of a candidate component. */
 export const PERMUTATIONS = 999;
@@ -92,7 +92,7 @@ function permutationP(
   const y = takeFloat64(count);
   y.set(x.subarray(0, count));
   const r = new Float64Array(lags);
-  const rng = makeDemoRandom(seed);
+  const rng = makeSeededRandom(seed);
   const cuts = [0, ...breaks, count];
   let atLeast = 0;
   for (let b = 0; b < PERMUTATIONS; b++) {

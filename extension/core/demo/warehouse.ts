@@ -33,7 +33,7 @@
  */
 import { quatExp, quatMultiply, quatRotate } from '../geometry/quat';
 import type { Anchor } from '../model';
-import { makeDemoRandom, type DemoRandom } from './random';
+import { makeSeededRandom, type SeededRandom } from '../stats/seededRandom';
 import {
   createTruthSample, warehouseAnchors, warehouseBodyRate, warehouseTruth, GRAVITY_MPS2,
 } from './trajectory';
@@ -258,7 +258,7 @@ function createEpoch(): Epoch {
  * values.
  */
 function makeSimulation(r: Resolved): { epoch: Epoch; step: (k: number) => boolean } {
-  const rng: DemoRandom = makeDemoRandom(r.seed);
+  const rng: SeededRandom = makeSeededRandom(r.seed);
   const f = faultEpochs(r);
   const anchors = warehouseAnchors().map((a) => a.p);
   const e = createEpoch();

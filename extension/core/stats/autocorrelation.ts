@@ -84,24 +84,29 @@ export interface PortmanteauResult {
 }
 
 /**
+ * A portmanteau Q over m lags referred to chi-square with m - fittedParams degrees of freedom: p is its upper tail,
+ * NaN when no degree of freedom is left or Q is not finite.
+ */
+function portmanteau(q: number, m: number, fittedParams: number): PortmanteauResult {
+  const dof = m - fittedParams;
+  return { q, dof, p: dof > 0 && Number.isFinite(q) ? chi2Sf(q, dof) : NaN };
+}
+
+/**
  * Ljung-Box Q over lags 1..m from the autocorrelations `r` (r[k-1] = r_k) of a series of length n, with
  * m - fittedParams degrees of freedom (Ljung and Box 1978; NIST e-Handbook sec. 6.4.4.8.1).
  */
 export function ljungBox(r: ArrayLike<number>, n: number, m: number, fittedParams = 0): PortmanteauResult {
   let s = 0;
   for (let k = 1; k <= m; k++) s += (r[k - 1] * r[k - 1]) / (n - k);
-  const q = n * (n + 2) * s;
-  const dof = m - fittedParams;
-  return { q, dof, p: dof > 0 && Number.isFinite(q) ? chi2Sf(q, dof) : NaN };
+  return portmanteau(n * (n + 2) * s, m, fittedParams);
 }
 
 /** Box-Pierce Q = n sum_{k=1}^{m} r_k^2 with m - fittedParams degrees of freedom (Box and Pierce 1970). */
 export function boxPierce(r: ArrayLike<number>, n: number, m: number, fittedParams = 0): PortmanteauResult {
   let s = 0;
   for (let k = 1; k <= m; k++) s += r[k - 1] * r[k - 1];
-  const q = n * s;
-  const dof = m - fittedParams;
-  return { q, dof, p: dof > 0 && Number.isFinite(q) ? chi2Sf(q, dof) : NaN };
+  return portmanteau(n * s, m, fittedParams);
 }
 
 /**
@@ -196,8 +201,8 @@ export function segmentPairs(n: number, breaks: readonly number[], maxLag: numbe
  * and r_k = (1/n) sum_s (n_s / c_s) sum_{t, t+k in s} (x_t - m_s)(x_{t+k} - m_s): no product pairs values of two
  * segments, and a segment whose scale differs (S too large or too small after a restart) weighs as its length says.
  * With no breaks it is the value of `autocorrelation` (the lag sums of one segment are taken in the same order).
- * A constant segment adds no products. `out[k - 1]` receives r_k (NaN when no segment holds a pair at lag k or
- * every segment is constant).
+ * A constant segment adds no products. `out[k - 1]` receives r_k (NaN when no segment holds a pair at lag k, i.e.
+ * k is at least the longest segment's length, or every segment is constant).
  */
 export function segmentedAutocorrelation(
   x: ArrayLike<number>, n: number, breaks: readonly number[], maxLag: number, out = new Float64Array(maxLag),
@@ -207,8 +212,10 @@ export function segmentedAutocorrelation(
   const part = new Float64Array(maxLag);
   out.fill(0, 0, maxLag);
   let varying = false;
+  let longest = 0; // a lag k has a pair within some segment (segmentPairs > 0) exactly when k < longest
   for (let s = 0; s + 1 < cuts.length; s++) {
     const a = cuts[s], b = cuts[s + 1];
+    longest = Math.max(longest, b - a);
     let mean = 0;
     for (let t = a; t < b; t++) mean += x[t];
     mean /= b - a;
@@ -224,9 +231,8 @@ export function segmentedAutocorrelation(
     for (let k = 0; k < usable; k++) out[k] += cuts.length === 2 ? part[k] / c0 : part[k] * scale;
   }
   giveBack(d);
-  const pairs = segmentPairs(n, breaks, maxLag);
   for (let k = 1; k <= maxLag; k++) {
-    if (!(pairs[k - 1] > 0) || !varying) { out[k - 1] = NaN; continue; }
+    if (k >= longest || !varying) { out[k - 1] = NaN; continue; }
     if (cuts.length > 2) out[k - 1] /= n;
   }
   return out;
@@ -243,9 +249,7 @@ export function segmentedLjungBox(
 ): PortmanteauResult {
   let s = 0;
   for (let k = 1; k <= m; k++) s += (r[k - 1] * r[k - 1]) / pairs[k - 1];
-  const q = n * (n + 2) * s;
-  const dof = m - fittedParams;
-  return { q, dof, p: dof > 0 && Number.isFinite(q) ? chi2Sf(q, dof) : NaN };
+  return portmanteau(n * (n + 2) * s, m, fittedParams);
 }
 
 /**

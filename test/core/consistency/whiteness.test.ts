@@ -140,6 +140,17 @@ describe('whiteness across a filter restart (two segments, independent computati
     expect(Math.abs((w?.ljungBoxQ ?? NaN) - ref.q)).toBeLessThanOrEqual(1e-9 * ref.q);
   });
 
+  it('r_k is defined while the longest segment holds a pair at lag k (unequal segments, plain estimator)', () => {
+    const rng = makeRng(17);
+    const x = Float64Array.from({ length: 13 }, () => rng.normal());
+    // Segments of 4 and 9: lags 1-3 pair within both, 4-8 within the second only, 9 and 10 nowhere.
+    const r = segmentedAutocorrelation(x, 13, [4], 10);
+    const ref = plainPooled([Array.from(x.subarray(0, 4)), Array.from(x.subarray(4))], 10);
+    expect(ref.pairs).toEqual([11, 9, 7, 5, 4, 3, 2, 1, 0, 0]);
+    for (let k = 0; k < 8; k++) expect(Math.abs(r[k] - ref.r[k])).toBeLessThanOrEqual(1e-12);
+    expect(Number.isNaN(r[8]) && Number.isNaN(r[9])).toBe(true);
+  });
+
   it('pairs across the restart change the verdict: not-white as one series, white within segments', () => {
     // Constructed: a consistent channel whose normalized innovations sit at +0.6 before the restart at t = 30 s and
     // at -0.6 after it (a measurement bias the restart changed; each segment is white about its own mean).

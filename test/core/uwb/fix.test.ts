@@ -3,7 +3,7 @@ import { Matrix, solve } from 'ml-matrix';
 import { refineTdoa, tdoaFix, tdoaLinearFix, tdoaMinimalFix, referenceDifferences, type TdoaObservation } from '../../../extension/core/uwb/tdoaFix';
 import { rangeFix, rangeLinearFix } from '../../../extension/core/uwb/rangeFix';
 import { distance_m, type Vec3_m } from '../../../extension/core/uwb/vec3';
-import { makeDemoRandom } from '../../../extension/core/demo/random';
+import { makeSeededRandom } from '../../../extension/core/stats/seededRandom';
 
 // Source: reference-checks.md sec 6.2: sensors, c = 341 and emitter from the TDOAOnlyStaticLocEst.m docstring (NRL
 // Tracker Component Library, [READ]); ranges, differences, roots COMPUTED there. Tolerance 1e-9 m noise-free.
@@ -53,7 +53,7 @@ describe('TDOA fix, five-sensor example of reference-checks sec 6.2', () => {
 
 describe('linear LS against ml-matrix on a noisy case', () => {
   it('tdoaLinearFix equals the LS solution computed by ml-matrix', () => {
-    const rng = makeDemoRandom(7);
+    const rng = makeSeededRandom(7);
     const anchors: Vec3_m[] = Array.from({ length: 8 }, () => [20 * rng.uniform(), 15 * rng.uniform(), 3 * rng.uniform()] as Vec3_m);
     const p: Vec3_m = [8, 6, 1.2];
     const dRef = anchors.slice(1).map((s) => distance_m(p, s) - distance_m(p, anchors[0]) + 0.05 * rng.normal());
@@ -66,7 +66,7 @@ describe('linear LS against ml-matrix on a noisy case', () => {
     expect(Math.abs(got.rRef_m - ref.get(3, 0))).toBeLessThan(1e-9);
   });
   it('Gauss-Newton ends at a stationary point: J^T r = 0 (first-order optimality)', () => {
-    const rng = makeDemoRandom(11);
+    const rng = makeSeededRandom(11);
     const anchors: Vec3_m[] = [[0, 0, 3], [20, 0, 2.5], [20, 15, 3], [0, 15, 0.5], [10, 7, 2.9], [5, 12, 0.3]];
     const p: Vec3_m = [6, 4, 1.1];
     const obs: TdoaObservation[] = [1, 2, 3, 4, 5].map((j) => ({ i: 0, j, d_m: distance_m(p, anchors[j]) - distance_m(p, anchors[0]) + 0.1 * rng.normal() }));

@@ -1,10 +1,10 @@
 import { describe, expect, it } from 'vitest';
 import { median } from '../../../extension/core/uwb/residuals';
-import { makeDemoRandom } from '../../../extension/core/demo/random';
+import { makeSeededRandom } from '../../../extension/core/stats/seededRandom';
 
 describe('median (quickselect)', () => {
   it('equals the middle of a full sort on random, tied and sorted inputs', () => {
-    const rng = makeDemoRandom(3);
+    const rng = makeSeededRandom(3);
     for (let trial = 0; trial < 200; trial++) {
       const n = 1 + Math.floor(rng.uniform() * 60);
       const v = Array.from({ length: n }, () => (trial % 3 === 0 ? Math.floor(rng.uniform() * 4) : trial % 3 === 1 ? rng.normal() : 0));

@@ -3,7 +3,7 @@ import { analyzeUwb } from '../../../extension/core/uwb/index';
 import { DEFAULT_SETTINGS } from '../../../extension/core/settings';
 import { finiteJson } from '../../../extension/core/finite';
 import { REPORT_SCHEMA } from '../../../extension/core/report';
-import { makeDemoRandom } from '../../../extension/core/demo/random';
+import { makeSeededRandom } from '../../../extension/core/stats/seededRandom';
 import type { NavLog } from '../../../extension/core/model';
 import { reportProblems } from '../../helpers/reportSchema';
 import { simulateUwb } from './simulate';
@@ -22,7 +22,7 @@ describe('bad input never throws and the block stays finite', () => {
     for (const seed of [1, 2, 3]) {
       for (const kind of ['tdoa', 'range'] as const) {
         const log = simulateUwb({ seed, kind, duration_s: 20 });
-        const rng = makeDemoRandom(100 + seed);
+        const rng = makeSeededRandom(100 + seed);
         const bad = [NaN, Infinity, -Infinity, 1e300, -5, 0];
         const corrupt = (a: Float64Array): void => {
           for (let k = 0; k < a.length; k++) if (rng.uniform() < 0.05) a[k] = bad[Math.floor(rng.uniform() * bad.length)];

@@ -7,7 +7,7 @@
  * P = sigma_est^2 I, so nu ~ N(0, S) when nothing is wrong (the estimate error is independent of the noise).
  */
 import type { Anchor, Channel, NavLog, RangeStream, StateStream, TdoaStream } from '../../../extension/core/model';
-import { makeDemoRandom } from '../../../extension/core/demo/random';
+import { makeSeededRandom } from '../../../extension/core/stats/seededRandom';
 import type { Vec3_m } from '../../../extension/core/uwb/vec3';
 
 /** Greenhouse anchors, metres, ENU (invented). */
@@ -59,7 +59,7 @@ export function tagAt(t: number, o: SimOptions): Vec3_m {
 /** Build a NavLog from the simulation. */
 export function simulateUwb(options: SimOptions = {}): NavLog {
   const o = { seed: 1, duration_s: 100, kind: 'tdoa' as const, rate_hz: 40, sigma_m: 0.1, sigmaEst_m: 0.05, withUpdates: true, withRaw: true, withTruth: true, withEstimate: true, ...options };
-  const rng = makeDemoRandom(o.seed);
+  const rng = makeSeededRandom(o.seed);
   const anchors = o.anchors ?? GREENHOUSE_ANCHORS;
   const pairs = o.pairs ?? GREENHOUSE_PAIRS;
   const logged = o.loggedAnchors ?? anchors;

@@ -1,14 +1,17 @@
 /**
- * Seeded pseudo-random numbers for the demo generator (the same seed gives the same log on every machine), the tests'
- * simulations and the whiteness test's permutation p (consistency/whiteness.ts: the same report on every run).
+ * Seeded pseudo-random numbers: the same seed gives the same sequence on every machine. Used by the analysis itself
+ * (the whiteness test's Monte Carlo permutation p, consistency/whiteness.ts: the same report on every run), by the
+ * demo scene generator (demo/warehouse.ts: the same log every time), by the Allan deviation bench harness
+ * (scripts/bench/allan-harness.ts) and by the tests' simulations (test/core/uwb).
  *
- * sfc32 (a public-domain 128-bit-state generator, common practice) seeded through splitmix32, with Box-Muller
- * normals. Hand-written because the core takes no runtime dependency for twenty lines, and `Math.random` cannot be
- * seeded.
+ * sfc32 (Chris Doty-Humphrey's public-domain 128-bit-state Small Fast Counting generator, common practice) seeded
+ * through splitmix32 (a golden-ratio Weyl sequence mixed by MurmurHash3's 32-bit finalizer), with normals by the
+ * Box-Muller transform (Box and Muller 1958). Hand-written because the core takes no runtime dependency for twenty
+ * lines, and `Math.random` cannot be seeded.
  */
 
 /** A seeded source of uniforms in [0, 1) and standard normals. */
-export interface DemoRandom {
+export interface SeededRandom {
   /** Uniform in [0, 1). */
   uniform(): number;
   /** Standard normal N(0, 1). */
@@ -16,7 +19,7 @@ export interface DemoRandom {
 }
 
 /** Make a seeded generator; any finite number is a valid seed (it is reduced to 32 bits). */
-export function makeDemoRandom(seed: number): DemoRandom {
+export function makeSeededRandom(seed: number): SeededRandom {
   let s = (Math.trunc(seed) >>> 0) ^ 0x9e3779b9;
   // splitmix32 spreads the seed over the four words of state.
   const split = (): number => {
