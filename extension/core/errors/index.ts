@@ -18,7 +18,7 @@ import {
 } from './relative';
 import { buildErrorTrack, isCompared, type BlockName, type BlockTrack, type ErrorTrack } from './track';
 import { umeyamaColumns } from './umeyama';
-import { medianInPlace } from '../stats/median';
+import { radixMedian } from '../stats/radixMedian';
 import { lazySeries } from '../lazySeries';
 import { giveBack, reserveScratch, takeFloat64, takeInt32 } from '../scratch';
 
@@ -467,7 +467,7 @@ function ateFigures(track: ErrorTrack, settings: AnalysisSettings, use: Int32Arr
   if (d === 3) rot = so3Angle(a.R);
   else rot = Math.abs(Math.atan2(a.R[2], a.R[0]));
   return {
-    rmse: Math.sqrt(a.meanSquaredError), median: medianInPlace(a.residualNorms, a.count), max: a.maxResidual, dims: d,
+    rmse: Math.sqrt(a.meanSquaredError), median: radixMedian(a.residualNorms, a.count), max: a.maxResidual, dims: d,
     scale: a.scale, rotationDeg: rot * RAD2DEG, translation: Array.from(a.t),
   };
 }

@@ -9,6 +9,7 @@
  */
 import { rotationAt, type AttitudeColumns } from './attitude';
 import { medianInPlace } from '../stats/median';
+import { radixMedian } from '../stats/radixMedian';
 import { giveBack, takeFloat64 } from '../scratch';
 
 /** Statistics of one relative-error window. */
@@ -25,12 +26,12 @@ export function median(values: ArrayLike<number>): number {
   return medianInPlace(Float64Array.from(values));
 }
 
-/** Figures of the first `count` pair errors; `errs` is scratch (reordered by the median). */
+/** Figures of the first `count` pair errors (the median by a radix histogram: the pairs are as many as the epochs). */
 function stats(errs: Float64Array, count: number): RelativeErrorStats {
   if (count === 0) return { count: 0 };
   let s = 0, mx = 0;
   for (let i = 0; i < count; i++) { const e = errs[i]; s += e * e; if (e > mx) mx = e; }
-  return { count, rmse: Math.sqrt(s / count), max: mx, median: medianInPlace(errs, count) };
+  return { count, rmse: Math.sqrt(s / count), max: mx, median: radixMedian(errs, count) };
 }
 
 /** Inputs shared by both windows: epochs `use` (ascending) with positions and optional attitudes (row-major 3x3). */

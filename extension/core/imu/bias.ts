@@ -211,6 +211,8 @@ export interface BiasScratch {
   work: Float64Array;
   idx?: Int32Array;
   pos?: Int32Array;
+  /** The median step of the stream's time column (sampled), made by the first axis and read by the others. */
+  dtAll?: { t: Float64Array; n: number; value: number };
 }
 
 /** Work columns for a state stream of `n` records, from the shared pool (scratch.ts): give them back with {@link giveBackBiasScratch}. */
@@ -371,7 +373,8 @@ function analyzeAxis(
   // that is the median step of the time column, so it is taken first and the corrections made in the same pass
   // (checked below: otherwise they are made again).
   const dAll = scratch.d;
-  const dtAll = sampledStepMedian(t, n, work);
+  // the same for every axis of the stream: made once
+  const dtAll = scratch.dtAll?.t === t && scratch.dtAll.n === n ? scratch.dtAll.value : (scratch.dtAll = { t, n, value: sampledStepMedian(t, n, work) }).value;
   const count = usableSamples(t, col, n, dtAll, dAll);
   const zeros = scanZeros;
   if (count < 2) return undefined;
