@@ -105,9 +105,10 @@ async function analyzeVerb(argv: string[]): Promise<number> {
     process.stderr.write(`profile: ${parts.join(' ')}\n`);
     const p = result.parallel;
     if (p) {
+      const sha = `sha256 computed in the ${p.hashIn === 'worker' ? 'worker while the log was parsed' : `main thread${p.hashWhy !== undefined ? ` (${p.hashWhy})` : ''}`}`;
       process.stderr.write(p.errorsIn === 'worker'
-        ? `parallel: errors ran in the stage worker beside resets, channels, bias and uwb (errors=${p.errors_ms.toFixed(1)}ms there; this thread waited ${p.wait_ms.toFixed(1)}ms for it); sha256 computed in the ${p.hashIn === 'worker' ? 'worker while the log was parsed' : 'main thread'}\n`
-        : `parallel: every stage ran on the main thread (${p.why ?? 'no reason given'}); sha256 computed in the ${p.hashIn === 'worker' ? 'worker while the log was parsed' : 'main thread'}\n`);
+        ? `parallel: errors ran in the stage worker beside resets, channels, bias and uwb (errors=${p.errors_ms.toFixed(1)}ms there; this thread waited ${p.wait_ms.toFixed(1)}ms for it); ${sha}\n`
+        : `parallel: every stage ran on the main thread (${p.why ?? 'no reason given'}); ${sha}\n`);
     }
   }
   return 0;

@@ -12,7 +12,9 @@ import type { Report } from '../core/report';
 import { resolveSettings, type AnalysisSettings } from '../core/settings';
 import { analyzeLog, type SourceInfo, type StageTimes } from '../core/analyze';
 import { readRun, type ByteSource } from '../core/read/index';
-import { fileByteSource, openRelative, FileChangedError, type FileLayer } from './fileSource';
+import {
+  appendSettled, fileByteSource, openRelative, FileChangedError, rewrittenMessage, rewrittenSince, type FileLayer, type FileStamp,
+} from './fileSource';
 import { notesForReport } from './notesReport';
 import { mergeResetTimes } from '../core/resets/segments';
 import { analyzeLogParallel, DEFAULT_MIN_PARALLEL_BYTES, StageWorker, type ParallelOptions, type ParallelStats } from './parallelAnalysis';
@@ -105,8 +107,9 @@ export async function analyzeFile(logPath: string, options: AnalyzeFileOptions =
   const worker = par && availableParallelism() >= 2 && statSync(logPath).size >= (par.minBytes ?? DEFAULT_MIN_PARALLEL_BYTES)
     ? StageWorker.start(par.workerFile, logPath) : undefined;
   try {
-    // The main log is read once more from the start when it changed under the reader (truncated, replaced or deleted);
-    // a second change, or any read error, stops the analysis with one plain line.
+    // The main log is read once more from the start when it changed under the reader (truncated, replaced, deleted or
+    // rewritten in place; growth is not a change); a second change, or any read error, stops the analysis with one
+    // plain line.
     let attempt = await readMainOnce(logPath, options, settings.memoryBudgetBytes, map, worker?.progress);
     if (par && !attempt.failure) {
       try {
@@ -144,8 +147,9 @@ export async function readLogFile(logPath: string, options: AnalyzeFileOptions =
 }
 
 /**
- * After a read: when the log changed under the reader (truncated, replaced or deleted) it is read once more from the
- * start (a note in the log says so); a second change, or any read error, is an InputError with one plain line.
+ * After a read: when the log changed under the reader (truncated, replaced, deleted or rewritten in place) it is read
+ * once more from the start (a note in the log says so); a second change, or any read error, is an InputError with one
+ * plain line.
  */
 async function readAgainIfChanged(logPath: string, options: AnalyzeFileOptions, settings: AnalysisSettings,
   map: { text: string; name: string } | undefined, attempt: MainRead): Promise<MainRead> {
@@ -180,20 +184,33 @@ async function analyzeReadInParallel(logPath: string, attempt: MainRead, setting
   const own = { ...settings };
   const sidecar = sidecarOf(logPath, attempt.log, own, options.notes);
   const info: Promise<SourceInfo> = hash.then((sha256) => ({ sha256, notes: sidecar.notes }));
-  const { report } = await analyzeLogParallel(attempt.log, own, info, worker, { minEpochs: par.minEpochs, times, stats });
+  const { report } = await analyzeLogParallel(attempt.log, own, info, worker, {
+    minEpochs: par.minEpochs, times, stats, mainMs: performance.now() - t0, answerFloorMs: par.answerFloorMs, answerFactor: par.answerFactor,
+  });
   if (sidecar.finding) report.findings.push(sidecar.finding);
   return { report, series: [], log: attempt.log, parallel: stats as ParallelStats };
 }
 
-/** The worker's hash of the bytes the main thread read, checked; computed here when the worker could not. */
+/**
+ * The worker's hash of the bytes the main thread read, checked; computed here when the worker could not. Checked: the
+ * file hashed is the one read (device and inode), and it was not rewritten in place between the main thread's last
+ * look and the end of the hash (the hash answer's stamp against the read's, as fileByteSource tells a rewrite).
+ */
 async function confirmedHash(logPath: string, attempt: MainRead, worker: StageWorker | undefined, stats: Partial<ParallelStats>): Promise<string> {
   let answer: HashAnswer = worker ? checkIdentity(await worker.hash(), logPath, attempt.identity) : { kind: 'failed', message: 'no stage worker' };
   if (answer.kind === 'hash' && answer.bytes !== attempt.bytes) answer = { kind: 'failed', message: `the worker hashed ${answer.bytes} bytes, not ${attempt.bytes}` };
   if (answer.kind === 'failed' || answer.kind === 'abandoned') {
     stats.hashIn = 'main';
+    if (worker) stats.hashWhy = answer.kind === 'failed' ? answer.message : 'the worker abandoned the hash';
     answer = hashPrefixNow(logPath, attempt.bytes, attempt.identity);
   }
-  if (answer.kind === 'hash') return answer.sha256;
+  if (answer.kind === 'hash') {
+    const seen = attempt.stamp;
+    if (seen && attempt.identity && rewrittenSince(seen, answer.stamp) && !(await appendSettled(logPath, { ...seen, ...attempt.identity }))) {
+      throw new FileChangedError(rewrittenMessage(logPath), 'rewritten');
+    }
+    return answer.sha256;
+  }
   if (answer.kind === 'changed') throw new FileChangedError(answer.message, answer.how);
   throw new InputError(`log cannot be read: ${answer.kind === 'failed' ? answer.message : 'its hash was abandoned'}`);
 }
@@ -231,6 +248,8 @@ interface MainRead {
   bytes: number;
   /** Device and inode of the main log as opened. */
   identity?: FileIdentity;
+  /** Times and size of the main log at the read's last look (the state its bytes are of). */
+  stamp?: FileStamp;
   failure?: Error;
 }
 
@@ -244,7 +263,12 @@ async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memory
   const size = statSync(logPath).size;
   const hash = progress ? undefined : createHash('sha256');
   let identity: FileIdentity | undefined;
-  const raw = fileByteSource(logPath, { files, reuse: true, onOpen: (st) => { identity = { dev: st.dev, ino: st.ino }; } }); // every consumer below copies what it keeps
+  let stamp: FileStamp | undefined;
+  const raw = fileByteSource(logPath, { // reuse: every consumer below copies what it keeps
+    files, reuse: true, rewrites: true,
+    onOpen: (st) => { identity = { dev: st.dev, ino: st.ino }; },
+    onEnd: (st) => { stamp = { size: st.size, mtimeMs: st.mtimeMs, ctimeMs: st.ctimeMs }; },
+  });
   let bytesRead = 0;
   let failure: Error | undefined;
   // The read's profile (--profile, the bench): time this thread waited for the disk, time it hashed, time the reader
@@ -306,7 +330,7 @@ async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memory
     if (hash) times['read.hash'] = hash_ms;
     if (Number.isFinite(mainDoneAt)) times['read.assemble'] = clock() - mainDoneAt;
   }
-  return { log, ...(hash ? { hash: hash.digest('hex') } : {}), bytes: bytesRead, ...(identity ? { identity } : {}), ...(failure ? { failure } : {}) };
+  return { log, ...(hash ? { hash: hash.digest('hex') } : {}), bytes: bytesRead, ...(identity ? { identity } : {}), ...(stamp ? { stamp } : {}), ...(failure ? { failure } : {}) };
 }
 
 /** Absolute, normalised form of a user-given path (for messages and the report). */

@@ -19,6 +19,14 @@ export const REUSED_CHUNK_BYTES = 1 << 20;
 
 /** Chunks read between two checks that the file was not truncated, replaced or deleted (and always at the end). */
 const CHECK_EVERY_CHUNKS = 8;
+/**
+ * How long a look that suggests a rewrite in place waits before it looks again, ms. Writing to a file moves its
+ * times before its size (in Linux's generic write path the times are updated before the bytes are copied and the size
+ * after each page; from memory of the kernel source), so a look in between sees an append in progress as times moved
+ * without growth; the second look sees it grown. A write still not done after this long is taken for a rewrite (the
+ * file is read again: only time lost).
+ */
+export const REWRITE_SETTLE_MS = 20;
 
 /** Why a path cannot be read as a log, or undefined when it can (a regular file). */
 function refuse(p: string, st: FileStatLike): string | undefined {
@@ -43,6 +51,8 @@ export interface FileStatLike {
   size: number;
   ino: number;
   dev: number;
+  mtimeMs: number;
+  ctimeMs: number;
   isFile(): boolean;
   isDirectory(): boolean;
   isFIFO(): boolean;
@@ -75,12 +85,57 @@ export const NODE_FILES: FileLayer = {
   open: (p) => fs.promises.open(p, 'r'),
 };
 
-/** The file changed under the reader (truncated, replaced or deleted): the caller may read it again from the start. */
+/** How a file changed under the reader. */
+export type FileChange = 'truncated' | 'replaced' | 'deleted' | 'rewritten';
+
+/**
+ * The file changed under the reader (truncated, replaced, deleted or rewritten in place): the caller may read it again
+ * from the start.
+ */
 export class FileChangedError extends Error {
-  constructor(message: string, readonly how: 'truncated' | 'replaced' | 'deleted') {
+  constructor(message: string, readonly how: FileChange) {
     super(message);
     this.name = 'FileChangedError';
   }
+}
+
+/** The times and size of one file (from fstat, or a stat of the path while it names the same inode). */
+export interface FileStamp {
+  size: number;
+  mtimeMs: number;
+  ctimeMs: number;
+}
+
+/**
+ * Whether a file seen as `before` and later as `after` (the same inode) was written without growing: its modification
+ * or status-change time moved while its size did not grow. That is how a rewrite in place is told (same inode, same
+ * length or shorter, other bytes). Growth is not a change: appending moves the times as well, and a log that is only
+ * appended to while it is read is simply read further (as it always was), so a file that grew between two looks is
+ * taken for appended to. The limits of a check by stat: a rewrite that also grows the file between two looks is not
+ * seen, nor one that lands within the file system's time granularity of the write before it; a touch moves the times
+ * too, and the change time moves on a chmod, chown or new hard link, which then read the file again (only time lost). The change time is
+ * looked at because the modification time can be set back (touch -d, a copy that keeps times); the change time cannot.
+ */
+export function rewrittenSince(before: FileStamp, after: FileStamp): boolean {
+  return after.size <= before.size && (after.mtimeMs !== before.mtimeMs || after.ctimeMs !== before.ctimeMs);
+}
+
+/** The message of a {@link FileChangedError} `rewritten`. */
+export function rewrittenMessage(filePath: string): string {
+  return `${filePath} was rewritten in place while it was being read (its times moved, its size did not grow)`;
+}
+
+const delay = (ms: number): Promise<void> => new Promise((resolve) => setTimeout(resolve, ms));
+
+/**
+ * After a look found `filePath` (seen before as `before`) written without growing ({@link rewrittenSince}): whether a
+ * second look, {@link REWRITE_SETTLE_MS} later, finds the same file grown past `before` (an append that was in
+ * progress), in which case its stat; undefined: a rewrite. Through `files` (default node:fs).
+ */
+export async function appendSettled(filePath: string, before: FileStamp & { ino: number; dev: number }, files: FileLayer = NODE_FILES): Promise<FileStatLike | undefined> {
+  await delay(REWRITE_SETTLE_MS);
+  const again = await files.stat(filePath).catch(() => undefined);
+  return again && again.ino === before.ino && again.dev === before.dev && again.size > before.size ? again : undefined;
 }
 
 /**
@@ -91,13 +146,21 @@ export class FileChangedError extends Error {
  * and it saves faulting in a fresh megabyte per chunk: on the 92 MB benchmark log fresh buffers cost about 0.4 s of CPU,
  * more than the newline count itself (measured on this machine, see issue 10). Without `reuse` every chunk is its own
  * buffer (for callers that keep chunks).
- * After every chunk and at the end, the path is looked up again: when the file was truncated below the bytes read,
+ * Every few chunks and at the end, the path is looked up again: when the file was truncated below the bytes read,
  * replaced by another file (a different inode) or deleted, `chunks()` rejects with a {@link FileChangedError}
  * (`analyzeFile` then reads it again once). A file that grows while it is read is simply read further.
- * `onOpen` gets the opened file's stat (its device and inode identify the file that was read).
+ * With `rewrites`, a rewrite in place is a change too: times moved without growth since the last look
+ * ({@link rewrittenSince}), confirmed by a second look ({@link appendSettled}); the first look is the fstat at open.
+ * (Off by default: the tail of a live log, which resumes at `start` and restarts only on truncation or replacement
+ * (tail.ts), and the other files of a run keep the checks they had.)
+ * `onOpen` gets the opened file's stat (its device and inode identify the file that was read); `onEnd` the stat of the
+ * last look, once the whole file was read without a change (the state the bytes read are of).
  */
 export function fileByteSource(filePath: string,
-  opts: { start?: number; highWaterMark?: number; files?: FileLayer; reuse?: boolean; onOpen?: (opened: FileStatLike) => void } = {}): ByteSource {
+  opts: {
+    start?: number; highWaterMark?: number; files?: FileLayer; reuse?: boolean; rewrites?: boolean;
+    onOpen?: (opened: FileStatLike) => void; onEnd?: (last: FileStatLike) => void;
+  } = {}): ByteSource {
   const files = opts.files ?? NODE_FILES;
   const hwm = opts.highWaterMark ?? (opts.reuse ? REUSED_CHUNK_BYTES : CHUNK_BYTES);
   let size: number | undefined;
@@ -134,6 +197,9 @@ export function fileByteSource(filePath: string,
         }
         opts.onOpen?.(opened);
         let pos = opts.start ?? 0;
+        // The file as last looked at: a rewrite in place is told against it. A stat of the path that names the opened
+        // inode (checked first) gives that inode's times and size, as an fstat of the descriptor would.
+        let last: FileStatLike = opened;
         const changed = async (): Promise<FileChangedError | undefined> => {
           let now: FileStatLike;
           try {
@@ -149,6 +215,12 @@ export function fileByteSource(filePath: string,
           if (now.size < pos) {
             return new FileChangedError(`${filePath} was truncated while it was being read (it shrank to ${now.size} bytes after ${pos} had been read)`, 'truncated');
           }
+          if (opts.rewrites && rewrittenSince(last, now)) {
+            const grown = await appendSettled(filePath, last, files);
+            if (!grown || grown.size < pos) return new FileChangedError(rewrittenMessage(filePath), 'rewritten');
+            now = grown;
+          }
+          last = now;
           return undefined;
         };
         // Double buffering: the next chunk is read (on libuv's thread pool) while the consumer parses this one, and
@@ -185,6 +257,7 @@ export function fileByteSource(filePath: string,
         }
         const c = await changed();
         if (c) throw c;
+        opts.onEnd?.(last);
       } finally {
         // A read still in flight (the consumer stopped early, or a change was found) settles before the close.
         await pending?.catch(() => undefined);

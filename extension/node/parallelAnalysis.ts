@@ -11,6 +11,10 @@
  * the errors stage's block and findings (plain data). The stage's series are closures and stay behind, so this path
  * is for callers that need only the report. Every failure (no worker file, a worker that cannot start, dies, or
  * answers with an error) falls back to this thread: the analysis is never lost, only slower.
+ *
+ * A worker that never answers (a hang, an endless loop in the errors stage) is caught by a watchdog: once this thread
+ * has finished its own stages, it waits for the worker's answers (the hash and the errors stage) at most
+ * {@link answerLimitMs}, then stops the worker and does that work here, with the same report.
  */
 import { existsSync } from 'node:fs';
 import { Worker } from 'node:worker_threads';
@@ -27,6 +31,25 @@ import type { ErrorsJob, StageWorkerData, StageWorkerMessage } from './stageProt
 export const DEFAULT_MIN_PARALLEL_EPOCHS = 20_000;
 /** Main logs smaller than this start no stage worker (they cannot hold enough epochs to use it). */
 export const DEFAULT_MIN_PARALLEL_BYTES = 2 << 20;
+/** The watchdog's least wait for the stage worker's answers after this thread's own stages, ms ({@link answerLimitMs}). */
+export const DEFAULT_ANSWER_FLOOR_MS = 10_000;
+/** The watchdog's wait as a multiple of this thread's own work on the analysis (read and stages) ({@link answerLimitMs}). */
+export const DEFAULT_ANSWER_FACTOR = 10;
+
+/**
+ * How long the main thread waits for the stage worker's answers once its own stages are done, ms:
+ * max(`floorMs`, `factor` x `mainMs`), `mainMs` being this thread's own work on the analysis so far (the read and its
+ * stages, measured). Why that bound: the worker's work grows with the log as the main thread's does, and is smaller.
+ * It hashes the bytes the main thread parsed (hashing is cheaper than parsing) and runs one stage where this thread
+ * ran four (one `--profile` run of the 250,000-row benchmark log on the shared 2-core development machine: errors
+ * 1.1 s in the worker against 1.8 s of read and stages here), and it has been running all the while. So its answers
+ * are due by the time this thread is done; ten times this thread's work leaves room for a worker starved of its core.
+ * The floor covers small logs, where the worker's start-up (loading its bundle, about 0.15 s of CPU) outweighs the
+ * work. A worker stopped too early costs only time: its work is then done on the main thread, the report the same.
+ */
+export function answerLimitMs(mainMs: number, floorMs = DEFAULT_ANSWER_FLOOR_MS, factor = DEFAULT_ANSWER_FACTOR): number {
+  return Math.max(floorMs, factor * mainMs);
+}
 
 /** How a caller asks analyzeFile for the two-thread analysis. */
 export interface ParallelOptions {
@@ -36,6 +59,10 @@ export interface ParallelOptions {
   minEpochs?: number;
   /** Main log smaller than this many bytes: no worker at all (default {@link DEFAULT_MIN_PARALLEL_BYTES}). */
   minBytes?: number;
+  /** The watchdog's floor, ms (default {@link DEFAULT_ANSWER_FLOOR_MS}; see {@link answerLimitMs}). */
+  answerFloorMs?: number;
+  /** The watchdog's multiple of the main thread's work (default {@link DEFAULT_ANSWER_FACTOR}; see {@link answerLimitMs}). */
+  answerFactor?: number;
 }
 
 /** Where the work of one analysis ran, for `--profile`. */
@@ -49,6 +76,8 @@ export interface ParallelStats {
   wait_ms: number;
   /** Where the SHA-256 of the main log was computed. */
   hashIn: 'worker' | 'main';
+  /** Why the hash was computed on the main thread although the worker was asked for it (it failed or timed out). */
+  hashWhy?: string;
 }
 
 type ErrorsAnswer = { ok: true; part: ErrorsPart; ms: number } | { ok: false; message: string };
@@ -82,16 +111,18 @@ export class StageWorker {
     const fail = (why: string): void => {
       if (this.dead === undefined) this.dead = why;
     };
-    const settleAll = (): void => {
-      const why = this.dead ?? 'the stage worker stopped';
-      this.settleHash({ kind: 'failed', message: why });
-      const settle = this.pendingErrors;
-      this.pendingErrors = undefined;
-      settle?.({ ok: false, message: why });
-    };
     this.worker.on('error', (e: Error) => fail(`the stage worker failed: ${e.message}`));
-    this.worker.on('messageerror', (e: Error) => { fail(`a message of the stage worker could not be read: ${e.message}`); settleAll(); });
-    this.worker.on('exit', (code: number) => { fail(`the stage worker stopped (exit code ${code})`); settleAll(); });
+    this.worker.on('messageerror', (e: Error) => { fail(`a message of the stage worker could not be read: ${e.message}`); this.settleAll(); });
+    this.worker.on('exit', (code: number) => { fail(`the stage worker stopped (exit code ${code})`); this.settleAll(); });
+  }
+
+  /** Fail every pending answer with the reason the worker is gone (an answer already given stays). */
+  private settleAll(): void {
+    const why = this.dead ?? 'the stage worker stopped';
+    this.settleHash({ kind: 'failed', message: why });
+    const settle = this.pendingErrors;
+    this.pendingErrors = undefined;
+    settle?.({ ok: false, message: why });
   }
 
   /**
@@ -136,6 +167,16 @@ export class StageWorker {
     });
   }
 
+  /**
+   * Give up on the worker (the watchdog): its pending answers fail at once with `why`, then the thread is stopped
+   * (terminate() interrupts even an endless loop).
+   */
+  abort(why: string): void {
+    if (this.dead === undefined) this.dead = why;
+    this.settleAll();
+    this.close();
+  }
+
   /** Stop the worker (an unfinished hash is abandoned first, so its thread is not left waiting). */
   close(): void {
     this.progress?.abandon();
@@ -150,9 +191,16 @@ export class StageWorker {
  * promise (the log's hash, still being computed): it is awaited just before the report is assembled, and when it
  * rejects, so does this. The report equals `analyzeLog`'s; the series lack the errors stage's when it ran in the
  * worker. `stats` (optional) is filled with where the work ran.
+ *
+ * The watchdog: once this thread's stages are done, `worker` gets {@link answerLimitMs} of `mainMs` (this thread's
+ * work before the call, e.g. the read) plus those stages to answer (`answerFloorMs`, `answerFactor`: its defaults).
+ * Past that it is aborted: its pending answers fail (the caller's hash, when `info` waits for it, falls back to this
+ * thread) and the errors stage runs here, with the same report; `stats.why` says the worker timed out.
  */
 export async function analyzeLogParallel(own: NavLog, settings: AnalysisSettings, info: SourceInfo | Promise<SourceInfo>,
-  worker: StageWorker | undefined, options: { minEpochs?: number; times?: StageTimes; stats?: Partial<ParallelStats> } = {}): Promise<AnalysisResult> {
+  worker: StageWorker | undefined, options: {
+    minEpochs?: number; times?: StageTimes; stats?: Partial<ParallelStats>; mainMs?: number; answerFloorMs?: number; answerFactor?: number;
+  } = {}): Promise<AnalysisResult> {
   const { times, stats } = options;
   const sourceInfoP = Promise.resolve(info);
   sourceInfoP.catch(() => undefined); // rejected before it is awaited below: handled there, not an unhandled rejection
@@ -164,11 +212,24 @@ export async function analyzeLogParallel(own: NavLog, settings: AnalysisSettings
   else if (worker.failure !== undefined) why = worker.failure;
   else if (own.state.length < minEpochs) why = `${own.state.length} epochs, fewer than ${minEpochs}`;
   const pending = why === undefined && worker ? worker.runErrors(log, settings) : undefined;
+  const stagesAt = performance.now();
   for (const name of STAGE_ORDER) if (name !== 'errors' || !pending) runStage(name, own, log, settings, parts, times);
   const t0 = performance.now();
-  // The hash first: when it shows the file changed, this analysis is thrown away without waiting for the worker.
-  const sourceInfo = await sourceInfoP;
-  const answer = pending ? await pending : undefined;
+  // The watchdog (answerLimitMs): armed whenever the worker may still owe an answer (the hash, the errors stage). Its
+  // timer keeps the process alive while it waits (the worker itself is unref'd).
+  const limit_ms = answerLimitMs((options.mainMs ?? 0) + (t0 - stagesAt), options.answerFloorMs, options.answerFactor);
+  const watchdog = worker && worker.failure === undefined
+    ? setTimeout(() => worker.abort(`the stage worker did not answer within ${(limit_ms / 1000).toFixed(limit_ms < 1000 ? 3 : 1)} s (timed out) and was stopped`), limit_ms)
+    : undefined;
+  let sourceInfo: SourceInfo;
+  let answer: ErrorsAnswer | undefined;
+  try {
+    // The hash first: when it shows the file changed, this analysis is thrown away without waiting for the worker.
+    sourceInfo = await sourceInfoP;
+    answer = pending ? await pending : undefined;
+  } finally {
+    clearTimeout(watchdog);
+  }
   const wait_ms = performance.now() - t0;
   if (answer?.ok) {
     parts.errors = answer.part;

@@ -8,11 +8,14 @@
  * It reads the file through its own descriptor, so it also checks that it read the SAME file: its descriptor's
  * device and inode must be those the main thread opened, and the file must still hold the bytes (a short read means
  * it was truncated). Either failure is a {@link HashAnswer} `changed`, which analyzeFile treats like a change the
- * main thread saw itself: the log is read again from the start. (An edit in place that keeps the inode and never
- * shrinks the file below the bytes read is not seen by either thread; the sequential path does not see it either.)
+ * main thread saw itself: the log is read again from the start. A rewrite in place (same inode, other bytes, no
+ * growth) after the main thread's last look but before the hash was done is told by the answer's `stamp` (the fstat
+ * of the hasher's descriptor once it hashed the last byte), which analyzeFile compares with the main thread's last
+ * look (fileSource.ts, rewrittenSince).
  */
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
 import { createHash, type Hash } from 'node:crypto';
+import type { FileChange, FileStamp } from './fileSource';
 
 /** Bytes read per `readSync` while hashing (the main thread's chunk size: the hasher trails it by one chunk). */
 const HASH_CHUNK_BYTES = 1 << 20;
@@ -35,8 +38,8 @@ export interface FileIdentity {
 
 /** What the hashing thread answers. */
 export type HashAnswer =
-  | { kind: 'hash'; sha256: string; bytes: number; identity: FileIdentity; ms: number }
-  | { kind: 'changed'; how: 'truncated' | 'replaced' | 'deleted'; message: string }
+  | { kind: 'hash'; sha256: string; bytes: number; identity: FileIdentity; stamp: FileStamp; ms: number }
+  | { kind: 'changed'; how: FileChange; message: string }
   | { kind: 'abandoned' }
   | { kind: 'failed'; message: string };
 
@@ -101,6 +104,12 @@ export class PrefixHasher {
     return true;
   }
 
+  /** The times and size of the open file now (fstat of the descriptor). */
+  stamp(): FileStamp {
+    const st = fstatSync(this.fd);
+    return { size: st.size, mtimeMs: st.mtimeMs, ctimeMs: st.ctimeMs };
+  }
+
   /** Hex digest (once). */
   digest(): string {
     return this.hash.digest('hex');
@@ -147,7 +156,7 @@ export function hashWhileRead(filePath: string, control: SharedArrayBuffer): Has
         continue;
       }
       if (state === FINAL) {
-        return { kind: 'hash', sha256: hasher.digest(), bytes: hasher.hashed, identity: hasher.identity, ms: performance.now() - t0 };
+        return { kind: 'hash', sha256: hasher.digest(), bytes: hasher.hashed, identity: hasher.identity, stamp: hasher.stamp(), ms: performance.now() - t0 };
       }
       Atomics.wait(words, SEQ, seq, WAIT_MS);
     }

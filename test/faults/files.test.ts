@@ -1,14 +1,14 @@
 /**
  * Faults in the file layer, injected (tests run as root, so permissions cannot make a file unreadable): a read error
- * (EIO) mid-file, a log deleted, truncated or replaced while it is being read, and a log that changes again on the
- * second read. The CLI's answer is checked in-process through `main()`: exit 2 and one plain line on stderr, never a
+ * (EIO) mid-file, a log deleted, truncated, replaced or rewritten in place while it is being read, and a log that
+ * changes again on the second read. The CLI's answer is checked in-process through `main()`: exit 2 and one plain line on stderr, never a
  * stack trace; a log that changed once is read again from the start and a note says so.
  */
 import { afterEach, describe, expect, it, vi } from 'vitest';
-import { appendFileSync, mkdtempSync, renameSync, unlinkSync, writeFileSync } from 'node:fs';
+import { appendFileSync, closeSync, mkdtempSync, openSync, renameSync, statSync, unlinkSync, utimesSync, writeFileSync, writeSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import * as path from 'node:path';
-import { NODE_FILES, fileByteSource, type FileHandleLike, type FileLayer } from '../../extension/node/fileSource';
+import { NODE_FILES, fileByteSource, type FileHandleLike, type FileLayer, type FileStatLike } from '../../extension/node/fileSource';
 import { analyzeFile, InputError } from '../../extension/node/analyzeFile';
 import { main } from '../../extension/cli/main';
 import { readRun } from '../../extension/core/read/index';
@@ -24,11 +24,39 @@ function log(n: number, k: number): string {
   return rows.join('\n') + '\n';
 }
 
+/** A CSV log of `n` rows whose p_y is (i + s) mod 7: two values of `s` give files of the same length, other bytes. */
+function logShifted(n: number, s: number): string {
+  const rows = ['t,p_x,p_y,p_z'];
+  for (let i = 0; i < n; i++) rows.push(`${(i * 0.01).toFixed(2)},${i},${(i + s) % 7},0`);
+  return rows.join('\n') + '\n';
+}
+
+/** Write `text` over the start of `p` through a descriptor opened without truncation: same inode, nothing else moves. */
+function rewriteInPlace(p: string, text: string): void {
+  const fd = openSync(p, 'r+');
+  try {
+    writeSync(fd, text, 0);
+  } finally {
+    closeSync(fd);
+  }
+}
+
+/**
+ * Set the file's modification time a day back, so that any later write moves it whatever the file system's time
+ * granularity (Linux stamps writes with a clock of a few ms: a write right after this test wrote the file could keep
+ * its time otherwise).
+ */
+function ageFile(p: string): void {
+  const past = new Date(Date.now() - 86_400_000);
+  utimesSync(p, past, past);
+}
+
 /**
  * Patch the real file layer: reads are cut to 16 KiB (a legal short read, so a small file comes in many chunks) and
- * `onRead(count)` runs before each read of `target` (count from 1); it may throw to inject an error.
+ * `onRead(count, position)` runs before each read of `target` (count from 1; the byte offset read at); it may throw to
+ * inject an error.
  */
-function inject(target: string, onRead: (count: number) => void): void {
+function inject(target: string, onRead: (count: number, position: number) => void): void {
   let count = 0;
   NODE_FILES.open = async (p: string): Promise<FileHandleLike> => {
     const h = await REAL.open(p);
@@ -36,7 +64,7 @@ function inject(target: string, onRead: (count: number) => void): void {
       stat: () => h.stat(),
       close: () => h.close(),
       read: async (buf, off, len, pos) => {
-        if (p === target) onRead(++count);
+        if (p === target) onRead(++count, pos);
         return h.read(buf, off, Math.min(len, 16 * 1024), pos);
       },
     };
@@ -119,6 +147,69 @@ describe('fault injection in the file layer', () => {
     expect(report.findings.some((f) => /replaced by another file while it was being read; it was read again/.test(f.message))).toBe(true);
   });
 
+  it('a log rewritten in place mid-read (same inode, same length, other bytes) is read again, and a note says so', async () => {
+    const p = path.join(dir, 'inplace.csv');
+    const before = logShifted(5000, 0);
+    const after = logShifted(5000, 3);
+    expect(after.length).toBe(before.length);
+    writeFileSync(p, before);
+    ageFile(p);
+    const ino = statSync(p).ino;
+    inject(p, (n) => {
+      if (n === 2) rewriteInPlace(p, after);
+    });
+    const { report, log: nav } = await analyzeFile(p);
+    expect(statSync(p).ino).toBe(ino); // the same file, rewritten (not a new one renamed over it)
+    expect(reportProblems(report)).toEqual([]);
+    expect(nav.state.length).toBe(5000);
+    // The new content: p_y = (i + 3) mod 7 (the first read had seen (i + 0) mod 7 in its first chunk).
+    expect(Array.from(nav.state.columns.get('p_y') ?? []).slice(0, 5)).toEqual([3, 4, 5, 6, 0]);
+    const note = report.findings.find((f) => f.kind === 'note' && /rewritten in place while it was being read/.test(f.message));
+    expect(note?.message).toMatch(/it was read again from the start/);
+  });
+
+  it('a log rewritten in place again on the second read: exit 2, one line', async () => {
+    const p = path.join(dir, 'inplace-twice.csv');
+    writeFileSync(p, logShifted(5000, 0));
+    ageFile(p);
+    // A pass starts with a read at byte 0. In each pass, the file is rewritten before its second read (the time is set
+    // back after the first rewrite, so the second moves it again whatever the clock's granularity).
+    let pass = 0;
+    inject(p, (_n, pos) => {
+      if (pos === 0) pass++;
+      else if (pass === 1 && pos === 16 * 1024) { rewriteInPlace(p, logShifted(5000, 1)); ageFile(p); }
+      else if (pass === 2 && pos === 16 * 1024) rewriteInPlace(p, logShifted(5000, 2));
+    });
+    expectOneLine(await cli('analyze', p), /log changed again while it was being read a second time: .*rewritten in place/);
+  });
+
+  it('an append in progress (times moved, size not yet) is not taken for a rewrite: a second look sees it grown', async () => {
+    // Linux moves a file's times when a write starts and its size as the bytes land; a stat in between sees the times
+    // moved and the old size. Injected: the first look after read 9 (the check after the 8th chunk) reports that state,
+    // with the real append made just then; the next look is the real file.
+    const p = path.join(dir, 'append-in-progress.csv');
+    writeFileSync(p, log(20_000, 1));
+    ageFile(p);
+    inject(p, () => undefined);
+    const realStat = NODE_FILES.stat;
+    let looks = 0;
+    let faked = false;
+    const files: FileLayer = {
+      ...NODE_FILES,
+      stat: async (q: string): Promise<FileStatLike> => {
+        const st = await realStat(q);
+        if (q !== p || ++looks !== 2) return st; // look 1: before the open; look 2: the check after 8 chunks
+        appendFileSync(p, '200.00,1,1,1\n');
+        faked = true;
+        return Object.assign(Object.create(st) as FileStatLike, { mtimeMs: Date.now() }); // the old size, the times moved
+      },
+    };
+    const nav = await readRun(fileByteSource(p, { files, rewrites: true, highWaterMark: 16 * 1024 }));
+    expect(faked).toBe(true);
+    expect(nav.diagnostics.filter((d) => /while it was being read/.test(d.message))).toEqual([]);
+    expect(nav.state.length).toBe(20_001); // the appended row was read too
+  });
+
   it('a log that changes again on the second read: exit 2, one line', async () => {
     const p = path.join(dir, 'unstable.csv');
     writeFileSync(p, log(5000, 1));
@@ -158,6 +249,7 @@ describe('fault injection in the file layer', () => {
   it('a log that only grows while it is read is not a fault: the new rows are read too', async () => {
     const p = path.join(dir, 'grow.csv');
     writeFileSync(p, log(5000, 1));
+    ageFile(p); // the append moves the file's times: growth, not a rewrite
     inject(p, (n) => {
       if (n === 2) appendFileSync(p, '50.00,1,1,1\n');
     });

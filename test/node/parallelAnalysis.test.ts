@@ -3,18 +3,23 @@
  * test/globalSetup.ts): the report must be the sequential analysis' report, byte for byte, whether the errors stage
  * ran in the worker or fell back to the main thread (a small log, a missing or failing worker), and the SHA-256 the
  * worker computes must be that of the bytes the main thread analysed (node:crypto over the file is the outside
- * check), also when the file grows, is replaced or truncated while it is read.
+ * check), also when the file grows, is replaced, truncated or rewritten in place while it is read. A worker that never
+ * answers is stopped by the watchdog (limits injected, so it fires at once) and the report is still the sequential one.
  * The logs are the seeded warehouse demo scene of our own (extension/core/demo), large enough to use the worker.
  */
 import { createHash } from 'node:crypto';
 import { spawnSync } from 'node:child_process';
-import { appendFileSync, copyFileSync, mkdtempSync, readFileSync, renameSync, rmSync, writeFileSync } from 'node:fs';
+import {
+  appendFileSync, closeSync, copyFileSync, mkdtempSync, openSync, readFileSync, renameSync, rmSync, utimesSync, writeFileSync, writeSync,
+} from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { BENCH_OPTIONS, generateWarehouseLog } from '../../extension/core/demo/warehouse';
 import { analyzeFile, type AnalyzeFileOptions, type FileAnalysis } from '../../extension/node/analyzeFile';
 import { checkIdentity, hashPrefixNow, hashWhileRead, HashProgress, PrefixHasher } from '../../extension/node/prefixHash';
+import { rewrittenSince } from '../../extension/node/fileSource';
+import { answerLimitMs } from '../../extension/node/parallelAnalysis';
 import { reportProblems } from '../helpers/reportSchema';
 import { analyzeLog, assembleReport, prepareAnalysis, runStage, type StageParts } from '../../extension/core/analyze';
 import { readLogText } from '../../extension/core/read/index';
@@ -39,6 +44,38 @@ beforeAll(() => {
   writeFileSync(big, [...generateWarehouseLog({ ...BENCH_OPTIONS, rows: EPOCHS })].join(''));
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+/** Set the file's times a day back, so any later write moves them whatever the file system's time granularity. */
+function ageFile(p: string): void {
+  const past = new Date(Date.now() - 86_400_000);
+  utimesSync(p, past, past);
+}
+
+/** Write `bytes` over the start of `p` through a descriptor opened without truncation (same inode). */
+function rewriteInPlace(p: string, bytes: string | Buffer): void {
+  const fd = openSync(p, 'r+');
+  try {
+    const data = typeof bytes === 'string' ? Buffer.from(bytes) : bytes;
+    writeSync(fd, data, 0, data.length, 0);
+  } finally {
+    closeSync(fd);
+  }
+}
+
+/**
+ * The log `text` with the last digit of every p_x (the second field of a data row) moved by 5: the same length, other
+ * positions (so another report).
+ */
+function shiftedPositions(text: string): string {
+  return text.split('\n').map((line) => {
+    if (!/^\d/.test(line)) return line;
+    const cells = line.split(',');
+    const x = cells[1];
+    if (!/\d$/.test(x)) return line;
+    cells[1] = x.slice(0, -1) + String((Number(x.at(-1)) + 5) % 10);
+    return cells.join(',');
+  }).join('\n');
+}
 
 describe('the core steps behind the parallel path', () => {
   it('shared columns: every column of the log on a SharedArrayBuffer, the same report', async () => {
@@ -144,6 +181,45 @@ require(${JSON.stringify(workerFile)});
   });
 });
 
+describe('a stage worker that never answers: the watchdog stops it, the report is the same', () => {
+  // The limits are injected (a floor of 50 ms, no multiple), so the watchdog fires as soon as the main thread's own
+  // stages are done; the defaults would wait at least 10 s.
+  const prompt = { answerFloorMs: 50, answerFactor: 0 };
+
+  it('a worker that never answers anything (an endless loop at start): hash and errors on the main thread', async () => {
+    const hung = path.join(dir, 'hung-worker.js');
+    writeFileSync(hung, 'for (;;) { /* injected hang */ }\n');
+    const par = await analyzeFile(big, parallel({ ...prompt }, hung));
+    expect(par.parallel?.errorsIn).toBe('main');
+    expect(par.parallel?.why).toMatch(/did not answer within 0\.050 s \(timed out\)/);
+    expect(par.parallel?.hashIn).toBe('main');
+    expect(par.parallel?.hashWhy).toMatch(/timed out/);
+    expect(par.report.source.sha256).toBe(sha256(big)); // Source: node:crypto over the whole file.
+    expect(json(par)).toBe(json(await analyzeFile(big)));
+  });
+
+  it('the real worker hanging in the errors job: the stage runs on the main thread', async () => {
+    // The real worker (its hash answers), whose errors job never ends.
+    const stuck = path.join(dir, 'stuck-worker.js');
+    writeFileSync(stuck, `const { parentPort } = require('node:worker_threads');
+const on = parentPort.on.bind(parentPort);
+parentPort.on = (event, fn) => on(event, event === 'message' ? () => { for (;;) { /* injected hang */ } } : fn);
+require(${JSON.stringify(workerFile)});
+`);
+    const par = await analyzeFile(big, parallel({ ...prompt }, stuck));
+    expect(par.parallel?.errorsIn).toBe('main');
+    expect(par.parallel?.why).toMatch(/the stage worker did not answer within .* \(timed out\) and was stopped/);
+    expect(par.report.source.sha256).toBe(sha256(big)); // from the worker or, when it was stopped first, the main thread
+    expect(json(par)).toBe(json(await analyzeFile(big)));
+  });
+
+  it('the limit: max(floor, multiple x the main thread\'s work)', () => {
+    expect(answerLimitMs(300)).toBe(10_000); // the defaults: floor 10 s, 10 x the work
+    expect(answerLimitMs(2_500)).toBe(25_000);
+    expect(answerLimitMs(2_500, 50, 0)).toBe(50);
+  });
+});
+
 describe('the hash is of the bytes analysed when the file changes during the read', () => {
   it('a file that grows during the read: hashed as far as it was read', async () => {
     const p = path.join(dir, 'growing.csv');
@@ -168,6 +244,41 @@ describe('the hash is of the bytes analysed when the file changes during the rea
     expect(par.report.source.sha256).toBe(sha256(p));
     expect(par.report.findings.some((f) => f.kind === 'note' && /replaced by another file/.test(f.message))).toBe(true);
     expect(par.parallel?.why).toBe('the log was read again');
+  });
+
+  it('a file rewritten in place during the read (same inode and length) is read again, hash and report of the new bytes', async () => {
+    const p = path.join(dir, 'inplace.csv');
+    copyFileSync(big, p);
+    const next = shiftedPositions(readFileSync(big, 'utf8'));
+    expect(Buffer.byteLength(next)).toBe(readFileSync(big).length);
+    ageFile(p);
+    let rewritten = false;
+    const par = await analyzeFile(p, { ...parallel(), onProgress: () => { if (!rewritten) { rewritten = true; rewriteInPlace(p, next); } } });
+    expect(rewritten).toBe(true);
+    expect(readFileSync(p, 'utf8')).toBe(next);
+    expect(par.report.source.sha256).toBe(sha256(p)); // Source: node:crypto over the file as rewritten.
+    expect(par.report.findings.some((f) => f.kind === 'note' && /rewritten in place while it was being read \(.*\); it was read again/.test(f.message))).toBe(true);
+    expect(par.parallel?.why).toBe('the log was read again');
+    // The report of the new bytes: the sequential analysis of the file as it is now, plus the note.
+    const seq = await analyzeFile(p);
+    expect(seq.report.errors).not.toEqual((await analyzeFile(big)).report.errors); // the new bytes give another report
+    expect(par.report.errors).toEqual(seq.report.errors);
+    expect(par.report.findings.filter((f) => f.kind !== 'note')).toEqual(seq.report.findings.filter((f) => f.kind !== 'note'));
+  });
+
+  it('a rewrite only the worker sees (its fstat after the hash: times moved, no growth) makes analyzeFile read again', async () => {
+    // The real worker, whose hash answer reports the file's modification time moved (as after a rewrite in place
+    // between the main thread's last look and the end of the hash): the plumbing from that answer to the read again.
+    const moved = path.join(dir, 'moved-worker.js');
+    writeFileSync(moved, `const { parentPort } = require('node:worker_threads');
+const post = parentPort.postMessage.bind(parentPort);
+parentPort.postMessage = (m) => post(m && m.type === 'hash' && m.answer.kind === 'hash'
+  ? { ...m, answer: { ...m.answer, stamp: { ...m.answer.stamp, mtimeMs: m.answer.stamp.mtimeMs + 1 } } } : m);
+require(${JSON.stringify(workerFile)});
+`);
+    const par = await analyzeFile(big, parallel({}, moved));
+    expect(par.report.findings.some((f) => f.kind === 'note' && /rewritten in place while it was being read \(.*\); it was read again/.test(f.message))).toBe(true);
+    expect(par.report.source.sha256).toBe(sha256(big));
   });
 
   it('a change only the worker sees (its answer says replaced) makes analyzeFile read again', async () => {
@@ -206,6 +317,29 @@ describe('prefixHash', () => {
     expect(hashPrefixNow(p, 1000, { dev: id.dev, ino: id.ino + 1 })).toMatchObject({ kind: 'changed', how: 'replaced' });
     expect(checkIdentity({ kind: 'abandoned' }, p, id)).toEqual({ kind: 'abandoned' });
     expect(hashPrefixNow(path.join(dir, 'gone.bin'), 10, undefined)).toMatchObject({ kind: 'changed', how: 'deleted' });
+  });
+
+  it('the hasher\'s stamp (fstat of its descriptor) tells a rewrite in place from an append', () => {
+    const p = path.join(dir, 'stamp.bin');
+    writeFileSync(p, Buffer.alloc(4096, 1));
+    ageFile(p);
+    const h = new PrefixHasher(p);
+    try {
+      const opened = h.stamp();
+      expect(rewrittenSince(opened, h.stamp())).toBe(false); // nothing written
+      appendFileSync(p, Buffer.alloc(100, 2));
+      const grown = h.stamp();
+      expect(grown.size).toBe(4196);
+      expect(rewrittenSince(opened, grown)).toBe(false); // grew: an append, not a change
+      ageFile(p);
+      const aged = h.stamp();
+      rewriteInPlace(p, Buffer.alloc(10, 3));
+      const after = h.stamp();
+      expect(after.size).toBe(4196);
+      expect(rewrittenSince(aged, after)).toBe(true); // same size, times moved: rewritten in place
+    } finally {
+      h.close();
+    }
   });
 
   it('an abandoned handshake stops the hasher', () => {
