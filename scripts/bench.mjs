@@ -65,12 +65,13 @@ const CLI = await ensureCli();
 function launcherDecision() {
   const code = `const l = require(${JSON.stringify(resolve(ROOT, 'dist/cli.js'))}); const us = l.pageFaultCost_us();
 const env = { ...process.env, RESIDUUM_HUGE_PAGES: us >= l.SLOW_FAULT_US ? '1' : '0' };
-const plan = l.childPlan(env, process.platform, 'analyze', require('os').availableParallelism());
-console.log(JSON.stringify({ us, slow: l.SLOW_FAULT_US, flags: plan ? plan.flags : [], huge: !!(plan && plan.env.GLIBC_TUNABLES && plan.env.GLIBC_TUNABLES.includes('hugetlb=1')), child: !!plan }));`;
+const plan = l.launchPlan(env, process.platform, 'analyze', require('os').availableParallelism());
+console.log(JSON.stringify({ us, slow: l.SLOW_FAULT_US, flags: plan.flags || [], huge: plan.how === 'child', how: plan.how }));`;
   const r = spawnSync(NODE, ['-e', code], { encoding: 'utf8', env: { ...process.env, RESIDUUM_HUGE_PAGES: '', RESIDUUM_NO_REEXEC: '', RESIDUUM_LAUNCHED: '' } });
   try {
     const d = JSON.parse(r.stdout);
-    return `${d.child ? 'a child process' : 'no child process'}; V8 flags ${d.flags.length ? d.flags.join(' ') : 'none'}; ` +
+    const where = { here: 'the tool runs in the first thread', thread: 'the tool runs in a worker thread (a new isolate for the flags)', child: 'a child process' }[d.how];
+    return `${where}; V8 flags ${d.flags.length ? d.flags.join(' ') : 'none'}; ` +
       `huge pages ${d.huge ? 'on' : 'off'} (a first write to a fresh 4 KiB page cost ${d.us.toFixed(1)} us in the probe; threshold ${d.slow} us)`;
   } catch {
     return undefined;

@@ -73,12 +73,15 @@ export function cacheName(file: string, source: string, execArgv: readonly strin
 
 /**
  * Run the CommonJS bundle `file` as Node's `require` would (its own `module`, `exports`, `require`, `__filename`,
- * `__dirname`) and return its exports, using and making a code cache in `folder` (see the file comment; null: no
- * cache).
+ * `__dirname`) and return its exports, using and making a code cache (see the file comment).
+ * @param options.folder the cache folder (default {@link cacheFolder}; null: no cache)
+ * @param options.flags V8 flags set at run time (`v8.setFlagsFromString`) before this load: part of the cache's name,
+ *   as the process's own flags are
  */
-export function loadBundle(file: string, folder: string | null = cacheFolder() ?? null): LoadedBundle {
+export function loadBundle(file: string, options: { folder?: string | null; flags?: readonly string[] } = {}): LoadedBundle {
   const source = readFileSync(file, 'utf8');
-  const cacheFile = folder !== null ? path.join(folder, cacheName(file, source)) : undefined;
+  const folder = options.folder === undefined ? cacheFolder() ?? null : options.folder;
+  const cacheFile = folder !== null ? path.join(folder, cacheName(file, source, [...process.execArgv, ...(options.flags ?? [])])) : undefined;
   let cachedData: Buffer | undefined;
   if (cacheFile !== undefined) {
     try { cachedData = readFileSync(cacheFile); } catch { /* none yet */ }

@@ -1,14 +1,16 @@
 /**
  * Entry of `residuum` (dist/cli.js): starts the command-line tool (dist/cliMain.js, extension/cli/main.ts), for the
- * verbs that read whole logs once more in a child process with settings that only a new process can take.
+ * verbs that read whole logs with settings chosen for the machine: in a thread of its own when V8 flags are all it
+ * needs, in a child process when the C library must be told something at the start of a process.
  *
  * Two settings, each chosen for the machine (README "Performance" has the measurements):
  * - **V8 flags** ({@link childV8Flags}). On a machine with two cores or fewer, V8 compiles optimised code on the
  *   thread that runs it (`--no-concurrent-recompilation`). The analysis keeps both cores busy (the main thread and
  *   the stage worker), so a compile job queued for a background thread waits while the loop it would speed up runs
- *   unoptimised: on the 2-core development machine the run took about 10% less time with the flag. V8 reads it
- *   only when a process starts. A flag the user gives (`node --concurrent-recompilation dist/cli.js ...`) comes
- *   after ours and wins.
+ *   unoptimised: on the 2-core development machine the run took about 10% less time with the flag. V8 reads it when
+ *   an isolate starts, so the tool runs in a worker thread started after the flag is set (`runInThread`): a new
+ *   isolate, without the ~60 ms of a second process. A concurrent-recompilation flag the user gives
+ *   (`node --concurrent-recompilation dist/cli.js ...`) wins: ours is then not set.
  * - **Huge pages** ({@link hugePagesWanted}). An analysis writes about 100 MB of fresh column memory for the
  *   250,000-row benchmark log, and each first write to a 4 KiB page is a page fault. Where a fault is slow (about
  *   12 us on one virtual machine we measured: ~0.3 s for the columns alone), glibc (2.35 and later) is asked for
@@ -17,14 +19,17 @@
  *   assembles each 2 MiB page on first touch), so the launcher times the faults of a fresh 4 MiB block first
  *   ({@link pageFaultCost_us}, about 2 ms) and asks for huge pages only above {@link SLOW_FAULT_US}.
  *   `RESIDUUM_HUGE_PAGES=1` or `=0` decides instead of the probe. Other C libraries and older glibc ignore the
- *   tunable.
- * When neither applies the tool runs in this process. `RESIDUUM_NO_REEXEC=1` always runs it here. The child is
- * marked (`RESIDUUM_LAUNCHED=1`) so it never starts another. `--help` and errors in the arguments are answered by
- * the child like any other run, so the output and the exit status are those of the tool itself.
+ *   tunable. glibc reads it only when a process starts: huge pages mean a child process (with the V8 flags on its
+ *   command line).
+ * When neither applies the tool runs in this thread. `RESIDUUM_NO_REEXEC=1` always runs it here. The child is marked
+ * (`RESIDUUM_LAUNCHED=1`) so it never starts another. Output, messages and the exit status are the tool's own in
+ * every case (`--help` and errors in the arguments included).
  */
 import { spawnSync } from 'node:child_process';
 import path from 'node:path';
 import { availableParallelism } from 'node:os';
+import { getHeapStatistics, setFlagsFromString } from 'node:v8';
+import { Worker } from 'node:worker_threads';
 import { loadBundle } from './codeCache';
 
 /** The tunable that asks glibc's malloc for transparent huge pages (madvise mode) on its mmap'd blocks. */
@@ -75,44 +80,87 @@ export interface ChildPlan {
   flags: string[];
 }
 
+/** Where the tool runs: here, in a thread of its own with V8 flags set first, or in a child process. */
+export type LaunchPlan =
+  | { how: 'here' }
+  | { how: 'thread'; flags: string[] }
+  | ({ how: 'child' } & ChildPlan);
+
 /**
- * The child run for `verb`, or undefined when this process should run the tool itself: not a log-reading verb,
- * `RESIDUUM_NO_REEXEC` set, already the child, or nothing to change (no flag for this machine, no huge pages).
+ * Where the tool runs for `verb` (see the file comment): here for verbs that read no whole log, with
+ * `RESIDUUM_NO_REEXEC` set, in the child itself, or when nothing is to change; in a child process when huge pages
+ * are wanted (glibc reads its tunable only at a process's start); in a thread when V8 flags are all there is to set.
+ * `execArgv`: the Node flags of this process (a concurrent-recompilation flag of the user's wins over ours).
  */
-export function childPlan(env: NodeJS.ProcessEnv, platform: NodeJS.Platform, verb: string | undefined, cores: number,
-  faultCost_us: () => number = pageFaultCost_us): ChildPlan | undefined {
-  if (verb === undefined || !LOG_VERBS.has(verb)) return undefined;
-  if (env.RESIDUUM_NO_REEXEC || env.RESIDUUM_LAUNCHED) return undefined;
-  const flags = childV8Flags(cores);
-  const huge = hugePagesWanted(env, platform, faultCost_us);
-  if (!huge && flags.length === 0) return undefined;
-  const tunables = env.GLIBC_TUNABLES ?? '';
-  return {
-    env: { ...env, RESIDUUM_LAUNCHED: '1', ...(huge ? { GLIBC_TUNABLES: tunables ? `${tunables}:${HUGE_PAGE_TUNABLE}` : HUGE_PAGE_TUNABLE } : {}) },
-    flags,
-  };
+export function launchPlan(env: NodeJS.ProcessEnv, platform: NodeJS.Platform, verb: string | undefined, cores: number,
+  faultCost_us: () => number = pageFaultCost_us, execArgv: readonly string[] = []): LaunchPlan {
+  if (verb === undefined || !LOG_VERBS.has(verb)) return { how: 'here' };
+  if (env.RESIDUUM_NO_REEXEC || env.RESIDUUM_LAUNCHED) return { how: 'here' };
+  const own = execArgv.some((a) => a.replace(/_/g, '-').includes('concurrent-recompilation'));
+  const flags = own ? [] : childV8Flags(cores);
+  if (hugePagesWanted(env, platform, faultCost_us)) {
+    const tunables = env.GLIBC_TUNABLES ?? '';
+    return {
+      how: 'child', flags,
+      env: { ...env, RESIDUUM_LAUNCHED: '1', GLIBC_TUNABLES: tunables ? `${tunables}:${HUGE_PAGE_TUNABLE}` : HUGE_PAGE_TUNABLE },
+    };
+  }
+  return flags.length > 0 ? { how: 'thread', flags } : { how: 'here' };
 }
 
 /**
- * The tool's own module, run in this process: loaded with a code cache (codeCache.ts). The bundle's path is computed,
- * so esbuild leaves it out of dist/cli.js, which stays small and starts at once.
+ * Run the tool's bundle in this thread on `argv`, loaded with a code cache (codeCache.ts; `flags`: the V8 flags the
+ * launcher set, part of the cache's name). The bundle's path is computed, so esbuild leaves it out of dist/cli.js,
+ * which stays small and starts at once. Exported for the worker of `runInThread`, which loads this file again.
  */
-function runHere(mainFile: string): void {
-  const tool = loadBundle(mainFile).exports as { runCommandLine(argv: string[]): void };
-  tool.runCommandLine(process.argv.slice(2));
+export function runBundle(mainFile: string, argv: string[], flags: string[] = []): void {
+  const tool = loadBundle(mainFile, { flags }).exports as { runCommandLine(argv: string[]): void };
+  tool.runCommandLine(argv);
+}
+
+/**
+ * Set the V8 `flags`, then run the tool on `argv` in a worker thread (a new isolate, which takes them): its output
+ * goes to this process's, its exit status becomes this process's; a failure to start the thread runs the tool here.
+ * The thread may use as much heap as this one (`--max-old-space-size` included).
+ */
+function runInThread(mainFile: string, argv: string[], flags: string[]): void {
+  for (const f of flags) setFlagsFromString(f);
+  let worker: Worker;
+  try {
+    worker = new Worker(`const { workerData } = require('node:worker_threads');
+require(${JSON.stringify(__filename)}).runBundle(${JSON.stringify(mainFile)}, workerData.argv, workerData.flags);`, {
+      eval: true, workerData: { argv, flags },
+      resourceLimits: { maxOldGenerationSizeMb: Math.ceil(getHeapStatistics().heap_size_limit / 2 ** 20) },
+    });
+  } catch {
+    runBundle(mainFile, argv, flags); // no thread: the same run here (its stage worker still gets the flags)
+    return;
+  }
+  // The thread's output is written by this one: a closed pipe (`residuum ... | head`) ends it quietly (as main.ts).
+  process.stdout.on('error', (e: NodeJS.ErrnoException) => {
+    if (e.code === 'EPIPE') process.exit(process.exitCode ?? 0);
+  });
+  worker.on('error', (e) => {
+    process.stderr.write(`residuum: internal error: ${String(e).split('\n')[0]}\n`);
+    process.exitCode = 2;
+  });
+  worker.on('exit', (code) => { if (!process.exitCode) process.exitCode = code; });
 }
 
 if (require.main === module) {
   const mainFile = path.join(__dirname, 'cliMain.js');
-  const plan = childPlan(process.env, process.platform, process.argv[2], availableParallelism());
-  if (!plan) {
-    runHere(mainFile);
+  const argv = process.argv.slice(2);
+  const plan = launchPlan(process.env, process.platform, argv[0], availableParallelism(), pageFaultCost_us, process.execArgv);
+  if (plan.how === 'here') {
+    runBundle(mainFile, argv);
+  } else if (plan.how === 'thread') {
+    runInThread(mainFile, argv, plan.flags);
   } else {
-    // Node's own flags (--cpu-prof, -r hook, --max-old-space-size) go to the child, which does the work, after ours.
-    // The child starts this launcher again (RESIDUUM_LAUNCHED: it runs the tool at once), which loads the tool cached.
-    const child = spawnSync(process.execPath, [...plan.flags, ...process.execArgv, __filename, ...process.argv.slice(2)], { stdio: 'inherit', env: plan.env });
+    // The child starts this launcher again (RESIDUUM_LAUNCHED: it runs the tool at once, cached); Node's own flags
+    // (--cpu-prof, -r hook, --max-old-space-size) go to it after ours.
+    const child = spawnSync(process.execPath, [...plan.flags, ...process.execArgv, __filename, ...argv], { stdio: 'inherit', env: plan.env });
     if (child.error) {
-      runHere(mainFile); // could not start a process: the same run here, with this process' settings
+      runBundle(mainFile, argv); // could not start a process: the same run here, with this process' settings
     } else if (child.signal) {
       process.kill(process.pid, child.signal); // end the way the child ended (Ctrl-C, a kill from a CI timeout)
     } else {

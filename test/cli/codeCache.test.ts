@@ -33,7 +33,7 @@ module.exports = { twice, file: __filename, dir: __dirname, joined: path.join('a
 describe('loadBundle', () => {
   it('runs the bundle as require would: its exports, __filename, __dirname, require of Node modules', () => {
     const { file, folder } = bundle(BODY);
-    const { exports, cache } = loadBundle(file, folder);
+    const { exports, cache } = loadBundle(file, { folder });
     const e = exports as { twice(x: number): number; file: string; dir: string; joined: string; selfIsMain: boolean };
     expect(cache).toBe('made');
     expect(e.twice(21)).toBe(42);
@@ -45,11 +45,11 @@ describe('loadBundle', () => {
 
   it('makes the cache once and uses it on the next load; other bytes get a cache of their own', () => {
     const { file, folder } = bundle(BODY);
-    const first = loadBundle(file, folder);
+    const first = loadBundle(file, { folder });
     expect(first.cache).toBe('made');
     first.save();
     expect(readdirSync(folder).filter((f) => f.endsWith('.v8cache'))).toEqual([cacheName(file, BODY)]);
-    const second = loadBundle(file, folder);
+    const second = loadBundle(file, { folder });
     expect(second.cache).toBe('used');
     expect((second.exports as { twice(x: number): number }).twice(4)).toBe(8);
     // a rebuilt bundle of the same length: V8 checks little more than the length, so the name must differ
@@ -57,12 +57,15 @@ describe('loadBundle', () => {
     expect(rebuilt.length).toBe(BODY.length);
     writeFileSync(file, rebuilt);
     expect(cacheName(file, rebuilt)).not.toBe(cacheName(file, BODY));
-    const third = loadBundle(file, folder);
+    const third = loadBundle(file, { folder });
     expect(third.cache).toBe('made');
     expect((third.exports as { twice(x: number): number }).twice(4)).toBe(12);
   });
 
-  it('names the cache by the V8 flags too (V8 rejects a cache made under other flags)', () => {
+  it('names the cache by the V8 flags too, those set at run time included (V8 rejects a cache made under other flags)', () => {
+    const { file, folder } = bundle(BODY);
+    loadBundle(file, { folder }).save();
+    expect(loadBundle(file, { folder, flags: ['--no-concurrent-recompilation'] }).cache).toBe('made');
     expect(cacheName('/x/tool.js', BODY, ['--no-concurrent-recompilation'])).not.toBe(cacheName('/x/tool.js', BODY, []));
     expect(cacheName('/x/tool.js', BODY, [])).toBe(cacheName('/y/tool.js', BODY, [])); // the folder does not matter
   });
@@ -71,17 +74,17 @@ describe('loadBundle', () => {
     const { file, folder } = bundle(BODY);
     const name = path.join(folder, cacheName(file, BODY));
     writeFileSync(name, Buffer.from('not a code cache at all, just bytes'.repeat(20)));
-    const r = loadBundle(file, folder);
+    const r = loadBundle(file, { folder });
     expect(r.cache).toBe('rejected');
     expect((r.exports as { twice(x: number): number }).twice(5)).toBe(10);
     r.save();
-    expect(loadBundle(file, folder).cache).toBe('used');
+    expect(loadBundle(file, { folder }).cache).toBe('used');
   });
 
   it('goes without a cache when there is no folder; a folder it cannot write only means no cache', () => {
     const { file, folder } = bundle(BODY);
-    expect(loadBundle(file, null).cache).toBe('off');
-    const gone = loadBundle(file, path.join(folder, 'missing', 'deeper'));
+    expect(loadBundle(file, { folder: null }).cache).toBe('off');
+    const gone = loadBundle(file, { folder: path.join(folder, 'missing', 'deeper') });
     expect((gone.exports as { twice(x: number): number }).twice(1)).toBe(2);
     gone.save(); // writing into a folder that is not there: no throw
     expect(readdirSync(folder)).toEqual([]);

@@ -8,7 +8,7 @@ import { spawnSync } from 'node:child_process';
 import path from 'node:path';
 import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
-import { childPlan, childV8Flags, hugePagesWanted, HUGE_PAGE_TUNABLE, pageFaultCost_us, SLOW_FAULT_US } from '../../extension/cli/launch';
+import { childV8Flags, hugePagesWanted, HUGE_PAGE_TUNABLE, launchPlan, pageFaultCost_us, SLOW_FAULT_US } from '../../extension/cli/launch';
 
 const root = path.resolve(__dirname, '../..');
 const cli = path.join(root, 'dist/cli.js');
@@ -48,62 +48,98 @@ describe('childV8Flags', () => {
   });
 });
 
-describe('childPlan', () => {
-  it('a child with the flag and huge pages on a slow-fault 2-core Linux machine, for the verbs that read logs', () => {
+describe('launchPlan', () => {
+  const NC = ['--no-concurrent-recompilation'];
+  it('a child process where huge pages are wanted (glibc reads the tunable only at start), with the V8 flags', () => {
     for (const verb of ['analyze', 'check', 'compare', 'montecarlo']) {
-      expect(childPlan({ PATH: '/bin' }, 'linux', verb, 2, slow)).toEqual({
-        env: { PATH: '/bin', RESIDUUM_LAUNCHED: '1', GLIBC_TUNABLES: HUGE_PAGE_TUNABLE }, flags: ['--no-concurrent-recompilation'],
+      expect(launchPlan({ PATH: '/bin' }, 'linux', verb, 2, slow)).toEqual({
+        how: 'child', env: { PATH: '/bin', RESIDUUM_LAUNCHED: '1', GLIBC_TUNABLES: HUGE_PAGE_TUNABLE }, flags: NC,
       });
     }
+    expect(launchPlan({ GLIBC_TUNABLES: 'glibc.malloc.arena_max=2' }, 'linux', 'analyze', 8, slow))
+      .toEqual({ how: 'child', env: { RESIDUUM_LAUNCHED: '1', GLIBC_TUNABLES: 'glibc.malloc.arena_max=2:glibc.malloc.hugetlb=1' }, flags: [] });
   });
-  it('keeps tunables the user set and adds its own after them', () => {
-    expect(childPlan({ GLIBC_TUNABLES: 'glibc.malloc.arena_max=2' }, 'linux', 'analyze', 8, slow)?.env.GLIBC_TUNABLES)
-      .toBe('glibc.malloc.arena_max=2:glibc.malloc.hugetlb=1');
+  it('a thread of its own when V8 flags are all there is to set (two cores or fewer, faults cheap or not Linux)', () => {
+    expect(launchPlan({}, 'linux', 'analyze', 2, cheap)).toEqual({ how: 'thread', flags: NC });
+    expect(launchPlan({}, 'darwin', 'analyze', 1, never)).toEqual({ how: 'thread', flags: NC });
+    expect(launchPlan({ RESIDUUM_HUGE_PAGES: '0' }, 'linux', 'check', 2, never)).toEqual({ how: 'thread', flags: NC });
   });
-  it('only the flag where faults are cheap; only huge pages on a machine with more cores', () => {
-    expect(childPlan({}, 'linux', 'analyze', 2, cheap)).toEqual({ env: { RESIDUUM_LAUNCHED: '1' }, flags: ['--no-concurrent-recompilation'] });
-    expect(childPlan({}, 'linux', 'analyze', 8, slow)).toEqual({ env: { RESIDUUM_LAUNCHED: '1', GLIBC_TUNABLES: HUGE_PAGE_TUNABLE }, flags: [] });
-    expect(childPlan({}, 'darwin', 'analyze', 2, never)).toEqual({ env: { RESIDUUM_LAUNCHED: '1' }, flags: ['--no-concurrent-recompilation'] });
+  it("the user's own concurrent-recompilation flag wins: none of ours (then a thread has nothing to do)", () => {
+    expect(launchPlan({}, 'linux', 'analyze', 2, cheap, ['--concurrent-recompilation'])).toEqual({ how: 'here' });
+    expect(launchPlan({}, 'linux', 'analyze', 2, cheap, ['--no_concurrent_recompilation'])).toEqual({ how: 'here' });
+    expect(launchPlan({}, 'linux', 'analyze', 2, slow, ['--concurrent-recompilation'])).toMatchObject({ how: 'child', flags: [] });
+    expect(launchPlan({}, 'linux', 'analyze', 2, cheap, ['--max-old-space-size=4096'])).toEqual({ how: 'thread', flags: NC });
   });
-  it('runs in this process when nothing changes, for other verbs, when asked, and in the child itself', () => {
-    expect(childPlan({}, 'linux', 'analyze', 8, cheap)).toBeUndefined();
-    expect(childPlan({}, 'darwin', 'analyze', 8, never)).toBeUndefined();
-    expect(childPlan({}, 'linux', '--help', 2, never)).toBeUndefined();
-    expect(childPlan({}, 'linux', 'export', 2, never)).toBeUndefined();
-    expect(childPlan({}, 'linux', undefined, 2, never)).toBeUndefined();
-    expect(childPlan({ RESIDUUM_NO_REEXEC: '1' }, 'linux', 'analyze', 2, never)).toBeUndefined();
-    expect(childPlan({ RESIDUUM_LAUNCHED: '1' }, 'linux', 'analyze', 2, never)).toBeUndefined();
+  it('runs here when nothing changes, for other verbs, when asked, and in the child itself', () => {
+    expect(launchPlan({}, 'linux', 'analyze', 8, cheap)).toEqual({ how: 'here' });
+    expect(launchPlan({}, 'darwin', 'analyze', 8, never)).toEqual({ how: 'here' });
+    expect(launchPlan({}, 'linux', '--help', 2, never)).toEqual({ how: 'here' });
+    expect(launchPlan({}, 'linux', 'export', 2, never)).toEqual({ how: 'here' });
+    expect(launchPlan({}, 'linux', undefined, 2, never)).toEqual({ how: 'here' });
+    expect(launchPlan({ RESIDUUM_NO_REEXEC: '1' }, 'linux', 'analyze', 2, never)).toEqual({ how: 'here' });
+    expect(launchPlan({ RESIDUUM_LAUNCHED: '1' }, 'linux', 'analyze', 2, never)).toEqual({ how: 'here' });
   });
 });
 
-describe('dist/cli.js through the child', () => {
-  const run = (args: string[], env: NodeJS.ProcessEnv) => spawnSync(process.execPath, [cli, ...args], { encoding: 'utf8', env });
-  it('gives the same message and exit status with and without the child', () => {
-    const viaChild = run(['analyze', '/no/such/residuum-log.csv'], { ...process.env, RESIDUUM_NO_REEXEC: '' });
-    const here = run(['analyze', '/no/such/residuum-log.csv'], { ...process.env, RESIDUUM_NO_REEXEC: '1' });
-    expect(viaChild.status).toBe(2);
-    expect(here.status).toBe(2);
-    expect(viaChild.stderr).toBe(here.stderr);
-    expect(viaChild.stderr).toMatch(/log not found: .*residuum-log\.csv/);
+describe('dist/cli.js through the child or the thread', () => {
+  const run = (args: string[], env: NodeJS.ProcessEnv) => spawnSync(process.execPath, [cli, ...args], { encoding: 'utf8', env, timeout: 120_000 });
+  const planned = { ...process.env, RESIDUUM_NO_REEXEC: '', RESIDUUM_LAUNCHED: '', GLIBC_TUNABLES: '' };
+  const here = { ...process.env, RESIDUUM_NO_REEXEC: '1' };
+  it('gives the same message and exit status through a child, a thread and here', () => {
+    for (const huge of ['1', '0']) {
+      const planned_ = run(['analyze', '/no/such/residuum-log.csv'], { ...planned, RESIDUUM_HUGE_PAGES: huge });
+      const direct = run(['analyze', '/no/such/residuum-log.csv'], here);
+      expect(planned_.status).toBe(2);
+      expect(direct.status).toBe(2);
+      expect(planned_.stderr).toBe(direct.stderr);
+      expect(planned_.stderr).toMatch(/log not found: .*residuum-log\.csv/);
+    }
   });
 
-  it("starts one child with the machine's settings and the parent's Node flags, which does the work", () => {
+  it('gives the same report, output and exit status through the thread as here (a real analysis and a failed gate)', () => {
+    const log = path.join(root, 'demo', 'warehouse-flight.csv');
+    const strip = (s: string): unknown => { const r = JSON.parse(s) as { generated?: unknown }; delete r.generated; return r; };
+    const env = { ...planned, RESIDUUM_HUGE_PAGES: '0' };
+    const threaded = run(['analyze', log, '--json'], env);
+    const direct = run(['analyze', log, '--json'], here);
+    expect(threaded.status).toBe(0);
+    expect(direct.status).toBe(0);
+    expect(threaded.stdout.length).toBeGreaterThan(10_000);
+    expect(strip(threaded.stdout)).toEqual(strip(direct.stdout));
+    // a gate that fails: exit status 1 (report contract), the same lines
+    const dir = mkdtempSync(path.join(os.tmpdir(), 'residuum-launch-'));
+    const gate = path.join(dir, 'gate.json');
+    writeFileSync(gate, JSON.stringify({ maxOutliers: 0 }));
+    const g1 = run(['check', log, '--gate', gate], env);
+    const g2 = run(['check', log, '--gate', gate], here);
+    expect(g2.status).toBe(1);
+    expect(g1.status).toBe(g2.status);
+    expect(g1.stdout).toBe(g2.stdout);
+  });
+
+  it("starts one child with the machine's settings and the parent's Node flags where huge pages are wanted; else no child", () => {
     const dir = mkdtempSync(path.join(os.tmpdir(), 'residuum-launch-'));
     const seen = path.join(dir, 'seen.txt');
     const preload = path.join(dir, 'preload.js');
-    // Every process that loads the preload writes its tunables and its Node flags: the parent, then its child.
-    writeFileSync(preload, `require('fs').appendFileSync(${JSON.stringify(seen)}, (process.env.GLIBC_TUNABLES || '-') + ' ' + process.execArgv.filter((a) => a.startsWith('--')).join(',') + '\\n');`);
+    // Every process that loads the preload writes its pid, its tunables and its Node flags: the parent, then a child.
+    writeFileSync(preload, `require('fs').appendFileSync(${JSON.stringify(seen)}, process.pid + ' ' + (process.env.GLIBC_TUNABLES || '-') + ' ' + process.execArgv.filter((a) => a.startsWith('--')).join(',') + '\\n');`);
     for (const huge of ['1', '0']) {
       writeFileSync(seen, '');
       const r = spawnSync(process.execPath, ['-r', preload, cli, 'analyze', '/no/such/residuum-log.csv'],
-        { encoding: 'utf8', env: { ...process.env, RESIDUUM_NO_REEXEC: '', RESIDUUM_LAUNCHED: '', GLIBC_TUNABLES: '', RESIDUUM_HUGE_PAGES: huge } });
+        { encoding: 'utf8', env: { ...planned, RESIDUUM_HUGE_PAGES: huge } });
       expect(r.status).toBe(2);
-      const lines = readFileSync(seen, 'utf8').trim().split('\n');
+      const lines = readFileSync(seen, 'utf8').trim().split('\n').map((l) => l.split(' '));
+      const pids = [...new Set(lines.map((l) => l[0]))];
+      const parent = lines[0];
+      expect(parent.slice(1)).toEqual(['-', '']);
       // The child gets the parent's flags (-r, not listed) after its own V8 flags (childV8Flags of this machine).
       const v8 = childV8Flags(os.availableParallelism()).join(',');
-      const tunable = huge === '1' && process.platform === 'linux' ? HUGE_PAGE_TUNABLE : '-';
-      if (tunable === '-' && v8 === '') expect(lines).toEqual(['- ']); // nothing to change: no child
-      else expect(lines).toEqual(['- ', `${tunable} ${v8}`]);
+      if (huge === '1' && process.platform === 'linux') {
+        expect(pids.length).toBe(2);
+        expect(lines.find((l) => l[0] !== parent[0])?.slice(1)).toEqual([HUGE_PAGE_TUNABLE, v8]);
+      } else {
+        expect(pids).toEqual([parent[0]]); // flags only (a thread) or nothing to change: no second process
+      }
     }
   });
 });
