@@ -14,7 +14,7 @@ import { fileURLToPath } from 'node:url';
 import { parseArgs } from 'node:util';
 import { loadavg, cpus } from 'node:os';
 import { ensureBundle, newestSource } from './bench/bundle.mjs';
-import { measure, measureOnce, peakMethod } from './bench/measure.mjs';
+import { measure, measureInterleaved, measureOnce, median, peakMethod } from './bench/measure.mjs';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..');
 process.chdir(ROOT);
@@ -24,7 +24,7 @@ mkdirSync(OUT, { recursive: true });
 const { values: opt } = parseArgs({
   options: {
     rows: { type: 'string', default: '250000' }, 'big-rows': { type: 'string', default: '2500000' },
-    'no-big': { type: 'boolean' }, runs: { type: 'string', default: '3' }, 'big-runs': { type: 'string', default: '1' },
+    'no-big': { type: 'boolean' }, runs: { type: 'string', default: '5' }, 'big-runs': { type: 'string', default: '1' },
     allan: { type: 'string', default: '10000000' }, huge: { type: 'boolean' }, keep: { type: 'boolean' },
   },
 });
@@ -139,23 +139,30 @@ const csv = benchLog(ROWS, 'csv');
 const jsonl = benchLog(ROWS, 'jsonl');
 log(`${relative(ROOT, csv.file)}: ${(csv.bytes / MB).toFixed(1)} MB, ${csv.rows} rows`);
 
-log('plain read ...');
-const plain = await measure(NODE, ['scripts/bench/newlines.mjs', csv.file], RUNS);
+// The plain read, the peer and the CSV analysis are run in turn, round after round (measureInterleaved): this VM's
+// speed drifts by several per cent over minutes and the peer's own times spread widely, so three runs of one and then
+// three of the next gave ratios that moved with the minute they were taken in.
+const analyzeArgs = (file, out) => [CLI, 'analyze', file, '--json', '--out', out];
+const trio = [
+  { cmd: NODE, args: ['scripts/bench/newlines.mjs', csv.file] },
+  ...(PYTHON ? [{ cmd: PYTHON, args: [PEER, csv.file] }] : []),
+  ...(CLI ? [{ cmd: NODE, args: analyzeArgs(csv.file, resolve(OUT, 'report-csv.json')) }] : []),
+];
+log(`plain read${PYTHON ? ', peer pandas script' : ''}${CLI ? ' and residuum analyze (CSV)' : ''}, in turn, ${RUNS} rounds ...`);
+const measured = await measureInterleaved(trio, RUNS);
+const plain = measured[0];
 addRow('plain Node read of the file and a newline count', csv, plain);
 
 let peer;
 if (PYTHON) {
-  log('peer pandas script ...');
-  peer = await measure(PYTHON, [PEER, csv.file], RUNS);
+  peer = measured[1];
   if (failed(peer)) notes.push(`The peer script failed: ${firstLine(peer.stderr)}`);
   else addRow(`peer: \`${relative(ROOT, PEER)}\` (pandas)`, csv, peer);
 }
 
-const analyzeArgs = (file, out) => [CLI, 'analyze', file, '--json', '--out', out];
-let cliCsv, profile, afterParse;
+let cliCsv, profile, afterParse, roundRatios;
 if (CLI) {
-  log('residuum analyze (CSV) ...');
-  cliCsv = await measure(NODE, analyzeArgs(csv.file, resolve(OUT, 'report-csv.json')), RUNS);
+  cliCsv = measured[measured.length - 1];
   if (failed(cliCsv)) {
     notes.push(`\`residuum analyze\` failed on the CSV log (exit ${cliCsv.status}): ${firstLine(cliCsv.stderr)}`);
     cliCsv = undefined;
@@ -163,6 +170,7 @@ if (CLI) {
     addRow('`residuum analyze --json --out` (CSV)', csv, cliCsv, {
       ratios: [peer && !failed(peer) ? `${(cliCsv.wall_s / peer.wall_s).toFixed(2)} x peer` : '', `${(cliCsv.wall_s / plain.wall_s).toFixed(1)} x plain read`].filter(Boolean).join(', '),
     });
+    if (peer && !failed(peer)) roundRatios = cliCsv.runs.map((r, k) => r.wall_s / peer.runs[k].wall_s);
     // The stage profile, RUNS times: the run with the median share of work after the parse is printed, and the
     // medians of the read and of what follows it (issue 3 asks the latter to be at most half the former).
     const profiles = [];
@@ -244,7 +252,7 @@ const cores = (() => { try { return readFileSync('/proc/cpuinfo', 'utf8').split(
 lines.push(`Benchmark, ${new Date().toISOString().slice(0, 10)}: Node ${process.version}, ${cores} cores (${cpu}).`);
 lines.push(`Log: the demo scene (\`extension/core/demo/warehouse.ts\`, bench column set: state at 100 Hz with ground truth, a 1-dof and a 3-dof channel), ` +
   `${fmtInt(csv.rows)} rows, ${(csv.bytes / MB).toFixed(1)} MB CSV. Wall time and peak memory of whole processes, median of ${RUNS} runs ` +
-  `(${BIG_RUNS} for the big log); peak memory by ${peakMethod()}.`);
+  `(${BIG_RUNS} for the big log; the plain read, the peer and the CSV analysis run in turn, round after round); peak memory by ${peakMethod()}.`);
 lines.push('');
 lines.push('| what | input | wall | rows/s | MB/s | peak | ratio |');
 lines.push('| --- | --- | ---: | ---: | ---: | ---: | --- |');
@@ -253,6 +261,13 @@ for (const r of results) {
   const mbps = r.bytes ? (r.bytes / MB / r.wall_s).toFixed(0) : '';
   const input = r.bytes ? `${(r.bytes / MB).toFixed(0)} MB, ${fmtInt(r.rows)} ${r.input.endsWith('.jsonl') ? 'records' : 'rows'}` : r.rows ? `${fmtInt(r.rows)} samples` : '';
   lines.push(`| ${r.what} | ${input} | ${r.wall_s.toFixed(2)} s | ${rowsPerS} | ${mbps} | ${r.peak_MiB.toFixed(0)} MiB | ${r.ratios ?? ''} |`);
+}
+for (const r of results.filter((x) => x.runs && x.runs.length > 1)) {
+  lines.push('', `Runs of "${r.what}": ${r.runs.map((x) => `${x.wall_s.toFixed(2)} s`).join(', ')}.`);
+}
+if (roundRatios) {
+  lines.push('', `\`analyze\` against the peer round by round (the two ran one after the other in each round): ` +
+    `${roundRatios.map((x) => `${x.toFixed(2)} x`).join(', ')}; median ${median(roundRatios).toFixed(2)} x.`);
 }
 if (profile) {
   lines.push('');
@@ -274,5 +289,5 @@ if (notes.length) {
 }
 const md = lines.join('\n') + '\n';
 writeFileSync(resolve(OUT, 'bench.md'), md);
-writeFileSync(resolve(OUT, 'bench.json'), JSON.stringify({ results: results.map(({ runs, stdout, stderr, ...r }) => ({ ...r, runs_s: runs?.map((x) => x.wall_s) })), notes, profile }, null, 2) + '\n');
+writeFileSync(resolve(OUT, 'bench.json'), JSON.stringify({ results: results.map(({ runs, stdout, stderr, ...r }) => ({ ...r, runs_s: runs?.map((x) => x.wall_s) })), roundRatios, notes, profile }, null, 2) + '\n');
 process.stdout.write(md);

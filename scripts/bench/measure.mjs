@@ -68,3 +68,26 @@ export async function measure(cmd, args, runs = 3, opts = {}) {
     stdout: all[all.length - 1].stdout,
   };
 }
+
+/**
+ * Run several commands in turn, `runs` rounds (A B C, A B C, ...), so that a machine whose speed drifts over minutes
+ * slows or speeds them alike: their ratios are then fairer than those of commands measured one after the other.
+ * `cmds`: [{ cmd, args, opts }]. Resolves one result per command, as {@link measure} gives.
+ */
+export async function measureInterleaved(cmds, runs = 3) {
+  const all = cmds.map(() => []);
+  for (let r = 0; r < runs; r++) {
+    for (let i = 0; i < cmds.length; i++) all[i].push(await measureOnce(cmds[i].cmd, cmds[i].args, cmds[i].opts ?? {}));
+  }
+  return all.map((rs) => {
+    const bad = rs.find((x) => x.status !== 0);
+    return {
+      wall_s: median(rs.map((x) => x.wall_s)),
+      peak_MiB: median(rs.map((x) => x.peak_MiB)),
+      runs: rs,
+      status: bad ? bad.status : 0,
+      stderr: (bad ?? rs[rs.length - 1]).stderr,
+      stdout: rs[rs.length - 1].stdout,
+    };
+  });
+}
