@@ -75,6 +75,8 @@ const XY_HEIGHT_PX = 360;
 /** Options of a chart over time (or tau, for log-log). */
 export interface TimeChartOptions {
   label: string;
+  /** The series' name in the legend (shape.ts legendLabel); the label when absent. */
+  legend?: string;
   unit: string;
   /** The y axis's label (shape.ts yAxisLabel: the unit, or a short name of the quantity). */
   axisLabel: string;
@@ -192,7 +194,7 @@ export class TimeChart extends PlotChart {
     const isLog = options.kind === 'loglog';
     const series: uPlot.Series[] = [
       { label: isTime ? 't [s]' : isLog ? 'tau [s]' : 'x' },
-      { label: options.label, stroke: () => theme().line, width: 1, points: { show: false }, spanGaps: false },
+      { label: options.legend ?? options.label, stroke: () => theme().line, width: 1, points: { show: false }, spanGaps: false },
     ];
     const bands: uPlot.Band[] = [];
     if (options.band) {

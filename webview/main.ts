@@ -52,6 +52,7 @@ import {
   layerName,
   worstOnPath,
   yAxisLabel,
+  legendLabel,
   type WindowAction,
 } from './shape';
 import { notesView } from './notes';
@@ -460,6 +461,7 @@ function addTimeChart(host: HTMLElement, viewId: string, info: SeriesInfo, kind:
     plot,
     {
       label: info.label,
+      legend: legendLabel(info.label),
       unit: info.unit,
       axisLabel: yAxisLabel(info),
       kind,

@@ -408,6 +408,17 @@ export function yAxisLabel(info: Pick<SeriesInfo, 'key' | 'label' | 'unit'>): st
 }
 
 /**
+ * The name of a chart's series in its legend: the series label without the words that describe the band (from " with "
+ * on: "position NEES (3 dof) with the per-epoch 95% band" -> "position NEES (3 dof)"), since the chart's heading above
+ * the plot already gives the whole label and the band has legend entries of its own (upper, lower). A label without
+ * " with " is kept whole.
+ */
+export function legendLabel(label: string): string {
+  const cut = label.indexOf(' with ');
+  return cut > 0 ? label.slice(0, cut) : label;
+}
+
+/**
  * `text` as drawn in at most `maxWidth` (the unit `measure` returns): whole when it fits, else the longest prefix
  * (trailing spaces dropped) followed by an ellipsis that fits, else '' (not even the ellipsis fits).
  */

@@ -29,6 +29,7 @@ import {
   worstLabel,
   worstOnPath,
   yAxisLabel,
+  legendLabel,
 } from '../../webview/shape';
 
 function info(key: string, group: string, extra: Partial<SeriesInfo> = {}): SeriesInfo {
@@ -180,6 +181,16 @@ describe('run summary', () => {
     const summary = new Map(runSummary({ ...report, source: { ...report.source, files: ['run.csv', 'run.csv.map.json', 'anchors.csv'] } }));
     expect(summary.get('Log')).toBe('run.csv');
     expect(summary.get('Files read')).toBe('run.csv, run.csv.map.json, anchors.csv');
+  });
+});
+
+describe('legend names', () => {
+  it('leave out the description of the band (the heading has it), and keep other labels whole', () => {
+    expect(legendLabel('position NEES (3 dof) with the per-epoch 95% band')).toBe('position NEES (3 dof)');
+    expect(legendLabel('position error x (true minus estimate) with +-3 sigma')).toBe('position error x (true minus estimate)');
+    expect(legendLabel('position NEES window averages with their 95% bounds (effective sample size)')).toBe('position NEES window averages');
+    expect(legendLabel('tdoa windowed NIS')).toBe('tdoa windowed NIS');
+    expect(legendLabel(' with a leading space only')).toBe(' with a leading space only');
   });
 });
 
