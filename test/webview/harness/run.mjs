@@ -1,6 +1,7 @@
 // Drives the webview harness in headless Chromium: bundles fakeHost.ts, serves a page with the real CSP shape and
 // dist/webview.js, checks the DOM hooks and that no CSP violation or page error occurs, and saves screenshots.
 // Usage: node test/webview/harness/run.mjs [--n 200000 | --log demo/warehouse-flight.csv] [--theme dark|light|hc]
+//        [--width 1100] (the page's width in CSS pixels: a narrow panel is, say, --width 460)
 // (after node scripts/build.mjs)
 import * as esbuild from 'esbuild';
 import { createServer } from 'node:http';
@@ -20,7 +21,8 @@ if (logPath) {
   real = await mod.exports.realHost(logPath);
 }
 const themeKind = arg('theme', 'dark');
-const out = 'test-output/webview-harness';
+const widthPx = Number(arg('width', '1100'));
+const out = widthPx === 1100 ? 'test-output/webview-harness' : `test-output/webview-harness-${widthPx}`;
 mkdirSync(out, { recursive: true });
 const fake = await esbuild.build({ entryPoints: ['test/webview/harness/fakeHost.ts'], bundle: true, write: false, format: 'iife', platform: 'browser' });
 const themes = {
@@ -56,7 +58,7 @@ const url = `http://127.0.0.1:${server.address().port}/?n=${n}${real ? '&real=1'
 const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', headless: true, args: ['--no-sandbox', '--disable-gpu', '--disable-dev-shm-usage'] });
 const problems = [];
 try {
-  const p = await browser.newPage({ viewportSize: { width: 1100, height: 900 } });
+  const p = await browser.newPage({ viewport: { width: widthPx, height: 900 } });
   p.on('console', (m) => { if (m.type() === 'error' || /Content Security Policy/.test(m.text())) problems.push(`console: ${m.text()}`); });
   p.on('pageerror', (e) => problems.push(`pageerror: ${e.stack}`));
   p.on('dialog', (d) => { problems.push(`dialog opened: ${d.message()}`); void d.dismiss(); });
