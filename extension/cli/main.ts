@@ -190,5 +190,6 @@ export function runCommandLine(argv: string[]): void {
   );
 }
 
-// Run directly (`node dist/cliMain.js`, the huge-page child of launch.ts, or a test's own bundle of this file).
+// Run directly (`node dist/cliMain.js`, or a test's own bundle of this file); dist/cli.js (launch.ts) loads it with a code
+// cache instead and calls runCommandLine itself.
 if (require.main === module) runCommandLine(process.argv.slice(2));
