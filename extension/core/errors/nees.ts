@@ -307,40 +307,44 @@ export function effectiveSampleSize(K: number, rho: Float64Array): number {
   return Math.max(1, Math.min(K, nEff));
 }
 
-/** Largest cost K (2L + 1)^2 for which tr(C^3) is computed exactly; beyond it the band-sum approximation is used. */
-const EXACT_TRACE_COST = 4_000_000;
-
 /**
  * Second and third cumulants of Q = sum over a window of K epochs of sum_i z_i^2, for stationary Gaussian
  * components with autocorrelations r_i: kappa2 = 2 sum_i tr(C_i^2), kappa3 = 8 sum_i tr(C_i^3), with C_i the K x K
- * Toeplitz correlation matrix (r_i(0) = 1). tr(C^2) = K + 2 sum_k (K - k) r_k^2 exactly; tr(C^3) exactly while
- * K (2L + 1)^2 <= 4e6, else K sum_{a,b} r_|a| r_|b| r_|a+b| (edges ignored, which over-states the skew: conservative).
+ * Toeplitz correlation matrix (r_i(0) = 1, r_i(k) = 0 beyond its L lags). Both traces exactly, in O(L) and O(L^2):
+ * tr(C^2) = K + 2 sum_k (K - k) r_k^2; tr(C^3) = sum over the index triples (i, j, l) of c_ij c_jl c_li, which with
+ * a = j - i and b = l - j is sum_{a,b} r(a) r(b) r(a + b) times the number of i for which i, i + a and i + a + b all
+ * lie in [0, K): K - (max(0, a, a + b) - min(0, a, a + b)) when positive. (Earlier a band-limited triple loop, O(K L^2),
+ * and beyond 4e6 of its steps an approximation that ignored the window's edges.)
  */
 export function windowCumulants(K: number, rs: Float64Array[]): { kappa1: number; kappa2: number; kappa3: number } {
   let k2 = 0, k3 = 0;
   for (const r of rs) {
     const L = Math.min(r.length, K - 1);
-    const rr = (m: number): number => { const a = Math.abs(m); return a === 0 ? 1 : a <= L ? r[a - 1] : 0; };
     let t2 = K;
     for (let k = 1; k <= L; k++) t2 += 2 * (K - k) * r[k - 1] * r[k - 1];
-    let t3 = 0;
-    if (L === 0) t3 = K;
-    else if (K * (2 * L + 1) * (2 * L + 1) <= EXACT_TRACE_COST) {
-      // tr(C^3) = sum_i sum_j sum_l c_ij c_jl c_li, band-limited
-      for (let i = 0; i < K; i++) {
-        for (let j = Math.max(0, i - L); j <= Math.min(K - 1, i + L); j++) {
-          const cij = rr(i - j);
-          for (let l = Math.max(0, j - L); l <= Math.min(K - 1, j + L); l++) t3 += cij * rr(j - l) * rr(l - i);
-        }
-      }
-    } else {
-      let s = 0;
-      for (let a = -L; a <= L; a++) for (let b = -L; b <= L; b++) s += rr(a) * rr(b) * rr(a + b);
-      t3 = K * s;
-    }
-    k2 += 2 * t2; k3 += 8 * t3;
+    k2 += 2 * t2; k3 += 8 * traceCube(K, r, L);
   }
   return { kappa1: K * rs.length, kappa2: k2, kappa3: k3 };
+}
+
+/** tr(C^3) of the K x K Toeplitz correlation matrix with r(0) = 1 and r(k) = r[k - 1] for 1 <= k <= L (see above). */
+export function traceCube(K: number, r: ArrayLike<number>, L: number): number {
+  let t3 = 0;
+  for (let a = -L; a <= L; a++) {
+    const ra = a === 0 ? 1 : r[Math.abs(a) - 1];
+    // b such that a + b also lies in [-L, L]
+    const b0 = Math.max(-L, -L - a), b1 = Math.min(L, L - a);
+    for (let b = b0; b <= b1; b++) {
+      const c = a + b;
+      const hi = Math.max(0, a, c), lo = Math.min(0, a, c);
+      const count = K - (hi - lo);
+      if (count <= 0) continue;
+      const rb = b === 0 ? 1 : r[Math.abs(b) - 1];
+      const rc = c === 0 ? 1 : r[Math.abs(c) - 1];
+      t3 += count * ra * rb * rc;
+    }
+  }
+  return t3;
 }
 
 /**
