@@ -58,6 +58,11 @@ export function median(xs) {
 export async function measure(cmd, args, runs = 3, opts = {}) {
   const all = [];
   for (let i = 0; i < runs; i++) all.push(await measureOnce(cmd, args, opts));
+  return summary(all);
+}
+
+/** The medians of several runs of one command, the runs, the first non-zero status, and that run's stderr. */
+function summary(all) {
   const bad = all.find((r) => r.status !== 0);
   return {
     wall_s: median(all.map((r) => r.wall_s)),
@@ -79,15 +84,5 @@ export async function measureInterleaved(cmds, runs = 3) {
   for (let r = 0; r < runs; r++) {
     for (let i = 0; i < cmds.length; i++) all[i].push(await measureOnce(cmds[i].cmd, cmds[i].args, cmds[i].opts ?? {}));
   }
-  return all.map((rs) => {
-    const bad = rs.find((x) => x.status !== 0);
-    return {
-      wall_s: median(rs.map((x) => x.wall_s)),
-      peak_MiB: median(rs.map((x) => x.peak_MiB)),
-      runs: rs,
-      status: bad ? bad.status : 0,
-      stderr: (bad ?? rs[rs.length - 1]).stderr,
-      stdout: rs[rs.length - 1].stdout,
-    };
-  });
+  return all.map(summary);
 }
