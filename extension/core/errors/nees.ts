@@ -27,13 +27,18 @@
 import { inverseQuadraticForm } from '../linalg/cholesky';
 import { chi2Cdf, chi2Interval, chi2Quantile, chi2Sf } from '../stats/chi2';
 import { giveBack, takeFloat64 } from '../scratch';
-import { fourLagSums } from '../stats/autocorrelation';
+import { fourLagSums, lagProductsByFft } from '../stats/autocorrelation';
 
 /** Largest autocorrelation lag used for the effective sample size. */
 export const MAX_ACF_LAG = 500;
 
 /** Most epochs (the last ones of a segment) used to estimate the autocorrelation. */
 export const ACF_MAX_EPOCHS = 100_000;
+/**
+ * Lags summed directly (in time order, four per pass); a sequence still correlated beyond them has its remaining lags
+ * from an FFT of the whole segment (stats/autocorrelation.ts lagProductsByFft), O(m log m) instead of O(m x lags).
+ */
+export const DIRECT_ACF_LAGS = 32;
 
 /** Covariance of one block per epoch: either 1-sigma columns (diagonal) or indices into a full logged P. */
 export interface BlockCovariance {
@@ -135,7 +140,9 @@ export function normalisedErrorAutocorrelations(err: Float64Array[], sigma: (Flo
  * Hand-tuned (~4x the former per-lag closures on long segments, where up to 500 lags x 100,000 epochs are summed):
  * each component is centred once into a work column (NaN where z is not finite, so a pair is skipped exactly when
  * one of its values is), and four lags are summed in one sweep with four accumulators; every sum still adds the
- * same products in the same order, so the values are unchanged.
+ * same products in the same order as the plain definition. Lags beyond DIRECT_ACF_LAGS (only errors still correlated
+ * there get so far) come from one FFT per component instead (lagProductsByFft: equal to about 1e-15 of r(0)): 500
+ * lags of 100,000 epochs summed directly took most of the errors stage on strongly correlated position errors.
  */
 function autocorrelationsOf(num: Float64Array[], den: (Float64Array | undefined)[] | undefined, i0In: number, i1: number): Float64Array[] {
   // Long segments: the last ACF_MAX_EPOCHS epochs (after any transient) are plenty for the estimate.
@@ -174,13 +181,18 @@ function autocorrelationsOf(num: Float64Array[], den: (Float64Array | undefined)
     if (variance > 0) { centred.push(d); gaps.push(cnt2 < m); } else { giveBack(d); centred.push(undefined); gaps.push(true); }
   }
   const r = new Float64Array(4 * nc);
+  // Past DIRECT_ACF_LAGS lags (strongly correlated errors) the rest come from one FFT per component.
+  let byFft: (Float64Array | undefined)[] | undefined;
   let lag = 1;
   done: while (lag <= maxLag) {
     const B = Math.min(4, maxLag - lag + 1);
+    if (!byFft && lag > DIRECT_ACF_LAGS) byFft = centred.map((d) => (d ? lagProductsByFft(d, m, maxLag) : undefined));
     for (let i = 0; i < nc; i++) {
       const d = centred[i];
       if (!d) { for (let j = 0; j < B; j++) r[4 * i + j] = 0; continue; }
-      lagSums(d, m, lag, B, gaps[i], sums);
+      const f = byFft?.[i];
+      if (f) for (let j = 0; j < B; j++) sums[j] = f[lag + j];
+      else lagSums(d, m, lag, B, gaps[i], sums);
       for (let j = 0; j < B; j++) r[4 * i + j] = sums[j] / (m * vars[i]);
     }
     for (let j = 0; j < B; j++, lag++) {
@@ -327,24 +339,29 @@ export function windowCumulants(K: number, rs: Float64Array[]): { kappa1: number
   return { kappa1: K * rs.length, kappa2: k2, kappa3: k3 };
 }
 
-/** tr(C^3) of the K x K Toeplitz correlation matrix with r(0) = 1 and r(k) = r[k - 1] for 1 <= k <= L (see above). */
+/**
+ * tr(C^3) of the K x K Toeplitz correlation matrix with r(0) = 1 and r(k) = r[k - 1] for 1 <= k <= L (see above).
+ * A term and its mirror (a, b) -> (-a, -b) are equal (r is even, the span the same), so the sum is the a = 0 row plus
+ * twice the rows a > 0; within a row the span is a + b (b >= 0), a (-a <= b < 0) or -b (b < -a), three loops without
+ * a max or min per term. L must be below K (every span is then below K: no term drops out).
+ */
 export function traceCube(K: number, r: ArrayLike<number>, L: number): number {
-  let t3 = 0;
-  for (let a = -L; a <= L; a++) {
-    const ra = a === 0 ? 1 : r[Math.abs(a) - 1];
-    // b such that a + b also lies in [-L, L]
-    const b0 = Math.max(-L, -L - a), b1 = Math.min(L, L - a);
-    for (let b = b0; b <= b1; b++) {
-      const c = a + b;
-      const hi = Math.max(0, a, c), lo = Math.min(0, a, c);
-      const count = K - (hi - lo);
-      if (count <= 0) continue;
-      const rb = b === 0 ? 1 : r[Math.abs(b) - 1];
-      const rc = c === 0 ? 1 : r[Math.abs(c) - 1];
-      t3 += count * ra * rb * rc;
-    }
-  }
-  return t3;
+  // R[L + m] = r(|m|) for |m| <= L
+  const R = new Float64Array(2 * L + 1);
+  R[L] = 1;
+  for (let m = 1; m <= L; m++) { R[L + m] = r[m - 1]; R[L - m] = r[m - 1]; }
+  let rows = 0;
+  for (let a = 1; a <= L; a++) rows += R[L + a] * traceCubeRow(K, R, L, a);
+  return traceCubeRow(K, R, L, 0) + 2 * rows;
+}
+
+/** Sum over b of (K - span(a, b)) r(b) r(a + b), for one a >= 0, b from -L to L - a (see traceCube). */
+function traceCubeRow(K: number, R: Float64Array, L: number, a: number): number {
+  let s = 0;
+  for (let b = 0; b <= L - a; b++) s += (K - a - b) * R[L + b] * R[L + a + b];
+  for (let b = -a; b < 0; b++) s += (K - a) * R[L + b] * R[L + a + b];
+  for (let b = -L; b < -a; b++) s += (K + b) * R[L + b] * R[L + a + b];
+  return s;
 }
 
 /**

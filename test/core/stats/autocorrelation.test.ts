@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import {
-  autocorrelation, autocorrelationBound, boxPierce, ljungBox, normalizedAutocorrelation, twoSidedNormalQuantile,
+  autocorrelation, autocorrelationBound, boxPierce, ljungBox, normalizedAutocorrelation, twoSidedNormalQuantile, lagProductsByFft,
 } from '../../../extension/core/stats/autocorrelation';
 import { jStat } from './references';
 import { makeRng } from '../consistency/rng';
@@ -94,5 +94,29 @@ describe('normalized autocorrelation and its bound (reference-checks.md sec 2.1-
     for (let j = 1; j <= lags; j++) if (Math.abs(rho[j - 1]) <= autocorrelationBound(0.95, K - j)) inside++;
     // Binomial(200, 0.95): mean 190, sd 3.1; 180 is more than 3 sd below.
     expect(inside).toBeGreaterThanOrEqual(180);
+  });
+});
+
+describe('lagProductsByFft (the lag products of a whole series at once)', () => {
+  // Reference: the plain definition s_k = sum_{a < len - k} x[a] x[a + k] over pairs of present values (common
+  // practice), summed here term by term. Seeded series (invented test inputs).
+  const plain = (x: Float64Array, len: number, k: number): number => {
+    let s = 0;
+    for (let a = 0; a + k < len; a++) if (x[a] === x[a] && x[a + k] === x[a + k]) s += x[a] * x[a + k];
+    return s;
+  };
+  it('equals the direct sums to 1e-12 of the lag-0 sum, with missing values, for lengths around powers of two', () => {
+    let seed = 7;
+    const next = (): number => { seed = (Math.imul(seed, 1664525) + 1013904223) >>> 0; return seed / 2 ** 32 - 0.5; };
+    for (const len of [1, 2, 5, 64, 65, 1000, 4097]) {
+      const x = new Float64Array(len + 3).fill(9); // values past len must be ignored
+      let e = 0;
+      for (let a = 0; a < len; a++) { e = 0.95 * e + next(); x[a] = a % 13 === 5 ? NaN : e; }
+      const maxLag = Math.min(len - 1, 300);
+      const got = lagProductsByFft(x, len, maxLag);
+      expect(got.length).toBe(maxLag + 1);
+      const s0 = plain(x, len, 0);
+      for (let k = 0; k <= maxLag; k++) expect(Math.abs(got[k] - plain(x, len, k)), `len ${len} lag ${k}`).toBeLessThanOrEqual(1e-12 * s0);
+    }
   });
 });
