@@ -21,11 +21,13 @@
  *   `RESIDUUM_HUGE_PAGES=1` or `=0` decides instead of the probe. Other C libraries and older glibc ignore the
  *   tunable. glibc reads it only when a process starts: huge pages mean a child process (with the V8 flags on its
  *   command line).
- * When neither applies the tool runs in this thread. `RESIDUUM_NO_REEXEC=1` always runs it here. The child is marked
+ * When neither applies, or the log is small ({@link TUNED_MIN_LOG_BYTES}), the tool runs in this thread with V8's
+ * defaults. `RESIDUUM_NO_REEXEC=1` always runs it here. The child is marked
  * (`RESIDUUM_LAUNCHED=1`) so it never starts another. Output, messages and the exit status are the tool's own in
  * every case (`--help` and errors in the arguments included).
  */
 import { spawnSync } from 'node:child_process';
+import { statSync } from 'node:fs';
 import path from 'node:path';
 import { availableParallelism } from 'node:os';
 import { getHeapStatistics, setFlagsFromString } from 'node:v8';
@@ -37,6 +39,15 @@ export const HUGE_PAGE_TUNABLE = 'glibc.malloc.hugetlb=1';
 
 /** A first write to a fresh 4 KiB page costing this many microseconds or more makes huge pages worth asking for. */
 export const SLOW_FAULT_US = 5;
+
+/**
+ * Logs smaller than this run in the first thread with V8's defaults (no flag, no huge pages): on the 2-core
+ * development machine a log of 2 to 7 MB (5,000 to 20,000 epochs) took 60 to 110 ms longer in a thread with
+ * `--no-concurrent-recompilation` than without (below 20,000 epochs the analysis uses one thread, and V8's background
+ * compiler has the second core to itself), while logs of 18 MB and more (50,000 epochs and up, the stage worker busy
+ * too) took 70 to 100 ms less (README "Performance"). 12 MiB lies between.
+ */
+export const TUNED_MIN_LOG_BYTES = 12 * 2 ** 20;
 
 /** Verbs that read whole logs and so gain from the child's settings. */
 const LOG_VERBS = new Set(['analyze', 'check', 'compare', 'montecarlo']);
@@ -88,14 +99,17 @@ export type LaunchPlan =
 
 /**
  * Where the tool runs for `verb` (see the file comment): here for verbs that read no whole log, with
- * `RESIDUUM_NO_REEXEC` set, in the child itself, or when nothing is to change; in a child process when huge pages
- * are wanted (glibc reads its tunable only at a process's start); in a thread when V8 flags are all there is to set.
+ * `RESIDUUM_NO_REEXEC` set, in the child itself, for a log below {@link TUNED_MIN_LOG_BYTES}, or when nothing is to
+ * change; in a child process when huge pages are wanted (glibc reads its tunable only at a process's start); in a
+ * thread when V8 flags are all there is to set.
  * `execArgv`: the Node flags of this process (a concurrent-recompilation flag of the user's wins over ours).
+ * `logBytes`: the size of the largest log the command names ({@link largestLogBytes}), undefined when not known.
  */
 export function launchPlan(env: NodeJS.ProcessEnv, platform: NodeJS.Platform, verb: string | undefined, cores: number,
-  faultCost_us: () => number = pageFaultCost_us, execArgv: readonly string[] = []): LaunchPlan {
+  faultCost_us: () => number = pageFaultCost_us, execArgv: readonly string[] = [], logBytes?: number): LaunchPlan {
   if (verb === undefined || !LOG_VERBS.has(verb)) return { how: 'here' };
   if (env.RESIDUUM_NO_REEXEC || env.RESIDUUM_LAUNCHED) return { how: 'here' };
+  if (logBytes !== undefined && logBytes < TUNED_MIN_LOG_BYTES) return { how: 'here' };
   const own = execArgv.some((a) => a.replace(/_/g, '-').includes('concurrent-recompilation'));
   const flags = own ? [] : childV8Flags(cores);
   if (hugePagesWanted(env, platform, faultCost_us)) {
@@ -106,6 +120,25 @@ export function launchPlan(env: NodeJS.ProcessEnv, platform: NodeJS.Platform, ve
     };
   }
   return flags.length > 0 ? { how: 'thread', flags } : { how: 'here' };
+}
+
+/**
+ * Size in bytes of the largest regular file among the command's arguments after the verb (the logs, and any small
+ * file an option names), or undefined when none is one (a folder of runs, a missing path: the size is not known).
+ */
+export function largestLogBytes(args: readonly string[], stat: (p: string) => { isFile(): boolean; size: number } | undefined = statOrUndefined): number | undefined {
+  let largest: number | undefined;
+  for (const a of args) {
+    if (a.startsWith('-')) continue;
+    const st = stat(a);
+    if (st && !st.isFile()) return undefined; // a folder (montecarlo): its logs' sizes are not looked at
+    if (st) largest = Math.max(largest ?? 0, st.size);
+  }
+  return largest;
+}
+
+function statOrUndefined(p: string): { isFile(): boolean; size: number } | undefined {
+  try { return statSync(p); } catch { return undefined; }
 }
 
 /**
@@ -150,7 +183,8 @@ require(${JSON.stringify(__filename)}).runBundle(${JSON.stringify(mainFile)}, wo
 if (require.main === module) {
   const mainFile = path.join(__dirname, 'cliMain.js');
   const argv = process.argv.slice(2);
-  const plan = launchPlan(process.env, process.platform, argv[0], availableParallelism(), pageFaultCost_us, process.execArgv);
+  const plan = launchPlan(process.env, process.platform, argv[0], availableParallelism(), pageFaultCost_us, process.execArgv,
+    largestLogBytes(argv.slice(1)));
   if (plan.how === 'here') {
     runBundle(mainFile, argv);
   } else if (plan.how === 'thread') {

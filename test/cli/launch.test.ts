@@ -6,9 +6,9 @@
 import { describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
 import path from 'node:path';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
-import { childV8Flags, hugePagesWanted, HUGE_PAGE_TUNABLE, launchPlan, pageFaultCost_us, SLOW_FAULT_US } from '../../extension/cli/launch';
+import { childV8Flags, hugePagesWanted, HUGE_PAGE_TUNABLE, largestLogBytes, launchPlan, pageFaultCost_us, SLOW_FAULT_US, TUNED_MIN_LOG_BYTES } from '../../extension/cli/launch';
 
 const root = path.resolve(__dirname, '../..');
 const cli = path.join(root, 'dist/cli.js');
@@ -70,6 +70,14 @@ describe('launchPlan', () => {
     expect(launchPlan({}, 'linux', 'analyze', 2, slow, ['--concurrent-recompilation'])).toMatchObject({ how: 'child', flags: [] });
     expect(launchPlan({}, 'linux', 'analyze', 2, cheap, ['--max-old-space-size=4096'])).toEqual({ how: 'thread', flags: NC });
   });
+  it('runs a small log here with V8 defaults (one analysis thread: the background compiler has a free core), a large or unknown one tuned', () => {
+    const small = TUNED_MIN_LOG_BYTES - 1;
+    expect(launchPlan({}, 'linux', 'analyze', 2, never, [], small)).toEqual({ how: 'here' });
+    expect(launchPlan({ RESIDUUM_HUGE_PAGES: '1' }, 'linux', 'analyze', 2, never, [], small)).toEqual({ how: 'here' });
+    expect(launchPlan({}, 'linux', 'analyze', 2, cheap, [], TUNED_MIN_LOG_BYTES)).toEqual({ how: 'thread', flags: NC });
+    expect(launchPlan({}, 'linux', 'analyze', 2, slow, [], 100 * 2 ** 20)).toMatchObject({ how: 'child', flags: NC });
+    expect(launchPlan({}, 'linux', 'montecarlo', 2, cheap, [], undefined)).toEqual({ how: 'thread', flags: NC });
+  });
   it('runs here when nothing changes, for other verbs, when asked, and in the child itself', () => {
     expect(launchPlan({}, 'linux', 'analyze', 8, cheap)).toEqual({ how: 'here' });
     expect(launchPlan({}, 'darwin', 'analyze', 8, never)).toEqual({ how: 'here' });
@@ -78,6 +86,22 @@ describe('launchPlan', () => {
     expect(launchPlan({}, 'linux', undefined, 2, never)).toEqual({ how: 'here' });
     expect(launchPlan({ RESIDUUM_NO_REEXEC: '1' }, 'linux', 'analyze', 2, never)).toEqual({ how: 'here' });
     expect(launchPlan({ RESIDUUM_LAUNCHED: '1' }, 'linux', 'analyze', 2, never)).toEqual({ how: 'here' });
+  });
+});
+
+describe('largestLogBytes', () => {
+  const files: Record<string, { isFile(): boolean; size: number }> = {
+    'a.csv': { isFile: () => true, size: 10 }, 'b.csv': { isFile: () => true, size: 30 },
+    'anchors.csv': { isFile: () => true, size: 2 }, runs: { isFile: () => false, size: 4096 },
+  };
+  const stat = (p: string): { isFile(): boolean; size: number } | undefined => files[p];
+  it('is the largest file named, options and missing paths left out; unknown for a folder or when no file is named', () => {
+    expect(largestLogBytes(['a.csv', 'b.csv', '--align', 'start'], stat)).toBe(30);
+    expect(largestLogBytes(['a.csv', '--anchors', 'anchors.csv', '--json'], stat)).toBe(10);
+    expect(largestLogBytes(['missing.csv', 'a.csv'], stat)).toBe(10);
+    expect(largestLogBytes(['runs'], stat)).toBeUndefined();
+    expect(largestLogBytes(['missing.csv'], stat)).toBeUndefined();
+    expect(largestLogBytes([], stat)).toBeUndefined();
   });
 });
 
@@ -97,7 +121,12 @@ describe('dist/cli.js through the child or the thread', () => {
   });
 
   it('gives the same report, output and exit status through the thread as here (a real analysis and a failed gate)', () => {
-    const log = path.join(root, 'demo', 'warehouse-flight.csv');
+    // a log above TUNED_MIN_LOG_BYTES (smaller ones run here anyway): the demo scene's benchmark columns, 40,000 rows
+    const dir0 = mkdtempSync(path.join(os.tmpdir(), 'residuum-launch-'));
+    const log = path.join(dir0, 'large.csv');
+    const gen = spawnSync(process.execPath, [path.join(root, 'dist/gen-demo.js'), '--bench', '--rows', '40000', '--format', 'csv', '--out', log], { encoding: 'utf8' });
+    expect(gen.status, gen.stderr).toBe(0);
+    expect(statSync(log).size).toBeGreaterThanOrEqual(TUNED_MIN_LOG_BYTES);
     const strip = (s: string): unknown => { const r = JSON.parse(s) as { generated?: unknown }; delete r.generated; return r; };
     const env = { ...planned, RESIDUUM_HUGE_PAGES: '0' };
     const threaded = run(['analyze', log, '--json'], env);
