@@ -211,13 +211,18 @@ export interface BiasScratch {
   work: Float64Array;
   idx?: Int32Array;
   pos?: Int32Array;
-  /** The median step of the stream's time column (sampled), made by the first axis and read by the others. */
-  dtAll?: { t: Float64Array; n: number; value: number };
+  /** The median step of the stream's time column (sampled), the same for every axis: taken once, with the columns. */
+  dtAll: number;
 }
 
-/** Work columns for a state stream of `n` records, from the shared pool (scratch.ts): give them back with {@link giveBackBiasScratch}. */
-export function biasScratch(n: number): BiasScratch {
-  return { n, d: takeFloat64(n), work: takeFloat64(n) };
+/**
+ * Work columns for the state stream `state`, from the shared pool (scratch.ts), and its median time step: give them
+ * back with {@link giveBackBiasScratch}.
+ */
+export function biasScratch(state: StateStream): BiasScratch {
+  const n = state.length;
+  const work = takeFloat64(n);
+  return { n, d: takeFloat64(n), work, dtAll: sampledStepMedian(state.t_s, n, work) };
 }
 
 /** The scratch's index column `which`, taken from the pool on first use. */
@@ -334,7 +339,7 @@ export function analyzeBiasSensor(state: StateStream, sensor: BiasSensor, option
   const cols = AXES.map((ax) => state.columns.get(`${PREFIX[sensor]}_${ax}`));
   if (cols.every((c) => c === undefined)) return { findings, series };
   const own = !(options.scratch && options.scratch.d.length >= state.length);
-  const scratch = own ? biasScratch(state.length) : options.scratch as BiasScratch;
+  const scratch = own ? biasScratch(state) : options.scratch as BiasScratch;
   for (let a = 0; a < 3; a++) {
     const col = cols[a];
     results.push(col ? analyzeAxis(state, col, state.columns.get(`sigma_${PREFIX[sensor]}_${AXES[a]}`), sensor, a, options, findings, scratch) : undefined);
@@ -373,8 +378,7 @@ function analyzeAxis(
   // that is the median step of the time column, so it is taken first and the corrections made in the same pass
   // (checked below: otherwise they are made again).
   const dAll = scratch.d;
-  // the same for every axis of the stream: made once
-  const dtAll = scratch.dtAll?.t === t && scratch.dtAll.n === n ? scratch.dtAll.value : (scratch.dtAll = { t, n, value: sampledStepMedian(t, n, work) }).value;
+  const dtAll = scratch.dtAll;
   const count = usableSamples(t, col, n, dtAll, dAll);
   const zeros = scanZeros;
   if (count < 2) return undefined;

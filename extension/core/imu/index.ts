@@ -125,7 +125,7 @@ export function analyzeBias(log: NavLog, settings: AnalysisSettings): StageOutpu
     }
     // one set of work columns for the six axes
     const hasBias = ['bg', 'ba'].some((p) => ['x', 'y', 'z'].some((a) => log.state.columns.has(`${p}_${a}`)));
-    const scratch = hasBias ? biasScratch(log.state.length) : undefined;
+    const scratch = hasBias ? biasScratch(log.state) : undefined;
     const gyro = analyzeBiasSensor(log.state, 'gyro', { alpha, spec: resolved, scratch });
     const accel = analyzeBiasSensor(log.state, 'accel', { alpha, spec: resolved, scratch });
     if (scratch) giveBackBiasScratch(scratch);
