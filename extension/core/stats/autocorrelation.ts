@@ -9,9 +9,10 @@
  *   rho(j) = sum_k nu(k)^T nu(k+j) / sqrt(sum_k |nu(k)|^2 sum_k |nu(k+j)|^2), not mean-removed, approximately
  *   N(0, 1/K) for K pairs under whiteness (Bar-Shalom, Li and Kirubarajan 2001, sec. 5.4).
  *
- * All are O(n * lags) with one scratch array of n values: bounded lag counts, never O(n^2). The lag sums are
- * taken four lags per pass over the data (each lag still summed in time order, so the values are the same as one
- * pass per lag): one pass per lag cost ~4x more on long series, the data being read from memory each time.
+ * All are O(n * lags) with one scratch array of n values: bounded lag counts, never O(n^2); `lagProductsByFft`
+ * gives all lags of a long series at once in O(n log n). The lag sums are taken four lags per pass over the data
+ * (each lag still summed in time order, so the values are the same as one pass per lag): one pass per lag cost ~4x
+ * more on long series, the data being read from memory each time.
  */
 import FFT from 'fft.js';
 import { chi2Quantile, chi2Sf } from './chi2';
@@ -22,10 +23,9 @@ import { giveBack, takeFloat64 } from '../scratch';
  * (NaN) counting as absent (its products left out, as the direct sums skip them). By the Wiener-Khinchin relation:
  * the series zero-padded to a power of two of at least len + maxLag (so that no product of a lag up to maxLag wraps
  * around), the inverse transform of its power spectrum is the lag products, in O(len log len) whatever maxLag, where
- * the direct sums cost O(len maxLag) (500
- * lags of 100,000 epochs were most of the errors stage on strongly correlated errors). The transform is fft.js
- * (Fedor Indutny's radix-4 FFT, npm). Its rounding is about 1e-16 of sum x^2 per value, not the direct sums' last
- * bits: callers that have the first lags directly keep those.
+ * the direct sums cost O(len maxLag) (500 lags of 100,000 epochs were most of the errors stage on strongly correlated
+ * errors). The transform is fft.js (Fedor Indutny's radix-4 FFT, npm). Its rounding is about 1e-16 of sum x^2 per
+ * value, not the direct sums' last bits: callers that have the first lags directly keep those.
  */
 export function lagProductsByFft(x: Float64Array, len: number, maxLag: number): Float64Array {
   let size = 4;
