@@ -15,7 +15,7 @@
  * whole read; the host terminates the worker if it does not stop promptly (a session then starts afresh).
  */
 import { parentPort, workerData } from 'node:worker_threads';
-import { analyzeFile, InputError, readLogFile, type FileAnalysis } from '../node/analyzeFile';
+import { analyzeFile, InputError, readLogFile } from '../node/analyzeFile';
 import { LiveAnalysis, type ReadInfo } from '../node/liveAnalysis';
 import { resolveSettings, type AnalysisSettings } from '../core/settings';
 import { compareRuns, type Comparison } from '../core/compareRuns';
@@ -87,12 +87,13 @@ export function commonFindingKinds(reports: readonly Report[]): string[] {
   return [...sets[0]].filter((k) => sets.every((s) => s.has(k))).sort();
 }
 
-/** Analyse each path in turn; progress is the share of the runs read. */
-async function analyseAll(paths: string[], map: string | undefined, settings: Partial<AnalysisSettings> | undefined, signal: AbortSignal, progress: (f: number) => void): Promise<FileAnalysis[]> {
-  const out: FileAnalysis[] = [];
-  for (const [i, p] of paths.entries()) {
-    out.push(await analyzeFile(p, { map, settings, signal, onProgress: (f) => progress((i + f) / paths.length) }));
-  }
+/**
+ * `each` of the paths in turn (an analysis, or only a read); progress is the share of the runs done, `each` telling
+ * its own share of one run through the callback it gets.
+ */
+async function eachRun<T>(paths: string[], each: (path: string, onProgress: (f: number) => void) => Promise<T>, progress: (f: number) => void): Promise<T[]> {
+  const out: T[] = [];
+  for (const [i, p] of paths.entries()) out.push(await each(p, (f) => progress((i + f) / paths.length)));
   return out;
 }
 
@@ -167,7 +168,8 @@ async function runOnce(port: NonNullable<typeof parentPort>, request: AnyWorkerR
   const progress = progressReporter((r) => port.postMessage(r));
   try {
     if ('kind' in request && request.kind === 'compare') {
-      const runs = await analyseAll(request.paths, request.map, request.settings, controller.signal, progress);
+      const { map, settings: given } = request;
+      const runs = await eachRun(request.paths, (p, onProgress) => analyzeFile(p, { map, settings: given, signal: controller.signal, onProgress }), progress);
       const settings = runs.map((r) => resolveSettings({ ...request.settings, ...(typeof r.report.settings.map === 'string' ? { map: r.report.settings.map } : {}) }));
       const result = compareRuns(runs, settings, request.align);
       if (!result.ok) throw new InputError(`cannot compare: ${result.message}`);
@@ -176,10 +178,8 @@ async function runOnce(port: NonNullable<typeof parentPort>, request: AnyWorkerR
     }
     if ('kind' in request && request.kind === 'montecarlo') {
       // only the logs: the N-run figures come from their columns, not from each run's own analysis
-      const logs: NavLog[] = [];
-      for (const [i, p] of request.paths.entries()) {
-        logs.push(await readLogFile(p, { map: request.map, settings: request.settings, signal: controller.signal, onProgress: (f) => progress((i + f) / request.paths.length) }));
-      }
+      const { map, settings } = request;
+      const logs = await eachRun(request.paths, (p, onProgress) => readLogFile(p, { map, settings, signal: controller.signal, onProgress }), progress);
       const block = analyzeMonteCarlo(logs, resolveSettings(request.settings));
       port.postMessage({ type: 'montecarlo', block } satisfies WorkerReply, transferable(reachableBuffers(block)));
       return;
