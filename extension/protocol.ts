@@ -320,8 +320,11 @@ export interface ReadInfo {
   bytes: number;
   /** Size of the main log read so far (the next run's `start` in tail mode), bytes. */
   total: number;
-  /** Set when the log was read again from the start because it was truncated or replaced, or its mapping changed. */
-  restarted?: 'truncated' | 'replaced' | 'mapping';
+  /**
+   * Set when the log was read again from the start because it was truncated, replaced or rewritten in place
+   * (extension/node/tail.ts), or its mapping changed.
+   */
+  restarted?: 'truncated' | 'replaced' | 'rewritten' | 'mapping';
 }
 
 /** Everything the panel needs to draw (sent after `ready` and again after each re-read). */

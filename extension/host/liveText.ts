@@ -19,6 +19,8 @@ export function restartNotice(read: ReadInfo | undefined): string | undefined {
       return 'The log became shorter (truncated); it was read again from the start.';
     case 'replaced':
       return 'The log was replaced by another file; it was read again from the start.';
+    case 'rewritten':
+      return 'The log was rewritten in place (bytes already read changed); it was read again from the start.';
     case 'mapping':
       return 'The mapping file changed; the log was read again from the start.';
     default:

@@ -1,10 +1,10 @@
 /**
  * Following a growing log (extension/node/tail.ts): appended rows are read on the next poll; a log truncated below
- * what was read, or replaced by another file renamed over it, is read again from the start and a note says so; a
- * deleted log is a plain error naming it. Real files; the rows carry x = k * i so two versions are told apart.
+ * what was read, replaced by another file renamed over it, or rewritten in place (same inode, not shorter, bytes
+ * already read changed) is read again from the start and a note says so; a deleted log is a plain error naming it. Real files; the rows carry x = k * i so two versions are told apart.
  */
 import { describe, expect, it } from 'vitest';
-import { appendFileSync, mkdtempSync, renameSync, unlinkSync, writeFileSync } from 'node:fs';
+import { appendFileSync, closeSync, mkdtempSync, openSync, renameSync, unlinkSync, writeFileSync, writeSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import * as path from 'node:path';
 import { FileTail } from '../../extension/node/tail';
@@ -62,6 +62,70 @@ describe('FileTail', () => {
     expect(r.restarted).toBe('replaced');
     expect(px(r.log)).toEqual(Array.from({ length: 10 }, (_, i) => 5 * i));
     expect(r.log.diagnostics.some((d) => /replaced by another file while it was being followed/.test(d.message))).toBe(true);
+  });
+
+  it('a log rewritten in place and grown past what was read (same inode, no truncation) is read again', async () => {
+    // An estimator run again on the same path, its file opened without truncation: the new run's bytes overwrite
+    // the old ones from the start, and by the next poll it is longer than what was read.
+    const p = path.join(dir, 'rewrite.csv');
+    writeFileSync(p, 't,p_x\n' + rows(0, 5, 1));
+    const tail = new FileTail(p);
+    await tail.poll();
+    const fd = openSync(p, 'r+');
+    writeSync(fd, 't,p_x\n' + rows(0, 40, 3), 0);
+    closeSync(fd);
+    const r = await tail.poll();
+    expect(r.restarted).toBe('rewritten');
+    expect(px(r.log)).toEqual(Array.from({ length: 40 }, (_, i) => 3 * i));
+    expect(r.log.diagnostics.find((d) => /rewritten in place while it was being followed/.test(d.message))?.message)
+      .toMatch(/it was read again from the start/);
+    expect(r.log.diagnostics.filter((d) => d.kind === 'parse-error')).toEqual([]);
+    // Then it is followed again as usual.
+    appendFileSync(p, rows(40, 41, 3));
+    const later = await tail.poll();
+    expect(later.restarted).toBeUndefined();
+    expect(px(later.log).at(-1)).toBe(120);
+  });
+
+  it('a header patched in place at the same length (the first bytes changed) is read again', async () => {
+    const p = path.join(dir, 'patched.csv');
+    writeFileSync(p, '# rows: 000\nt,p_x\n' + rows(0, 3, 1));
+    const tail = new FileTail(p);
+    await tail.poll();
+    const fd = openSync(p, 'r+');
+    writeSync(fd, '# rows: 003', 0);
+    closeSync(fd);
+    const r = await tail.poll();
+    expect(r.restarted).toBe('rewritten');
+    expect(px(r.log)).toEqual([0, 1, 2]);
+  });
+
+  it('bytes changed only just before the read offset (a long log: the last bytes read) are noticed', async () => {
+    const p = path.join(dir, 'edge.csv');
+    const text = 't,p_x\n' + rows(0, 2000, 1); // well over twice the witness windows
+    writeFileSync(p, text);
+    const tail = new FileTail(p);
+    await tail.poll();
+    const fd = openSync(p, 'r+');
+    writeSync(fd, rows(1999, 2000, 9), text.length - rows(1999, 2000, 1).length - 1); // the last row's value, shifted
+    closeSync(fd);
+    appendFileSync(p, rows(2000, 2001, 1));
+    expect((await tail.poll()).restarted).toBe('rewritten');
+  });
+
+  it('an unchanged log and a log written again with the same bytes are not restarted', async () => {
+    const p = path.join(dir, 'same.csv');
+    const text = 't,p_x\n' + rows(0, 3, 1);
+    writeFileSync(p, text);
+    const tail = new FileTail(p);
+    await tail.poll();
+    expect((await tail.poll()).restarted).toBeUndefined();
+    const fd = openSync(p, 'r+');
+    writeSync(fd, text + rows(3, 4, 1), 0); // the same bytes again, then one more row
+    closeSync(fd);
+    const r = await tail.poll();
+    expect(r.restarted).toBeUndefined();
+    expect(px(r.log)).toEqual([0, 1, 2, 3]);
   });
 
   it('a deleted log is a plain error naming it', async () => {

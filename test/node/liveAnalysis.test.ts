@@ -177,6 +177,7 @@ describe('session worker helpers', () => {
     expect(describeRead({ mode: 'tail', start: 0, bytes: 90, total: 90, restarted: 'truncated' })).toBe('read bytes 0..90 (90 bytes, from the start: truncated)');
     expect(describeRead({ mode: 'whole', start: 0, bytes: 7, total: 7 })).toBe('read whole, 7 bytes');
     expect(restartNotice({ mode: 'tail', start: 0, bytes: 1, total: 1, restarted: 'mapping' })).toMatch(/mapping file changed/);
+    expect(restartNotice({ mode: 'tail', start: 0, bytes: 1, total: 1, restarted: 'rewritten' })).toMatch(/rewritten in place/);
     expect(restartNotice({ mode: 'tail', start: 5, bytes: 1, total: 6 })).toBeUndefined();
   });
 });
