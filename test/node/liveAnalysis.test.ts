@@ -5,7 +5,7 @@
  * mapping file, is read again from the start with a note; an unfinished last line waits for its line end.
  * Real files in a temporary folder; the log is the bundled demo scene (invented data), cut at a line boundary.
  */
-import { appendFileSync, copyFileSync, mkdtempSync, readFileSync, renameSync, statSync, writeFileSync } from 'node:fs';
+import { appendFileSync, closeSync, copyFileSync, mkdtempSync, openSync, readFileSync, renameSync, statSync, writeFileSync, writeSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import * as path from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -72,6 +72,25 @@ describe('LiveAnalysis of a growing log', () => {
     const whole = (await analyzeFile(p)).report.source.sha256;
     expect(whole).toMatch(/^[0-9a-f]{64}$/);
     expect(r.report.source.sha256).toBe(whole);
+  });
+
+  it('a log rewritten in place by another run (same file, not truncated, longer) is read again from the start', async () => {
+    const p = path.join(dir, 'rewrite.csv');
+    writeFileSync(p, head);
+    const live = new LiveAnalysis(p);
+    await live.run();
+    // Another run of the estimator written over the same bytes from the start (the file opened without truncation):
+    // its first line differs and it is longer than what was read.
+    const fd = openSync(p, 'r+');
+    writeSync(fd, (head + rest).replace('warehouse inspection flight', 'warehouse inspection FLIGHT'), 0);
+    closeSync(fd);
+    const r = await live.run();
+    expect(r.read).toMatchObject({ mode: 'tail', start: 0, restarted: 'rewritten', total: statSync(p).size });
+    expect(r.log.diagnostics.some((d) => /rewritten in place while it was being followed/.test(d.message))).toBe(true);
+    const whole = await analyzeFile(p);
+    expect(r.report.source.sha256).toBe(whole.report.source.sha256);
+    expect(r.report.time).toEqual(whole.report.time);
+    expect(r.report.channels).toEqual(whole.report.channels);
   });
 
   it('a log replaced by another file (renamed over it) is read again from the start', async () => {
