@@ -46,15 +46,11 @@ export const UWB_WINDOW_S = 1;
 /** At most this many `too-few-anchors` and as many `high-dop` findings; the last one says how many were left out. */
 export const MAX_GEOMETRY_FINDINGS = 100;
 
-/** Robust and classical summary of a set of residuals, metres. */
-export interface ResidualReport {
-  count: number;
-  mean?: number;
-  std?: number;
-  median?: number;
-  mad?: number;
-  rms?: number;
-}
+/**
+ * Robust and classical summary of a set of residuals, metres, as the report gives it: {@link ValueSummary} without
+ * the lag-1 autocorrelation.
+ */
+export type ResidualReport = Omit<ValueSummary, 'rho1'>;
 
 /** Figures shared by an anchor and a TDOA pair (a link): updates, NIS, innovations and residuals. */
 export interface UwbLinkFigures {
