@@ -32,7 +32,7 @@ export function lagProductsByFft(x: Float64Array, len: number, maxLag: number): 
   while (size < len + maxLag) size *= 2;
   const input = new Float64Array(size);
   for (let a = 0; a < len; a++) { const v = x[a]; input[a] = v === v ? v : 0; }
-  const fft = new FFT(size);
+  const fft = fftOfSize(size);
   const spectrum = new Float64Array(2 * size);
   fft.realTransform(spectrum, input); // bins 0..size/2 (the rest mirror them)
   // The power spectrum is real and even, so its inverse transform is its forward transform over size: one more
@@ -49,6 +49,19 @@ export function lagProductsByFft(x: Float64Array, len: number, maxLag: number): 
   const out = new Float64Array(maxLag + 1);
   for (let k = 0; k <= maxLag && k < len; k++) out[k] = spectrum[2 * k] / size;
   return out;
+}
+
+/**
+ * The transform of one size, kept for the next call: the callers take the lag products of several series of one
+ * length in a row (three components of each error block), and building fft.js's tables (a sine and a cosine per
+ * point, in a plain array) took longer than a transform. One size is kept, so the memory held is that of the last
+ * size used (about 32 bytes a point).
+ */
+let lastFft: { size: number; fft: FFT } | undefined;
+
+function fftOfSize(size: number): FFT {
+  if (lastFft?.size !== size) lastFft = { size, fft: new FFT(size) };
+  return lastFft.fft;
 }
 
 /**
