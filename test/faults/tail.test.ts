@@ -16,6 +16,15 @@ function rows(from: number, to: number, k: number): string {
   for (let i = from; i < to; i++) out.push(`${(i * 0.1).toFixed(1)},${k * i}\n`);
   return out.join('');
 }
+/** Write `text` over the file from byte `at` on, through a descriptor opened without truncation (same inode). */
+function overwrite(p: string, text: string, at: number): void {
+  const fd = openSync(p, 'r+');
+  try {
+    writeSync(fd, text, at);
+  } finally {
+    closeSync(fd);
+  }
+}
 const px = (log: { state: { columns: Map<string, Float64Array>; length: number } }): number[] =>
   Array.from(log.state.columns.get('p_x') ?? []).slice(0, log.state.length);
 
@@ -71,9 +80,7 @@ describe('FileTail', () => {
     writeFileSync(p, 't,p_x\n' + rows(0, 5, 1));
     const tail = new FileTail(p);
     await tail.poll();
-    const fd = openSync(p, 'r+');
-    writeSync(fd, 't,p_x\n' + rows(0, 40, 3), 0);
-    closeSync(fd);
+    overwrite(p, 't,p_x\n' + rows(0, 40, 3), 0);
     const r = await tail.poll();
     expect(r.restarted).toBe('rewritten');
     expect(px(r.log)).toEqual(Array.from({ length: 40 }, (_, i) => 3 * i));
@@ -92,9 +99,7 @@ describe('FileTail', () => {
     writeFileSync(p, '# rows: 000\nt,p_x\n' + rows(0, 3, 1));
     const tail = new FileTail(p);
     await tail.poll();
-    const fd = openSync(p, 'r+');
-    writeSync(fd, '# rows: 003', 0);
-    closeSync(fd);
+    overwrite(p, '# rows: 003', 0);
     const r = await tail.poll();
     expect(r.restarted).toBe('rewritten');
     expect(px(r.log)).toEqual([0, 1, 2]);
@@ -106,9 +111,7 @@ describe('FileTail', () => {
     writeFileSync(p, text);
     const tail = new FileTail(p);
     await tail.poll();
-    const fd = openSync(p, 'r+');
-    writeSync(fd, rows(1999, 2000, 9), text.length - rows(1999, 2000, 1).length - 1); // the last row's value, shifted
-    closeSync(fd);
+    overwrite(p, '2999', text.length - 5); // the last row, "199.9,1999\n", becomes "199.9,2999\n"
     appendFileSync(p, rows(2000, 2001, 1));
     expect((await tail.poll()).restarted).toBe('rewritten');
   });
@@ -120,9 +123,7 @@ describe('FileTail', () => {
     const tail = new FileTail(p);
     await tail.poll();
     expect((await tail.poll()).restarted).toBeUndefined();
-    const fd = openSync(p, 'r+');
-    writeSync(fd, text + rows(3, 4, 1), 0); // the same bytes again, then one more row
-    closeSync(fd);
+    overwrite(p, text + rows(3, 4, 1), 0); // the same bytes again, then one more row
     const r = await tail.poll();
     expect(r.restarted).toBeUndefined();
     expect(px(r.log)).toEqual([0, 1, 2, 3]);
