@@ -13,7 +13,7 @@ import { resolveSettings, type AnalysisSettings } from '../core/settings';
 import { analyzeLog, type SourceInfo, type StageTimes } from '../core/analyze';
 import { readRun, type ByteSource } from '../core/read/index';
 import {
-  appendSettled, fileByteSource, openRelative, FileChangedError, rewrittenMessage, rewrittenSince, type FileLayer, type FileStamp,
+  appendSettled, fileByteSource, openRelative, FileChangedError, rewrittenMessage, rewrittenSince, stampOf, type FileLayer, type FileStamp,
 } from './fileSource';
 import { notesForReport } from './notesReport';
 import { mergeResetTimes } from '../core/resets/segments';
@@ -267,7 +267,7 @@ async function readMainOnce(logPath: string, options: AnalyzeFileOptions, memory
   const raw = fileByteSource(logPath, { // reuse: every consumer below copies what it keeps
     files, reuse: true, rewrites: true,
     onOpen: (st) => { identity = { dev: st.dev, ino: st.ino }; },
-    onEnd: (st) => { stamp = { size: st.size, mtimeMs: st.mtimeMs, ctimeMs: st.ctimeMs }; },
+    onEnd: (st) => { stamp = stampOf(st); },
   });
   let bytesRead = 0;
   let failure: Error | undefined;

@@ -106,6 +106,11 @@ export interface FileStamp {
   ctimeMs: number;
 }
 
+/** The stamp of a stat (fstat of a descriptor, or a stat of the path). */
+export function stampOf(st: FileStamp): FileStamp {
+  return { size: st.size, mtimeMs: st.mtimeMs, ctimeMs: st.ctimeMs };
+}
+
 /**
  * Whether a file seen as `before` and later as `after` (the same inode) was written without growing: its modification
  * or status-change time moved while its size did not grow. That is how a rewrite in place is told (same inode, same
@@ -113,8 +118,9 @@ export interface FileStamp {
  * appended to while it is read is simply read further (as it always was), so a file that grew between two looks is
  * taken for appended to. The limits of a check by stat: a rewrite that also grows the file between two looks is not
  * seen, nor one that lands within the file system's time granularity of the write before it; a touch moves the times
- * too, and the change time moves on a chmod, chown or new hard link, which then read the file again (only time lost). The change time is
- * looked at because the modification time can be set back (touch -d, a copy that keeps times); the change time cannot.
+ * too, and the change time moves on a chmod, chown or new hard link, which then read the file again (only time
+ * lost). The change time is looked at because the modification time can be set back (touch -d, a copy that keeps
+ * times); the change time cannot.
  */
 export function rewrittenSince(before: FileStamp, after: FileStamp): boolean {
   return after.size <= before.size && (after.mtimeMs !== before.mtimeMs || after.ctimeMs !== before.ctimeMs);
@@ -151,8 +157,8 @@ export async function appendSettled(filePath: string, before: FileStamp & { ino:
  * (`analyzeFile` then reads it again once). A file that grows while it is read is simply read further.
  * With `rewrites`, a rewrite in place is a change too: times moved without growth since the last look
  * ({@link rewrittenSince}), confirmed by a second look ({@link appendSettled}); the first look is the fstat at open.
- * (Off by default: the tail of a live log, which resumes at `start` and restarts only on truncation or replacement
- * (tail.ts), and the other files of a run keep the checks they had.)
+ * (Off by default: the tail of a live log resumes at `start` on a file that is being appended to, so it tells a
+ * rewrite by the bytes it read instead (tail.ts); the other files of a run keep the checks they had.)
  * `onOpen` gets the opened file's stat (its device and inode identify the file that was read); `onEnd` the stat of the
  * last look, once the whole file was read without a change (the state the bytes read are of).
  */

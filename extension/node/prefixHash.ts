@@ -15,7 +15,7 @@
  */
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
 import { createHash, type Hash } from 'node:crypto';
-import type { FileChange, FileStamp } from './fileSource';
+import { stampOf, type FileChange, type FileStamp } from './fileSource';
 
 /** Bytes read per `readSync` while hashing (the main thread's chunk size: the hasher trails it by one chunk). */
 const HASH_CHUNK_BYTES = 1 << 20;
@@ -106,8 +106,7 @@ export class PrefixHasher {
 
   /** The times and size of the open file now (fstat of the descriptor). */
   stamp(): FileStamp {
-    const st = fstatSync(this.fd);
-    return { size: st.size, mtimeMs: st.mtimeMs, ctimeMs: st.ctimeMs };
+    return stampOf(fstatSync(this.fd));
   }
 
   /** Hex digest (once). */
