@@ -107,12 +107,12 @@ export class FileTail {
   private witness(chunk: Uint8Array): void {
     if (chunk.length === 0) return;
     if (this.head.length < WITNESS_BYTES && this.reader.bytesRead === this.head.length) {
-      this.head = concat(this.head, chunk.subarray(0, WITNESS_BYTES - this.head.length));
+      this.head = Buffer.concat([this.head, chunk.subarray(0, WITNESS_BYTES - this.head.length)]);
     }
-    // The chunk's buffer is reused by the byte source: the edge is always a copy.
+    // The chunk's buffer is reused by the byte source: head and edge are always copies (Buffer.from, Buffer.concat).
     this.edge = chunk.length >= WITNESS_BYTES
-      ? chunk.slice(chunk.length - WITNESS_BYTES)
-      : concat(this.edge.subarray(Math.max(0, this.edge.length + chunk.length - WITNESS_BYTES)), chunk);
+      ? Buffer.from(chunk.subarray(chunk.length - WITNESS_BYTES))
+      : Buffer.concat([this.edge.subarray(Math.max(0, this.edge.length + chunk.length - WITNESS_BYTES)), chunk]);
   }
 
   /**
@@ -131,14 +131,14 @@ export class FileTail {
     }
     try {
       const same = async (expected: Uint8Array, at: number): Promise<boolean> => {
-        const got = new Uint8Array(expected.length);
+        const got = Buffer.alloc(expected.length);
         let n = 0;
         while (n < got.length) {
           const { bytesRead } = await handle.read(got, n, got.length - n, at + n);
           if (bytesRead === 0) return false; // shorter than what was read: the stat before was of another moment
           n += bytesRead;
         }
-        return equalBytes(got, expected);
+        return got.equals(expected);
       };
       return (await same(this.head, 0)) && (await same(this.edge, end - this.edge.length)) ? undefined : 'rewritten';
     } catch {
@@ -161,17 +161,4 @@ export class FileTail {
     this.reader.addDiagnostics([{ severity: 'warning', kind: 'note', file: this.filePath, line: 0,
       message: `${what}; it was read again from the start.` }]);
   }
-}
-
-function concat(a: Uint8Array, b: Uint8Array): Uint8Array {
-  const out = new Uint8Array(a.length + b.length);
-  out.set(a, 0);
-  out.set(b, a.length);
-  return out;
-}
-
-function equalBytes(a: Uint8Array, b: Uint8Array): boolean {
-  if (a.length !== b.length) return false;
-  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
-  return true;
 }
